@@ -547,10 +547,14 @@ def format_ppm(fractional: Fraction | float, digits: int = 4) -> str:
     ppm = float(fractional) * 1e6
     if not math.isfinite(ppm):
         return f"{ppm} ppm"
-    text = f"{ppm:+.{digits}g}"
-    if "e" in text:
-        mantissa, exponent = text.split("e")
-        text = f"{mantissa}e{int(exponent)}"
+    magnitude = abs(ppm)
+    if magnitude < 1e-3:
+        mantissa, exponent = f"{ppm:+.{digits - 1}e}".split("e")
+        return f"{mantissa.rstrip('0').rstrip('.')}e{int(exponent)} ppm"
+    decimals = max(digits - 1 - math.floor(math.log10(magnitude)), 0)
+    text = f"{ppm:+,.{decimals}f}"
+    if "." in text:
+        text = text.rstrip("0").rstrip(".")
     return f"{text} ppm"
 
 
