@@ -65,7 +65,52 @@ def _build_parser() -> argparse.ArgumentParser:
     audit.add_argument("board", help="board file (TOML)")
     _add_output_options(audit)
     audit.set_defaults(run=_run_audit)
+
+    plan = commands.add_parser(
+        "plan",
+        help="find the settings (R, N, dividers) the board leaves open",
+        description=(
+            "Fill every setting the board file leaves open so that each consumer gets its frequency: exact where "
+            "reachable, else inside its allowed synthesis error with the smallest worst error. Settings the file "
+            "gives stay fixed. The objective is documented in docs/planning.md."
+        ),
+        epilog=_EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    plan.add_argument("board", help="board file (TOML)")
+    plan.add_argument("--alternatives", type=_count, default=0, metavar="K", help="also show K distinct runner-up plans")
+    plan.add_argument("--write", metavar="OUT", help="write the board with its settings filled in to OUT (never over the input without --in-place)")
+    plan.add_argument("--in-place", action="store_true", help="write the filled-in settings back into the input file")
+    plan.add_argument("--time-limit", type=_seconds, default=10.0, metavar="S", help="search time budget in seconds (default 10)")
+    plan.add_argument(
+        "--loop-bandwidth",
+        default=None,
+        metavar="HZ",
+        help="loop bandwidth for the in-band spur flag of PLLs that do not state one (default 200 kHz)",
+    )
+    _add_output_options(plan)
+    plan.set_defaults(run=_run_plan)
     return parser
+
+
+def _count(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
+    if not 0 <= value <= 100:
+        raise argparse.ArgumentTypeError("expected a whole number from 0 to 100")
+    return value
+
+
+def _seconds(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number of seconds, got {text!r}") from None
+    if not 0 < value <= 3600:
+        raise argparse.ArgumentTypeError("expected a time limit above 0 and at most 3600 seconds")
+    return value
 
 
 def _console(args: argparse.Namespace):
@@ -91,6 +136,49 @@ def _run_audit(args: argparse.Namespace) -> int:
     from clockplan.boardfile import load_board
 
     return _emit(args, analyze(load_board(args.board)), "audit")
+
+
+def _run_plan(args: argparse.Namespace) -> int:
+    from clockplan.analysis import analyze
+    from clockplan.boardfile import load_board
+    from clockplan.plan.board_planner import PlanOptions, plan_board
+    from clockplan.plan.output import plan_document, plan_findings, render_plan
+    from clockplan.units import parse_frequency
+
+    if args.write and args.in_place:
+        raise ClockplanError("give either --write OUT or --in-place, not both", hint="--in-place writes back into the input file")
+    board = load_board(args.board)
+    options = PlanOptions(alternatives=args.alternatives, time_limit_s=args.time_limit)
+    if args.loop_bandwidth is not None:
+        options = PlanOptions(args.alternatives, args.time_limit, parse_frequency(args.loop_bandwidth))
+    plan = plan_board(board, options)
+    analysis = analyze(board, plan.settings)
+    analysis = analysis.with_findings(plan_findings(plan, analysis))
+    explanation = None
+    if not plan.feasible:
+        from clockplan.plan.explain import explain_infeasible
+
+        explanation = explain_infeasible(plan)
+    if args.json:
+        from clockplan.report.json import dumps
+
+        sys.stdout.write(dumps(plan_document(analysis, plan, explanation)))
+    else:
+        render_plan(analysis, plan, _console(args), explanation)
+    if explanation is not None:
+        raise InfeasibleError(
+            f"{board.name}: no plan puts every consumer inside its allowed synthesis error\n{explanation.text()}",
+            file=board.source_file,
+            hint="relax the blocking constraint named above, or raise max_synthesis_error where the standard allows it",
+        )
+    target = args.board if args.in_place else args.write
+    if target:
+        from clockplan.plan.boardwrite import write_board_file
+
+        write_board_file(args.board, target, board, plan.settings, in_place=args.in_place)
+        if not args.json:
+            sys.stderr.write(f"clockplan: wrote the planned settings to {target}\n")
+    return EXIT_FINDINGS if analysis.has_errors else EXIT_OK
 
 
 def main(argv: Sequence[str] | None = None) -> int:

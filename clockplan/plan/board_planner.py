@@ -324,7 +324,7 @@ class _Planner:
         for out in pll.outputs:
             node = f"{pll.id}.{out.name}"
             chain_first = IntChoices.of((pinned_dividers[out.name],)) if out.name in pinned_dividers else out.divider
-            spec = self._output_spec(out.name, node, chain_first)
+            spec = self.output_spec(out.name, node, chain_first)
             if spec is None:
                 free.append(out.name)
                 wish = self._input_wishes(node)
@@ -354,7 +354,7 @@ class _Planner:
             return [self._blocked(pll.id, f"{pll.id}: no output divider gives the parts it feeds a usable frequency")]
         return _ranked(plans, self.keep)
 
-    def _output_spec(self, name: str, node: str, first: IntChoices) -> OutputSpec | None:
+    def output_spec(self, name: str, node: str, first: IntChoices) -> OutputSpec | None:
         lift = self._lift(node)
         if lift.targets:
             targets = list(lift.targets)
@@ -408,7 +408,7 @@ class _Planner:
         pll, factor = lift.plls[0]
         targets = []
         for out in pll.outputs:
-            spec = self._output_spec(out.name, f"{pll.id}.{out.name}", out.divider)
+            spec = self.output_spec(out.name, f"{pll.id}.{out.name}", out.divider)
             if spec is None:
                 continue
             if len({t.hz for t in spec.targets}) != 1 or len(spec.chain) != 1:
