@@ -213,9 +213,10 @@ def explain_infeasible(plan: "BoardPlan") -> Explanation:
                     continue
                 pair = replace(problem, outputs=(spec, other))
                 if not _feasible(pair):
-                    code, _ = _blocking(pll, pair)
                     involved = tuple(sorted({t.label for t in spec.targets + other.targets}))
-                    explanation.conflicts.append(Conflict(involved, code, _pair_message(pll, spec, other) + f" (blocking: {code})"))
+                    if all(c.consumers != involved for c in explanation.conflicts):
+                        code, _ = _blocking(pll, pair)
+                        explanation.conflicts.append(Conflict(involved, code, _pair_message(pll, spec, other) + f" (blocking: {code})"))
                     explained |= labels
                     break
             else:
