@@ -61,6 +61,8 @@ __all__ = [
     "numeric_phase_margin",
     "numeric_total_capacitance",
     "numeric_components",
+    "resistor_noise_transfer",
+    "numeric_resistor_noise_transfer",
 ]
 
 COMPONENT_NAMES: dict[int, tuple[str, ...]] = {
@@ -115,6 +117,40 @@ def filter_impedance(order: int):
         equations = [sp.Eq(i_pump, shunt + through_r3), sp.Eq(through_r3, s * sym["c3"] * v_tune)]
     solution = sp.solve(equations, [v_pump, v_tune], dict=True)[0]
     return sp.factor(sp.cancel(solution[v_tune] / i_pump), s)
+
+
+@lru_cache(maxsize=None)
+def resistor_noise_transfer(order: int, resistor: str):
+    """Return ``Vtune / Vn`` for a noise voltage ``Vn`` in series with ``resistor``.
+
+    The charge pump is open (no signal current), as in the open loop; the
+    loop's own correction is applied afterwards through ``1 / (1 + G)``.
+
+    Examples
+    --------
+    >>> resistor_noise_transfer(2, "r1")
+    c1/(c1*c2*r1*s + c1 + c2)
+    """
+    import sympy as sp
+
+    _check_order(order)
+    if resistor not in ("r1", "r3") or (resistor == "r3" and order == 2):
+        raise ValueError(f"no resistor {resistor!r} in an order-{order} filter")
+    sym = _symbols()
+    s = sym["s"]
+    v_pump, v_tune, v_noise = sp.symbols("v_pump v_tune v_noise")
+    source_r1 = v_noise if resistor == "r1" else 0
+    # The series source lifts the R1 end of the zero branch by v_noise.
+    zero_branch = (v_pump - source_r1) / (sym["r1"] + 1 / (s * sym["c1"]))
+    total = s * sym["c2"] * v_pump + zero_branch
+    if order == 2:
+        equations = [sp.Eq(total, 0), sp.Eq(v_tune, v_pump)]
+    else:
+        source_r3 = v_noise if resistor == "r3" else 0
+        through_r3 = (v_pump + source_r3 - v_tune) / sym["r3"]
+        equations = [sp.Eq(total + through_r3, 0), sp.Eq(through_r3, s * sym["c3"] * v_tune)]
+    solution = sp.solve(equations, [v_pump, v_tune], dict=True)[0]
+    return sp.factor(sp.cancel(solution[v_tune] / v_noise), s)
 
 
 @lru_cache(maxsize=None)
@@ -345,3 +381,19 @@ def numeric_components(order: int) -> Callable[..., dict[str, float]]:
         return {k: float(functions[k](a0, a1, a2, tz)) for k in names}
 
     return evaluate
+
+
+@lru_cache(maxsize=None)
+def numeric_resistor_noise_transfer(order: int, resistor: str) -> Callable[..., Any]:
+    """Return ``f(s, *components) -> Vtune/Vn`` evaluated with numpy (``s`` may be an array).
+
+    Examples
+    --------
+    >>> complex(numeric_resistor_noise_transfer(2, "r1")(0.0, 1e3, 1e-9, 1e-9))
+    (0.5+0j)
+    """
+    import sympy as sp
+
+    sym = _symbols()
+    arguments = [sym["s"]] + [sym[a] for a in COMPONENT_NAMES[order]]
+    return sp.lambdify(arguments, resistor_noise_transfer(order, resistor), modules="numpy")
