@@ -174,6 +174,11 @@ def _read_fixed(table: Mapping[str, object], order: int, prefix: str) -> FilterD
     return FilterDesign(order, **values)
 
 
+def _require(table: Mapping[str, object], name: str, prefix: str, message: str, hint: str) -> None:
+    if name not in table:
+        raise BoardError(f"{message} {name}", key=f"{prefix}.{name}", hint=hint)
+
+
 def parse_loop_filter(table: Mapping[str, object], key: str = "loop_filter") -> LoopFilterConfig:
     """Turn a TOML-decoded ``loop_filter`` table into a :class:`LoopFilterConfig`.
 
@@ -208,22 +213,13 @@ def parse_loop_filter(table: Mapping[str, object], key: str = "loop_filter") -> 
                 hint=suggestion or "known keys: " + ", ".join(LOOP_FILTER_KEYS),
             )
     for required in ("charge_pump", "kvco"):
-        if required not in table:
-            raise BoardError(
-                f"the loop filter needs {required}",
-                key=f"{key}.{required}",
-                hint=f"add {required} = {_EXAMPLES[required]}",
-            )
+        _require(table, required, key, "the loop filter needs", f"add {required} = {_EXAMPLES[required]}")
     order = _read_order(table.get("order", 3), f"{key}.order")
     fixed = _read_fixed(table, order, key)
     if fixed is None:
         for required in ("bandwidth", "phase_margin"):
-            if required not in table:
-                raise BoardError(
-                    f"designing a loop filter needs {required}",
-                    key=f"{key}.{required}",
-                    hint=f"add {required} ({LOOP_FILTER_KEYS[required]}), or give an existing filter's parts",
-                )
+            hint = f"add {required} ({LOOP_FILTER_KEYS[required]}), or give an existing filter's parts"
+            _require(table, required, key, "designing a loop filter needs", hint)
 
     def optional(name: str, reader, *args):
         return reader(table[name], f"{key}.{name}", *args) if name in table else None

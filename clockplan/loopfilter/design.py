@@ -31,6 +31,7 @@ from fractions import Fraction
 
 from clockplan.errors import ClockplanError, InfeasibleError
 from clockplan.eseries import snap
+from clockplan.loopfilter._numeric import geometric_bisection
 from clockplan.loopfilter.symbolic import (
     COMPONENT_NAMES,
     numeric_coefficients,
@@ -197,15 +198,7 @@ def _solve_pole_time_constant(order: int, wc: float, margin_rad: float, pole_rat
         high *= 10
         if high > 1e12 / wc:  # pragma: no cover - unreachable for margins below 90°
             raise InfeasibleError("the phase-margin equation has no solution", hint="lower the phase margin")
-    for _ in range(200):
-        middle = math.sqrt(low * high)
-        if excess(middle) > 0:
-            low = middle
-        else:
-            high = middle
-        if high / low - 1 < 1e-14:
-            break
-    return math.sqrt(low * high)
+    return geometric_bisection(lambda t1: excess(t1) > 0, low, high, rel_tol=1e-14)
 
 
 def design_filter(

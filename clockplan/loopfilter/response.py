@@ -26,6 +26,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from clockplan.errors import ClockplanError
+from clockplan.loopfilter._numeric import geometric_bisection
 from clockplan.loopfilter.design import FilterDesign, LoopSpec
 
 __all__ = [
@@ -130,19 +131,6 @@ def _open_loop_magnitude(design: FilterDesign, spec: LoopSpec):
     return num, den, magnitude
 
 
-def _geometric_bisection(predicate, low: float, high: float) -> float:
-    """Return the point in ``[low, high]`` where ``predicate`` turns from True to False."""
-    for _ in range(200):
-        middle = math.sqrt(low * high)
-        if predicate(middle):
-            low = middle
-        else:
-            high = middle
-        if high / low - 1 < 1e-13:
-            break
-    return math.sqrt(low * high)
-
-
 def loop_margins(design: FilterDesign, spec: LoopSpec) -> LoopMargins:
     """Measure the 0 dB crossover and the phase margin of the open-loop gain.
 
@@ -166,7 +154,7 @@ def loop_margins(design: FilterDesign, spec: LoopSpec) -> LoopMargins:
         low /= 10
     while magnitude(high) >= 1:
         high *= 10
-    crossover = _geometric_bisection(lambda f: magnitude(f) > 1, low, high)
+    crossover = geometric_bisection(lambda f: magnitude(f) > 1, low, high)
     gain = frequency_response(num, den, [crossover])[0]
     # -G = G * e^{j*pi}: its angle is the phase margin.
     return LoopMargins(crossover_hz=crossover, phase_margin_deg=math.degrees(float(np.angle(-gain))))
@@ -211,7 +199,7 @@ def closed_loop_bandwidth_hz(design: FilterDesign, spec: LoopSpec) -> float:
     half_power = 1 / math.sqrt(2)
     above = np.flatnonzero(magnitude >= half_power)
     last = int(above[-1])
-    return _geometric_bisection(
+    return geometric_bisection(
         lambda f: abs(frequency_response(num, den, [f])[0]) >= half_power,
         float(frequencies[last]),
         float(frequencies[last + 1]),
