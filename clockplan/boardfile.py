@@ -136,9 +136,9 @@ class TableReader:
             return default
         try:
             return parse(self.table[name])
-        except BoardError:
-            raise
         except ClockplanError as err:
+            if err.file or err.key:
+                raise
             raise self.ctx.error(self.path(name), err.message, err.hint or hint) from None
         except (TypeError, ValueError, ArithmeticError) as err:
             raise self.error(name, f"invalid value {self.table[name]!r}: {err}", hint) from None
@@ -477,6 +477,9 @@ def parse_board(text: str, file: str | None = None) -> Board:
         lines=_line_table(ctx, doc),
     )
     _check_unique_ids(board, ctx)
+    from clockplan.graph import build_graph
+
+    build_graph(board)  # refuses unknown sources, loops and over-subscribed buffers
     return board
 
 

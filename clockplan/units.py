@@ -117,7 +117,7 @@ class _ExpressionParser:
 
     def parse(self) -> Fraction:
         if not self.tokens:
-            raise UnitError("empty number", hint="write a number such as '25' or '156.25'")
+            raise UnitError("a number is missing", hint="write a number such as '25' or '156.25'")
         value = self._expr()
         if self.pos != len(self.tokens):
             raise UnitError(
@@ -316,7 +316,8 @@ def parse_frequency(value: object) -> Fraction:
             )
         if unit and unit.lower().endswith("hz"):
             unit = unit[:-2] + "Hz"
-        hz = parse_number(number) * _prefix_scale(unit, "Hz", "frequency", value)
+        scale = _prefix_scale(unit, "Hz", "frequency", value)
+        hz = parse_number(number) * scale
     if hz <= 0:
         raise UnitError(f"frequency {value!r} is not positive", hint="a frequency must be above 0 Hz")
     return hz
@@ -380,7 +381,8 @@ def parse_time(value: object) -> float:
     number, unit = _split_unit(value)
     if unit == "":
         raise UnitError(f"time {value!r} has no unit", hint="write e.g. '0.3 ps' or '150 fs'")
-    seconds = parse_number(number) * _prefix_scale(unit, "s", "time", value)
+    scale = _prefix_scale(unit, "s", "time", value)
+    seconds = parse_number(number) * scale
     if seconds < 0:
         raise UnitError(f"time {value!r} is negative", hint="a time interval is zero or positive")
     return float(seconds)
