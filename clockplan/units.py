@@ -484,14 +484,15 @@ def format_quantity(value: Fraction | int | float, unit: str, significant: int =
 
     An exact value is written with all its digits if its decimal expansion
     terminates within ``significant`` digits; otherwise it is rounded to
-    ``significant`` digits and marked ``≈``, so an inexact value never looks exact.
+    10 significant digits (fewer than any exact value may show) and marked
+    ``≈``, so an inexact value never looks exact.
 
     Examples
     --------
     >>> format_quantity(Fraction(156250000), "Hz")
     '156.25 MHz'
     >>> format_quantity(Fraction(148500000000, 1001), "Hz")
-    '≈148.351648352 MHz'
+    '≈148.3516484 MHz'
     """
     if isinstance(value, float):
         if not math.isfinite(value):
@@ -506,7 +507,7 @@ def format_quantity(value: Fraction | int | float, unit: str, significant: int =
     exact = _decimal_text(scaled, max(significant - integer_digits, 0))
     if exact is not None:
         return f"{exact} {prefix}{unit}"
-    decimals = max(significant - integer_digits, 0)
+    decimals = max(min(significant, 10) - integer_digits, 0)
     rounded = f"{float(scaled):.{decimals}f}".rstrip("0").rstrip(".")
     return f"≈{rounded} {prefix}{unit}"
 
