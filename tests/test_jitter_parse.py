@@ -10,7 +10,7 @@ import pytest
 from clockplan.errors import BoardError
 from clockplan.jitter.loop import second_order_loop
 from clockplan.jitter.parse import (
-    parse_additive_floor,
+    parse_additive_noise,
     parse_additive_jitter,
     parse_band,
     parse_jitter_budget,
@@ -23,36 +23,36 @@ from clockplan.jitter.parse import (
 BOARD = tomllib.loads(
     """
 [[reference]]
-name = "ref_main"
+id = "ref_main"
 frequency = "25 MHz"
 phase_noise = [["10 Hz", -95], ["100 Hz", "-125 dBc/Hz"], ["1 kHz", -145], [10000, -155], ["1 MHz", -165]]
 
 [[reference]]
-name = "ref_spare"
+id = "ref_spare"
 frequency = "40 MHz"
 phase_noise = { points = [["1 kHz", -140], ["100 kHz", -160]], floor = "-168 dBc/Hz", spurs = [["250 kHz", "-100 dBc"]] }
 
 [[pll]]
-name = "pll_a"
+id = "pll_a"
 loop = { bandwidth = "150 kHz", phase_margin = "60 deg", bandwidth_is = "crossover" }
 noise = { fom = "-226 dBc/Hz", flicker_fom = "-266 dBc/Hz", modulator_order = 3, vco_phase_noise = [["10 kHz", -85], ["1 MHz", -135], ["10 MHz", -152]] }
 
 [[pll]]
-name = "pll_b"
+id = "pll_b"
 loop = { open_loop_numerator = [1.2e5, 2.0e10], open_loop_denominator = [1, 0, 0] }
 
 [[divider]]
-name = "div_a"
-additive_floor = "-160 dBc/Hz"
+id = "div_a"
+additive_noise = "-160 dBc/Hz"
 
 [[buffer]]
-name = "fan_1"
+id = "fan_1"
 additive_jitter = "90 fs"
 additive_jitter_band = ["12 kHz", "20 MHz"]
 
 [[consumer]]
-name = "phy_0"
-jitter_budget = "1 ps"
+id = "phy_0"
+jitter = "1 ps"
 jitter_band = ["12 kHz", "20 MHz"]
 """
 )
@@ -73,7 +73,7 @@ def test_board_fragment_reads_into_jitter_types():
     assert noise.vco is not None and noise.vco.offsets_hz.tolist() == [1e4, 1e6, 1e7]
     explicit = parse_loop(BOARD["pll"][1]["loop"], "pll[1].loop")
     assert explicit.open_num.tolist() == [1.2e5, 2.0e10]
-    assert parse_additive_floor(BOARD["divider"][0]["additive_floor"], "divider[0].additive_floor") == -160.0
+    assert parse_additive_noise(BOARD["divider"][0]["additive_noise"], "divider[0].additive_noise") == -160.0
     buffer = BOARD["buffer"][0]
     additive = parse_additive_jitter(
         buffer["additive_jitter"], "buffer[0].additive_jitter", buffer["additive_jitter_band"]
@@ -81,7 +81,7 @@ def test_board_fragment_reads_into_jitter_types():
     assert additive.seconds == pytest.approx(90e-15, rel=1e-15) and additive.band_hz == (12e3, 20e6)
     consumer = BOARD["consumer"][0]
     budget = parse_jitter_budget(
-        consumer["jitter_budget"], "consumer[0].jitter_budget", consumer["jitter_band"], "consumer[0].jitter_band"
+        consumer["jitter"], "consumer[0].jitter", consumer["jitter_band"], "consumer[0].jitter_band"
     )
     assert budget.seconds == pytest.approx(1e-12, rel=1e-15) and budget.band_hz == (12e3, 20e6)
 
@@ -150,10 +150,10 @@ def test_loop_errors(value, key):
         (lambda: parse_pll_noise({"vco_phase_noise": [["1 kHz", "loud"]]}, "n"), "n.vco_phase_noise[0]"),
         (lambda: parse_additive_jitter("90", "b.additive_jitter"), "b.additive_jitter"),
         (lambda: parse_additive_jitter("90 fs", "b.additive_jitter", ["20 MHz", "12 kHz"]), "b.additive_jitter_band"),
-        (lambda: parse_jitter_budget("0 ps", "c.jitter_budget", ["12 kHz", "20 MHz"], "c.jitter_band"), "c.jitter_budget"),
+        (lambda: parse_jitter_budget("0 ps", "c.jitter", ["12 kHz", "20 MHz"], "c.jitter_band"), "c.jitter"),
         (lambda: parse_band(["12 kHz"], "c.jitter_band"), "c.jitter_band"),
         (lambda: parse_band(["12 kHz", "20 MHz/s"], "c.jitter_band"), "c.jitter_band[1]"),
-        (lambda: parse_additive_floor("loud", "d.additive_floor"), "d.additive_floor"),
+        (lambda: parse_additive_noise("loud", "d.additive_noise"), "d.additive_noise"),
     ],
 )
 def test_other_errors_are_located(call, key):

@@ -29,7 +29,7 @@ __all__ = [
     "parse_phase_noise",
     "parse_loop",
     "parse_pll_noise",
-    "parse_additive_floor",
+    "parse_additive_noise",
     "parse_additive_jitter",
     "parse_jitter_budget",
     "parse_band",
@@ -251,12 +251,12 @@ def parse_pll_noise(value: object, key: str) -> PllNoise:
     return PllNoise(fom, flicker, vco, order)
 
 
-def parse_additive_floor(value: object, key: str) -> float:
-    """Read a divider's additive phase-noise floor in dBc/Hz.
+def parse_additive_noise(value: object, key: str) -> float:
+    """Read a divider's ``additive_noise``: its additive phase-noise floor in dBc/Hz.
 
     Examples
     --------
-    >>> parse_additive_floor("-160 dBc/Hz", "divider[1].additive_floor")
+    >>> parse_additive_noise("-160 dBc/Hz", "divider[1].additive_noise")
     -160.0
     """
     return _read(parse_dbc, value, key)
@@ -307,11 +307,11 @@ def parse_additive_jitter(value: object, key: str, band: object | None = None, b
 
 
 def parse_jitter_budget(value: object, key: str, band: object, band_key: str) -> JitterBudget:
-    """Read a consumer's ``jitter_budget`` with its ``jitter_band``.
+    """Read a consumer's jitter budget (key ``jitter``) with its ``jitter_band``.
 
     Examples
     --------
-    >>> b = parse_jitter_budget("1 ps", "consumer[0].jitter_budget", ["12 kHz", "20 MHz"], "consumer[0].jitter_band")
+    >>> b = parse_jitter_budget("1 ps", "consumer[0].jitter", ["12 kHz", "20 MHz"], "consumer[0].jitter_band")
     >>> b.seconds, b.band_hz
     (1e-12, (12000.0, 20000000.0))
     """
