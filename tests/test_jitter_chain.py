@@ -225,3 +225,17 @@ def test_chain_errors_carry_key_and_hint(action, key):
     with pytest.raises(ClockplanError) as caught:
         action(chain)
     assert caught.value.key == key and caught.value.hint
+
+
+def test_result_renders_for_the_reports():
+    import json
+
+    chain = add_buffer(source_chain("reference", REFERENCE, 156.25e6, GRID), 90e-15, name="fanout_1")
+    result = chain.jitter(12e3, 20e6, budget_seconds=300e-15)
+    doc = json.loads(json.dumps(result.json_fields(), allow_nan=False))["jitter"]
+    assert doc["rms_s"] == result.rms_seconds and doc["band_hz"] == [12e3, 20e6]
+    assert doc["dominant"] == result.dominant and doc["passes"] is result.passes
+    assert sum(c["share"] for c in doc["contributors"]) == pytest.approx(1.0)
+    assert "planning estimate" in doc["note"]
+    cells = result.table_cells()
+    assert cells["dominant"] == result.dominant and cells["jitter"].endswith("fs")

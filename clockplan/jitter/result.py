@@ -4,6 +4,9 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import Any
+
+from clockplan.units import format_time
 
 __all__ = ["PLANNING_NOTE", "JitterResult"]
 
@@ -82,3 +85,46 @@ class JitterResult:
         """Each contributor's fraction of the total jitter variance (they add up to 1)."""
         total = self.rms_seconds**2
         return {name: (s * s / total if total > 0 else 0.0) for name, s in self.contributions}
+
+    def json_fields(self) -> dict[str, Any]:
+        """Fields for the JSON report, all under ``"jitter"`` (SI units, no NaN or infinity).
+
+        Examples
+        --------
+        >>> JitterResult(1e8, 12e3, 20e6, 2e-13, (("ref", 2e-13),)).json_fields()["jitter"]["dominant"]
+        'ref'
+        """
+        dbc = self.integrated_dbc
+        return {
+            "jitter": {
+                "rms_s": self.rms_seconds,
+                "band_hz": [self.f_low_hz, self.f_high_hz],
+                "carrier_hz": self.carrier_hz,
+                "rms_phase_deg": self.rms_phase_deg,
+                "integrated_dbc": dbc if math.isfinite(dbc) else None,
+                "budget_s": self.budget_seconds,
+                "margin_s": self.margin_seconds,
+                "passes": self.passes,
+                "dominant": self.dominant,
+                "contributors": [
+                    {"name": name, "rms_s": seconds, "share": self.shares()[name]}
+                    for name, seconds in self.contributions
+                ],
+                "note": self.note,
+            }
+        }
+
+    def table_cells(self) -> dict[str, str]:
+        """Columns for the terminal table: jitter, budget, margin, dominant contributor.
+
+        Examples
+        --------
+        >>> JitterResult(1e8, 12e3, 20e6, 2e-13, (("ref", 2e-13),), 1e-12).table_cells()["jitter margin"]
+        '800 fs'
+        """
+        return {
+            "jitter": format_time(self.rms_seconds),
+            "jitter budget": "-" if self.budget_seconds is None else format_time(self.budget_seconds),
+            "jitter margin": "-" if self.margin_seconds is None else format_time(self.margin_seconds),
+            "dominant": self.dominant,
+        }
