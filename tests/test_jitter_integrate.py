@@ -305,3 +305,18 @@ def test_invalid_extrapolation_and_spur():
         Spur(-1.0, -80)
     with pytest.raises(ClockplanError, match="floor"):
         PhaseNoiseProfile.from_points([(1e3, -100)], floor_dbc_hz=float("nan"))
+
+
+@pytest.mark.parametrize(
+    "build",
+    [
+        lambda: PhaseNoiseProfile(["x", "y"], [-100, -110]),
+        lambda: PhaseNoiseProfile([1e3, 1e4], [-100]),
+        lambda: PhaseNoiseProfile.from_points([(1e3, -100)], spurs=[(1e3,)]),
+        lambda: PhaseNoiseProfile.from_points([(1e3, -100)], spurs=["loud"]),
+    ],
+)
+def test_malformed_profiles_raise_clockplan_error(build):
+    with pytest.raises(ClockplanError) as caught:
+        build()
+    assert caught.value.hint

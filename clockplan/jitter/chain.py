@@ -31,11 +31,11 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from fractions import Fraction
 
 import numpy as np
 
 from clockplan.errors import ClockplanError
+from clockplan.jitter._checks import positive_number
 from clockplan.jitter.integrate import check_band, check_carrier, integrate_log_curve
 from clockplan.jitter.loop import LoopResponse
 from clockplan.jitter.profile import Extrapolation, PhaseNoiseProfile
@@ -82,17 +82,7 @@ def log_grid(f_min_hz: float = 1.0, f_max_hz: float = 1e9, points_per_decade: in
 
 
 def _ratio(value: object, key: str) -> float:
-    try:
-        ratio = float(Fraction(value)) if isinstance(value, (int, Fraction)) else float(value)  # type: ignore[arg-type]
-    except (TypeError, ValueError):
-        ratio = math.nan
-    if not (math.isfinite(ratio) and ratio > 0):
-        raise ClockplanError(
-            f"{key} {value!r} is not a positive number",
-            key=key,
-            hint="give a ratio above 0, e.g. 4 or 201/2",
-        )
-    return ratio
+    return positive_number(value, key=key, what=key, hint="give a ratio above 0, e.g. 4 or 201/2")
 
 
 @dataclass(frozen=True, eq=False)
@@ -441,13 +431,13 @@ def add_buffer(
     >>> r.dominant, round(r.rms_seconds * 1e15, 1)
     ('buffer', 100.0)
     """
-    seconds = float(additive_jitter_s)
-    if not (math.isfinite(seconds) and seconds >= 0):
-        raise ClockplanError(
-            f"additive jitter {additive_jitter_s!r} s is not a non-negative time",
-            key="additive_jitter",
-            hint="give the buffer's additive RMS jitter, e.g. 50e-15 for 50 fs",
-        )
+    seconds = positive_number(
+        additive_jitter_s,
+        key="additive_jitter",
+        what="additive jitter",
+        hint="give the buffer's additive RMS jitter in seconds, e.g. 50e-15 for 50 fs",
+        allow_zero=True,
+    )
     low, high = check_band(*band_hz)
     phase_variance = (2.0 * math.pi * chain.carrier_hz * seconds) ** 2
     density = np.full(chain.offsets_hz.size, phase_variance / (2.0 * (high - low)))

@@ -12,15 +12,13 @@ from __future__ import annotations
 import math
 
 from clockplan.errors import ClockplanError
+from clockplan.jitter._checks import positive_number
 
 __all__ = ["jitter_limited_snr_db", "max_jitter_for_snr", "total_jitter", "combine_snr_db"]
 
 
-def _positive(value: float, key: str, hint: str) -> float:
-    number = float(value)
-    if not (math.isfinite(number) and number > 0):
-        raise ClockplanError(f"{key} {value!r} is not a positive finite number", key=key, hint=hint)
-    return number
+def _input_frequency(input_hz: float) -> float:
+    return positive_number(input_hz, key="input_hz", what="input frequency", hint="give the analog input frequency in Hz")
 
 
 def total_jitter(*jitters_s: float) -> float:
@@ -31,14 +29,11 @@ def total_jitter(*jitters_s: float) -> float:
     >>> round(total_jitter(300e-15, 400e-15) * 1e15, 6)
     500.0
     """
-    for j in jitters_s:
-        if not (math.isfinite(float(j)) and float(j) >= 0):
-            raise ClockplanError(
-                f"jitter {j!r} s is not a non-negative time",
-                key="jitter",
-                hint="give RMS jitter in seconds, e.g. 150e-15",
-            )
-    return math.sqrt(sum(float(j) ** 2 for j in jitters_s))
+    seconds = [
+        positive_number(j, key="jitter", what="jitter", hint="give RMS jitter in seconds, e.g. 150e-15", allow_zero=True)
+        for j in jitters_s
+    ]
+    return math.sqrt(sum(s * s for s in seconds))
 
 
 def jitter_limited_snr_db(input_hz: float, clock_jitter_s: float, aperture_jitter_s: float = 0.0) -> float:
@@ -59,7 +54,7 @@ def jitter_limited_snr_db(input_hz: float, clock_jitter_s: float, aperture_jitte
     >>> round(jitter_limited_snr_db(100e6, 1e-12), 2)
     64.04
     """
-    f_in = _positive(input_hz, "input_hz", "give the analog input frequency in Hz")
+    f_in = _input_frequency(input_hz)
     sigma = total_jitter(clock_jitter_s, aperture_jitter_s)
     if sigma == 0:
         raise ClockplanError(
@@ -81,7 +76,7 @@ def max_jitter_for_snr(input_hz: float, snr_db: float, aperture_jitter_s: float 
     >>> round(max_jitter_for_snr(100e6, 64.04) * 1e12, 3)
     1.0
     """
-    f_in = _positive(input_hz, "input_hz", "give the analog input frequency in Hz")
+    f_in = _input_frequency(input_hz)
     target = float(snr_db)
     if not math.isfinite(target):
         raise ClockplanError(f"SNR {snr_db!r} dB is not finite", key="snr_db", hint="give the SNR in dB, e.g. 70")

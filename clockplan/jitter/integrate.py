@@ -22,6 +22,7 @@ from collections.abc import Iterable, Sequence
 import numpy as np
 
 from clockplan.errors import ClockplanError
+from clockplan.jitter._checks import positive_number
 from clockplan.jitter.profile import (
     Extrapolation,
     PhaseNoiseProfile,
@@ -68,17 +69,12 @@ def check_band(f_low_hz: object, f_high_hz: object) -> tuple[float, float]:
 
 def check_carrier(carrier_hz: object) -> float:
     """Return the carrier frequency as a float, or raise if it is not a positive finite number."""
-    try:
-        carrier = float(carrier_hz)  # type: ignore[arg-type]
-    except (TypeError, ValueError):
-        carrier = math.nan
-    if not (math.isfinite(carrier) and carrier > 0):
-        raise ClockplanError(
-            f"carrier frequency {carrier_hz!r} is not a positive finite number of Hz",
-            key="carrier_hz",
-            hint="give the clock frequency the phase noise was measured at, in Hz",
-        )
-    return carrier
+    return positive_number(
+        carrier_hz,
+        key="carrier_hz",
+        what="carrier frequency",
+        hint="give the clock frequency the phase noise was measured at, in Hz",
+    )
 
 
 def _segment_sum(ln_f: np.ndarray, ln_p: np.ndarray) -> np.ndarray | float:
@@ -132,7 +128,8 @@ def integrate_log_curve(
     9.9
     """
     check_extrapolation(extrapolation)
-    a, b = math.log(f_low_hz), math.log(f_high_hz)
+    low, high = check_band(f_low_hz, f_high_hz)
+    a, b = math.log(low), math.log(high)
     lo = int(np.searchsorted(ln_f, a, side="right"))
     hi = int(np.searchsorted(ln_f, b, side="left"))
     ends = interpolate_log(ln_f, ln_p, np.array([a, b]), extrapolation)

@@ -33,6 +33,7 @@ from typing import Literal
 import numpy as np
 
 from clockplan.errors import ClockplanError
+from clockplan.jitter._checks import positive_number
 
 __all__ = [
     "BandwidthDefinition",
@@ -210,14 +211,12 @@ def phase_margin_from_damping(damping: float) -> float:
 
 
 def _check_damping(damping: float) -> float:
-    zeta = float(damping)
-    if not (math.isfinite(zeta) and zeta > 0.0):
-        raise ClockplanError(
-            f"damping factor {damping!r} is not positive",
-            key="damping",
-            hint="give a damping factor above 0; 0.7 to 1 is usual for clock PLLs",
-        )
-    return zeta
+    return positive_number(
+        damping,
+        key="damping",
+        what="damping factor",
+        hint="give a damping factor above 0; 0.7 to 1 is usual for clock PLLs",
+    )
 
 
 def _crossover_ratio(zeta: float) -> float:
@@ -264,13 +263,9 @@ def second_order_loop(
             hint="e.g. damping = 0.707, or phase_margin = 60 (degrees)",
         )
     zeta = damping_from_phase_margin(phase_margin_deg) if damping is None else _check_damping(damping)
-    bandwidth = float(bandwidth_hz)
-    if not (math.isfinite(bandwidth) and bandwidth > 0):
-        raise ClockplanError(
-            f"loop bandwidth {bandwidth_hz!r} Hz is not positive",
-            key="bandwidth",
-            hint="give the loop bandwidth in Hz, e.g. 100e3",
-        )
+    bandwidth = positive_number(
+        bandwidth_hz, key="bandwidth", what="loop bandwidth", hint="give the loop bandwidth in Hz, e.g. 100e3"
+    )
     if bandwidth_is == "closed_loop_3db":
         ratio = _three_db_ratio(zeta)
     elif bandwidth_is == "crossover":

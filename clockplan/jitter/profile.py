@@ -149,10 +149,31 @@ def _points_to_arrays(points: object) -> tuple[np.ndarray, np.ndarray]:
     return table[:, 0], table[:, 1]
 
 
-def _read_only(values: object) -> np.ndarray:
-    array = np.array(values, dtype=float)
+def _read_only(values: object, key: str) -> np.ndarray:
+    try:
+        array = np.array(values, dtype=float)
+    except (TypeError, ValueError):
+        raise ClockplanError(
+            f"{key} must be numbers",
+            key=key,
+            hint="give offsets in Hz and levels in dBc/Hz as plain numbers",
+        ) from None
     array.flags.writeable = False
     return array
+
+
+def _as_spur(item: object) -> Spur:
+    if isinstance(item, Spur):
+        return item
+    try:
+        offset, level = item  # type: ignore[misc]
+        return Spur(float(offset), float(level))
+    except (TypeError, ValueError):
+        raise ClockplanError(
+            f"spur {item!r} is not an (offset_hz, dBc) pair",
+            key="spurs",
+            hint="give each spur as Spur(offset_hz, dbc) or a pair such as (250e3, -95)",
+        ) from None
 
 
 @dataclass(frozen=True, eq=False)
@@ -183,8 +204,8 @@ class PhaseNoiseProfile:
     spurs: tuple[Spur, ...] = field(default=())
 
     def __post_init__(self) -> None:
-        offsets = _read_only(self.offsets_hz).reshape(-1)
-        levels = _read_only(self.dbc_hz).reshape(-1)
+        offsets = _read_only(self.offsets_hz, "offsets_hz").reshape(-1)
+        levels = _read_only(self.dbc_hz, "dbc_hz").reshape(-1)
         if offsets.shape != levels.shape or offsets.size == 0:
             raise ClockplanError(
                 f"{offsets.size} offsets but {levels.size} levels",
@@ -201,7 +222,7 @@ class PhaseNoiseProfile:
                 key="floor",
                 hint="give the floor in dBc/Hz, e.g. -165, or leave it out",
             )
-        spurs = tuple(s if isinstance(s, Spur) else Spur(float(s[0]), float(s[1])) for s in self.spurs)
+        spurs = tuple(_as_spur(s) for s in self.spurs)
         object.__setattr__(self, "offsets_hz", offsets)
         object.__setattr__(self, "dbc_hz", levels)
         object.__setattr__(self, "spurs", spurs)

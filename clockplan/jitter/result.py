@@ -68,8 +68,8 @@ class JitterResult:
 
     @property
     def dominant(self) -> str:
-        """Name of the largest contributor."""
-        return self.contributions[0][0]
+        """Name of the largest contributor (``"none"`` when there are none)."""
+        return self.contributions[0][0] if self.contributions else "none"
 
     @property
     def margin_seconds(self) -> float | None:
