@@ -251,3 +251,13 @@ def test_importing_the_package_reads_nothing_and_skips_rich():
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout.split()
     assert out == ["0", "False", "False"]
+
+
+def test_json_form_keeps_exact_values_as_strings():
+    import json
+
+    document = get_standard("cta-861-pixel").to_json()
+    assert json.loads(json.dumps(document)) == document
+    assert "27000000000/91" in document["nominal_hz_exact"]  # 297 MHz / 1.001, reduced
+    assert document["ppm"] == [-5000.0, 5000.0] and document["ppm_exact"] == ["-1/200", "1/200"]
+    assert F(document["nominal_hz_exact"][2]) == F(74_250_000) / F(1001, 1000)

@@ -21,6 +21,8 @@ __all__ = [
     "gaussian_pp_per_rms",
 ]
 
+_PPM_PER_UNIT = 10**6
+
 #: How much to trust a figure: read in the standard (or a document quoting it),
 #: a fact of the trade with no governing document, recalled without a document
 #: at hand, or written by the user in a board file.
@@ -207,3 +209,44 @@ class StandardBudget:
         if self.jitter_pp_s is not None:
             return self.jitter_pp_s / gaussian_pp_per_rms(ber)
         return None
+
+    def to_json(self) -> dict[str, object]:
+        """A JSON-ready dict in the project's convention: exact values as strings, ppm as numbers.
+
+        Examples
+        --------
+        >>> from fractions import Fraction as F
+        >>> StandardBudget("x", "x", "x", (F(25_000_000),), (F(-1, 10**4), F(1, 10**4))).to_json()["ppm"]
+        [-100.0, 100.0]
+        """
+        return {
+            "key": self.key,
+            "title": self.title,
+            "family": self.family,
+            "nominal_hz_exact": [_exact(f) for f in self.nominal_hz],
+            "ppm": _ppm_pair(self.ppm),
+            "ppm_exact": _exact_pair(self.ppm),
+            "spread_ppm": _ppm_pair(self.spread),
+            "spread_exact": _exact_pair(self.spread),
+            "spread_rate_hz_exact": _exact_pair(self.spread_rate_hz),
+            "jitter_rms_s": self.jitter_rms_s,
+            "jitter_pp_s": self.jitter_pp_s,
+            "jitter_band_hz_exact": _exact_pair(self.jitter_band_hz),
+            "jitter_notes": self.jitter_notes,
+            "source": self.source,
+            "confidence": self.confidence,
+            "notes": self.notes,
+            "overridden": list(self.overridden),
+        }
+
+
+def _exact(value: Fraction) -> str:
+    return str(value.numerator) if value.denominator == 1 else f"{value.numerator}/{value.denominator}"
+
+
+def _exact_pair(pair: tuple[Fraction, Fraction] | None) -> list[str] | None:
+    return None if pair is None else [_exact(pair[0]), _exact(pair[1])]
+
+
+def _ppm_pair(pair: tuple[Fraction, Fraction] | None) -> list[float] | None:
+    return None if pair is None else [float(pair[0] * _PPM_PER_UNIT), float(pair[1] * _PPM_PER_UNIT)]
