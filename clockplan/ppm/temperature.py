@@ -147,8 +147,8 @@ class AtCutCurve:
     Examples
     --------
     >>> curve = AtCutCurve.from_angle(4.0)
-    >>> round(float(curve.fractional_error(np.array([25.0]))[0]), 12)
-    0.0
+    >>> round(curve.extremes(-40, 85).high_at_c, 1)  # the upper turning point
+    -6.0
     """
 
     a1: float
