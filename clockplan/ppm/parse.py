@@ -91,9 +91,15 @@ def _check_keys(table: dict, allowed: tuple[str, ...], key: str) -> None:
 def _signed_ppm(value: Any, key: str) -> Fraction:
     """One signed error such as ``"-8 ppm"`` (not a ± range)."""
     if isinstance(value, str) and ".." not in value:
-        low, high = _read(parse_ppm, f"{value}..{value}", key)
-        return low
-    raise BoardError(f"expected one signed error such as '-8 ppm', got {value!r}", key=key, hint="write e.g. '+12 ppm'")
+        try:
+            return parse_ppm(f"{value}..{value}")[0]
+        except ClockplanError:
+            pass
+    raise BoardError(
+        f"expected one signed error such as '-8 ppm', got {value!r}",
+        key=key,
+        hint="a point has one value, e.g. '+12 ppm', not a range",
+    )
 
 
 def _magnitude(value: Any, key: str) -> Fraction:
