@@ -122,6 +122,7 @@ def test_band_has_exact_edges_and_no_temperature():
     extremes = band.extremes(-40, 85)
     assert (extremes.low, extremes.high) == (Fraction(-1, 2) * PPM, Fraction(1, 2) * PPM)
     assert extremes.low_at_c is None and extremes.high_at_c is None
+    assert np.isnan(band.fractional_error(np.array([-40.0, 85.0]))).all()  # no curve is invented
 
 
 def test_band_monte_carlo_draw_stays_inside_band():

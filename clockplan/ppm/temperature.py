@@ -127,6 +127,14 @@ class StabilityBand:
         if self.lo > self.hi:
             raise BoardError(f"stability band {self.lo}..{self.hi} has min above max", hint="write it as min..max")
 
+    def fractional_error(self, temps_c: np.ndarray) -> np.ndarray:
+        """Not a function of temperature: NaN everywhere, so no curve is invented.
+
+        Use :meth:`extremes` for the worst case and :meth:`sample` for the
+        Monte Carlo; a plot draws the band's edges instead of a curve.
+        """
+        return np.full(np.shape(temps_c), np.nan)
+
     def extremes(self, t_lo: float, t_hi: float) -> TemperatureExtremes:
         """Band edges; no temperature is attached to them."""
         _check_range(t_lo, t_hi)
