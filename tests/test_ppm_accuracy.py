@@ -162,6 +162,10 @@ def test_every_result_carries_the_planning_note_and_ovens_their_warning():
     oven = OscillatorSpec("ocxo", parse_ppm("±0.3 ppm"))
     text = " ".join(consumer_accuracy(oven, Fraction(0), None, INDUSTRIAL, 0.0, GIGABIT_BASE_T).notes)
     assert "runs hot" in text and "draws watts" in text
+    from clockplan.ppm.grades import load_grades
+    ocxo = next(g for g in load_grades() if g.name == "ocxo").spec
+    text = " ".join(consumer_accuracy(ocxo, Fraction(0), None, INDUSTRIAL, 0.0, GIGABIT_BASE_T).notes)
+    assert "8.4 W warming, 2 W at temperature, 5 min warm-up" in text
 
 
 def test_budget_must_contain_zero():

@@ -250,6 +250,12 @@ def consumer_accuracy(
     notes = [PLANNING_NOTE]
     if reference.runs_hot:
         notes.append(OVEN_NOTE)
+        if reference.power is not None:
+            notes.append(
+                f"This oven: {float(reference.power.warmup_w):g} W warming, "
+                f"{float(reference.power.steady_w):g} W at temperature, "
+                f"{reference.power.warmup_s / 60:g} min warm-up."
+            )
     return AccuracyResult(
         contributions=terms,
         synthesis_error=synthesis_error,
