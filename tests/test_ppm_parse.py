@@ -141,15 +141,15 @@ def test_spread_errors_are_located():
 def test_consumer_budget_with_pcie_allowance():
     # PCI Express refclk: ±300 ppm, SSC down to -0.5 % at 30-33 kHz (PCI Express Base Spec; from memory).
     budget = parse_consumer_budget(
-        {"ppm_budget": "±300 ppm", "spread_allowance": {"mode": "down", "depth": "0.5 %", "rate": ["33 kHz", "30 kHz"]}},
+        {"ppm": "±300 ppm", "spread_allowance": {"mode": "down", "depth": "0.5 %", "rate": ["33 kHz", "30 kHz"]}},
         "consumer[1]",
     )
     assert budget.tolerance == (-300 * PPM, 300 * PPM)
     assert budget.spread_allowance.max_depth == 5000 * PPM
     assert budget.spread_allowance.modulation_hz == (Fraction(30_000), Fraction(33_000))
     with pytest.raises(BoardError) as info:
-        parse_consumer_budget({"ppm_budget": "+10..+20 ppm"}, "consumer[1]")
-    assert info.value.key == "consumer[1].ppm_budget"
+        parse_consumer_budget({"ppm": "+10..+20 ppm"}, "consumer[1]")
+    assert info.value.key == "consumer[1].ppm"
 
 
 @pytest.mark.parametrize(

@@ -298,7 +298,7 @@ def parse_oscillator_spec(table: dict, key: str, frequency: Fraction | None = No
     >>> spec.kind, spec.initial[1]
     ('tcxo', Fraction(1, 1000000))
     """
-    kind = _choice(table, "kind", OSCILLATOR_KINDS, key, None)
+    kind = _choice(table, "kind", OSCILLATOR_KINDS, key, "xo")
     distribution = _choice(table, "distribution", DISTRIBUTIONS, key, "uniform")
     if "load" in table and kind != "crystal":
         raise BoardError(
@@ -413,21 +413,21 @@ def parse_spread_allowance(value: Any, key: str) -> SpreadAllowance:
 
 
 def parse_consumer_budget(table: dict, key: str) -> ConsumerBudget:
-    """Read a consumer's ``ppm_budget`` and optional ``spread_allowance``.
+    """Read a consumer's ``ppm`` budget and optional ``spread_allowance``.
 
     Examples
     --------
-    >>> parse_consumer_budget({"ppm_budget": "±300 ppm"}, "consumer[2]").tolerance[1] * 10**6
+    >>> parse_consumer_budget({"ppm": "±300 ppm"}, "consumer[2]").tolerance[1] * 10**6
     Fraction(300, 1)
     """
-    tolerance = _read(parse_ppm, _require(table, "ppm_budget", key, "write e.g. ppm_budget = '±100 ppm'"), f"{key}.ppm_budget")
+    tolerance = _read(parse_ppm, _require(table, "ppm", key, "write e.g. ppm = '±100 ppm'"), f"{key}.ppm")
     allowance = None
     if "spread_allowance" in table:
         allowance = parse_spread_allowance(table["spread_allowance"], f"{key}.spread_allowance")
     try:
         return ConsumerBudget(tolerance, allowance)
     except BoardError as err:
-        raise err.located(key=f"{key}.ppm_budget") from None
+        raise err.located(key=f"{key}.ppm") from None
 
 
 def parse_temperature_range(value: Any, key: str) -> tuple[float, float]:
