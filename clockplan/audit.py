@@ -1,0 +1,99 @@
+"""Constraint checks on a set of settings: every limit a datasheet states.
+
+Each check returns findings; none raises. A missing setting is itself a
+finding (``unset``), so a half-planned board still reports what it can.
+"""
+
+from __future__ import annotations
+
+from fractions import Fraction
+
+from clockplan.findings import Finding, Severity
+from clockplan.frequency import Frequencies, synthesis_error
+from clockplan.parts import Board, Consumer, FrequencyRange, Pll, Settings
+from clockplan.units import format_exact, format_frequency, format_ppm
+
+__all__ = ["check_settings", "check_pll", "check_consumer_frequency"]
+
+
+def _range_text(span: FrequencyRange) -> str:
+    return f"{format_frequency(span.lo)} to {format_frequency(span.hi)}"
+
+
+def _error(code: str, node: str, message: str) -> Finding:
+    return Finding(Severity.ERROR, code, node, message)
+
+
+def check_pll(pll: Pll, settings: Settings, freqs: Frequencies) -> list[Finding]:
+    """Check one PLL's settings against its ranges and its mode.
+
+    Examples
+    --------
+    A VCO at 3.3 GHz on a part whose VCO spans 2.4 to 3.2 GHz gives a
+    ``vco-range`` error.
+    """
+    setting = settings.plls.get(pll.id)
+    if setting is None:
+        return [_error("unset", pll.id, f"PLL {pll.id} has no complete settings (r, n and every output divider); give them in the board file or run 'clockplan plan'")]
+    findings: list[Finding] = []
+    if setting.r not in pll.r:
+        findings.append(_error("r-range", pll.id, f"R = {setting.r} is not allowed (R: {pll.r.describe()}); choose an allowed R"))
+    findings += _check_n(pll, setting.n)
+    for out in pll.outputs:
+        divider = setting.dividers.get(out.name)
+        if divider is None:
+            findings.append(_error("unset", f"{pll.id}.{out.name}", f"output {out.name} of {pll.id} has no divider setting"))
+        elif divider not in out.divider:
+            findings.append(_error("divider-range", f"{pll.id}.{out.name}", f"output divider {divider} is not allowed ({out.divider.describe()})"))
+    point = freqs.plls.get(pll.id)
+    if point is None:
+        return findings
+    if pll.input_range is not None and point.input_hz not in pll.input_range:
+        findings.append(_error("input-range", pll.id, f"input {format_frequency(point.input_hz)} is outside the part's input range {_range_text(pll.input_range)}"))
+    if point.pfd_hz not in pll.pfd:
+        findings.append(_error("pfd-range", pll.id, f"PFD {format_frequency(point.pfd_hz)} is outside {_range_text(pll.pfd)}; change R so that input/R lands in the range"))
+    if point.vco_hz not in pll.vco:
+        findings.append(_error("vco-range", pll.id, f"VCO {format_frequency(point.vco_hz)} is outside {_range_text(pll.vco)}; change N (and the output dividers) so the VCO lands in the range"))
+    return findings
+
+
+def _check_n(pll: Pll, n: Fraction) -> list[Finding]:
+    findings = []
+    if not pll.n_min <= n <= pll.n_max:
+        findings.append(_error("n-range", pll.id, f"N = {format_exact(n)} is outside {format_exact(pll.n_min)}..{format_exact(pll.n_max)}"))
+    if n.denominator != 1:
+        if pll.mode == "integer":
+            findings.append(_error("n-fraction", pll.id, f"N = {format_exact(n)} has a fractional part but the PLL is integer-N; use a whole N or a fractional-N part"))
+        elif pll.denominator is not None and not pll.denominator.allows(n):
+            findings.append(_error("denominator", pll.id, f"N = {format_exact(n)} needs denominator {n.denominator}, which the part cannot make ({pll.denominator.describe()})"))
+    return findings
+
+
+def check_consumer_frequency(consumer: Consumer, actual_hz: Fraction | None) -> list[Finding]:
+    """Compare a consumer's achieved frequency with its target and allowed synthesis error."""
+    if actual_hz is None:
+        return [_error("unset", consumer.id, f"the frequency of {consumer.id} is unknown because a part upstream has no settings")]
+    error = synthesis_error(actual_hz, consumer.frequency)
+    if error == 0:
+        return []
+    text = f"achieves {format_frequency(actual_hz)} for a {format_frequency(consumer.frequency)} target ({format_ppm(error)})"
+    if abs(error) > consumer.max_synthesis_error:
+        allowed = "0 (exact)" if consumer.max_synthesis_error == 0 else "±" + format_ppm(consumer.max_synthesis_error).lstrip("+")
+        return [_error("frequency", consumer.id, f"{text}, beyond the allowed synthesis error of {allowed}; re-plan, or set max_synthesis_error if the consumer tolerates it")]
+    return [Finding(Severity.INFO, "inexact", consumer.id, f"{text}, within its allowed synthesis error")]
+
+
+def check_settings(board: Board, settings: Settings, freqs: Frequencies) -> list[Finding]:
+    """Every constraint check on the board, in board order."""
+    findings: list[Finding] = []
+    for pll in board.plls:
+        findings += check_pll(pll, settings, freqs)
+    for divider in board.dividers:
+        ratio = settings.dividers.get(divider.id)
+        if ratio is None:
+            findings.append(_error("unset", divider.id, f"divider {divider.id} has no ratio setting; give settings.ratio or run 'clockplan plan'"))
+        elif ratio not in divider.ratio:
+            findings.append(_error("divider-range", divider.id, f"ratio {ratio} is not allowed ({divider.ratio.describe()})"))
+    for consumer in board.consumers:
+        findings += check_consumer_frequency(consumer, freqs.nodes.get(consumer.id))
+    return findings

@@ -1,0 +1,149 @@
+"""The ``clockplan`` command: a thin shell over the library.
+
+Each command is a library call plus a renderer. Exit status: 0 no error
+finding, 1 error findings (a budget broken or a constraint violated), 2 bad
+input or usage, 3 no feasible plan. Heavy modules are imported inside the
+command functions so that ``clockplan --help`` starts quickly.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from collections.abc import Callable, Sequence
+
+from clockplan import __version__
+from clockplan.errors import ClockplanError, InfeasibleError
+
+__all__ = ["main", "EXIT_OK", "EXIT_FINDINGS", "EXIT_INPUT", "EXIT_INFEASIBLE"]
+
+EXIT_OK = 0
+EXIT_FINDINGS = 1
+EXIT_INPUT = 2
+EXIT_INFEASIBLE = 3
+
+_EPILOG = """exit status: 0 no error finding, 1 error findings (budget broken or constraint
+violated), 2 bad input or usage, 3 no feasible plan.
+Budgets are planning estimates: the part datasheets and the governing standard decide."""
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that exits with status 2 and one clean line on usage errors."""
+
+    def error(self, message: str) -> None:  # type: ignore[override]
+        self.print_usage(sys.stderr)
+        raise SystemExit(self._exit_with(message))
+
+    def _exit_with(self, message: str) -> int:
+        sys.stderr.write(f"{self.prog}: error: {message}\n")
+        return EXIT_INPUT
+
+
+def _add_output_options(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("--json", action="store_true", help="write the JSON document (docs/json-output.md) to stdout")
+    parser.add_argument("--width", type=int, default=None, help="terminal width for the tables")
+    parser.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
+
+
+def _build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(
+        prog="clockplan",
+        description="Plan and audit the clock tree of an electronic board: exact frequencies, ppm and jitter budgets.",
+        epilog=_EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    parser.add_argument("--version", action="version", version=f"clockplan {__version__}")
+    commands = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+
+    audit = commands.add_parser(
+        "audit",
+        help="check an existing clock tree: exact frequencies, constraints, budgets",
+        description="Compute every node's exact frequency from the settings the board file gives and check every constraint and budget.",
+        epilog=_EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    audit.add_argument("board", help="board file (TOML)")
+    _add_output_options(audit)
+    audit.set_defaults(run=_run_audit)
+
+    standards = commands.add_parser(
+        "standards",
+        help="list interface clock requirements, or show one with its sources",
+        description="List the standards library (ppm tolerance, spread spectrum, jitter limit and band, with sources), "
+        "or show one entry in detail. A word that is not a key filters the list.",
+    )
+    standards.add_argument("key", nargs="?", help="a key or alias for its detail; any other word filters the list")
+    standards.add_argument("--width", type=int, default=None, help="terminal width for the tables")
+    standards.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
+    standards.set_defaults(run=_run_standards)
+    return parser
+
+
+def _console(args: argparse.Namespace):
+    from clockplan.report.terminal import make_console
+
+    return make_console(width=args.width, color=False if args.no_color else None)
+
+
+def _emit(args: argparse.Namespace, analysis, command: str) -> int:
+    if args.json:
+        from clockplan.report.json import analysis_document, dumps
+
+        sys.stdout.write(dumps(analysis_document(analysis, command)))
+    else:
+        from clockplan.report.terminal import render_analysis
+
+        render_analysis(analysis, _console(args), title=command)
+    return EXIT_FINDINGS if analysis.has_errors else EXIT_OK
+
+
+def _run_audit(args: argparse.Namespace) -> int:
+    from clockplan.analysis import analyze
+    from clockplan.boardfile import load_board
+
+    return _emit(args, analyze(load_board(args.board)), "audit")
+
+
+def _run_standards(args: argparse.Namespace) -> int:
+    from clockplan.standards.render import standards_view
+
+    _console(args).print(standards_view(args.key))
+    return EXIT_OK
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the command line; return the exit status.
+
+    Examples
+    --------
+    >>> main(["audit", "boards/industrial-gateway.toml", "--json"])  # doctest: +SKIP
+    0
+    """
+    parser = _build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as stop:
+        return int(stop.code or 0)
+    run: Callable[[argparse.Namespace], int] | None = getattr(args, "run", None)
+    if run is None:
+        parser.print_help()
+        return EXIT_INPUT
+    try:
+        return run(args)
+    except InfeasibleError as err:
+        sys.stderr.write(f"clockplan: no feasible plan: {err.describe()}\n")
+        return EXIT_INFEASIBLE
+    except ClockplanError as err:
+        sys.stderr.write(f"clockplan: error: {err.describe()}\n")
+        return EXIT_INPUT
+    except KeyboardInterrupt:
+        sys.stderr.write("clockplan: interrupted\n")
+        return 130
+
+
+def _entry() -> None:  # pragma: no cover - console script wrapper
+    raise SystemExit(main())
+
+
+if __name__ == "__main__":  # pragma: no cover
+    _entry()

@@ -1,0 +1,288 @@
+"""The domain model: parts of a clock tree and their settings, as frozen dataclasses.
+
+A board is references, PLLs, plain dividers, fanout buffers and consumers,
+each described by the constraints its datasheet gives. Settings (R, N,
+divider ratios) are kept apart from the parts: a board file may give them
+(an existing design, to audit) or leave them open (to be planned).
+
+All frequencies and ratios are exact :class:`~fractions.Fraction` values.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator, Mapping
+from dataclasses import dataclass, field
+from fractions import Fraction
+from typing import Any, Literal
+
+__all__ = [
+    "FrequencyRange",
+    "IntChoices",
+    "Denominator",
+    "Reference",
+    "PllOutput",
+    "Pll",
+    "Divider",
+    "Buffer",
+    "Consumer",
+    "PllSetting",
+    "Settings",
+    "Board",
+    "REFERENCE_KINDS",
+]
+
+#: Oscillator kinds a reference can be (see docs/board-format.md).
+REFERENCE_KINDS = ("crystal", "xo", "vcxo", "tcxo", "ocxo", "mems", "rc")
+
+
+@dataclass(frozen=True)
+class FrequencyRange:
+    """A closed range of frequencies in Hz, ``lo <= f <= hi``."""
+
+    lo: Fraction
+    hi: Fraction
+
+    def __contains__(self, hz: object) -> bool:
+        return isinstance(hz, (int, Fraction)) and self.lo <= hz <= self.hi
+
+
+@dataclass(frozen=True)
+class IntChoices:
+    """The whole numbers a divider (or R) may take.
+
+    Either an arithmetic range ``lo..hi`` in steps of ``step`` (``step=2`` with an
+    even ``lo`` is "even only"), or an explicit sorted set ``values``.
+
+    Examples
+    --------
+    >>> 6 in IntChoices(2, 256, step=2)
+    True
+    >>> 5 in IntChoices(2, 256, step=2)
+    False
+    """
+
+    lo: int
+    hi: int
+    step: int = 1
+    values: tuple[int, ...] | None = None
+
+    @classmethod
+    def of(cls, values: tuple[int, ...]) -> "IntChoices":
+        """Build an explicit set of allowed values."""
+        ordered = tuple(sorted(set(values)))
+        return cls(ordered[0], ordered[-1], 1, ordered)
+
+    def __contains__(self, value: object) -> bool:
+        if isinstance(value, Fraction):
+            if value.denominator != 1:
+                return False
+            value = value.numerator
+        if not isinstance(value, int) or isinstance(value, bool):
+            return False
+        if self.values is not None:
+            return value in self.values
+        return self.lo <= value <= self.hi and (value - self.lo) % self.step == 0
+
+    def __iter__(self) -> Iterator[int]:
+        if self.values is not None:
+            return iter(self.values)
+        return iter(range(self.lo, self.hi + 1, self.step))
+
+    def __len__(self) -> int:
+        if self.values is not None:
+            return len(self.values)
+        return (self.hi - self.lo) // self.step + 1
+
+    def describe(self) -> str:
+        """Human text such as ``'1..256'``, ``'2..256 step 2'`` or ``'{1, 2, 4}'``."""
+        if self.values is not None:
+            shown = ", ".join(map(str, self.values[:8]))
+            return "{" + shown + (", ..." if len(self.values) > 8 else "") + "}"
+        return f"{self.lo}..{self.hi}" + (f" step {self.step}" if self.step != 1 else "")
+
+
+@dataclass(frozen=True)
+class Denominator:
+    """The fractional-N denominator rule of a PLL.
+
+    ``fixed``: the fraction is always k/fixed (a fixed modulus such as 2^24).
+    ``limit``: the denominator is programmable, any whole number up to ``limit``.
+    """
+
+    fixed: int | None = None
+    limit: int | None = None
+
+    def allows(self, n: Fraction) -> bool:
+        """True if the fractional part of ``n`` can be produced."""
+        if self.fixed is not None:
+            return (n * self.fixed).denominator == 1
+        assert self.limit is not None
+        return n.denominator <= self.limit
+
+    def describe(self) -> str:
+        """Human text of the rule."""
+        return f"k/{self.fixed}" if self.fixed is not None else f"denominator ≤ {self.limit}"
+
+
+@dataclass(frozen=True)
+class Reference:
+    """A reference oscillator: the root of a clock chain.
+
+    ``oscillator`` holds the accuracy model (tolerance, temperature, aging) and
+    ``phase_noise`` the noise profile; both are optional and filled in by the
+    budget modules' parsers.
+    """
+
+    id: str
+    frequency: Fraction
+    kind: str = "xo"
+    oscillator: Any = None
+    phase_noise: Any = None
+
+
+@dataclass(frozen=True)
+class PllOutput:
+    """One output of a PLL: a divider after the shared VCO."""
+
+    name: str
+    divider: IntChoices
+    spread: Any = None
+
+
+@dataclass(frozen=True)
+class Pll:
+    """A phase-locked loop: f_pfd = f_in / R, f_vco = f_pfd * N, f_out = f_vco / D.
+
+    ``n`` is the allowed range of the feedback ratio. In ``"integer"`` mode N
+    must be whole; in ``"fractional"`` mode its fractional part must satisfy
+    ``denominator``.
+    """
+
+    id: str
+    input: str
+    vco: FrequencyRange
+    pfd: FrequencyRange
+    r: IntChoices
+    n_min: Fraction
+    n_max: Fraction
+    mode: Literal["integer", "fractional"]
+    outputs: tuple[PllOutput, ...]
+    denominator: Denominator | None = None
+    input_range: FrequencyRange | None = None
+    loop: Any = None
+    noise: Any = None
+
+    def output(self, name: str) -> PllOutput:
+        """Return the output called ``name``."""
+        for out in self.outputs:
+            if out.name == name:
+                return out
+        raise KeyError(name)
+
+    def allows_n(self, n: Fraction) -> bool:
+        """True if ``n`` is a feedback ratio this PLL can run (range and mode)."""
+        if not self.n_min <= n <= self.n_max:
+            return False
+        if n.denominator == 1:
+            return True
+        return self.mode == "fractional" and self.denominator is not None and self.denominator.allows(n)
+
+
+@dataclass(frozen=True)
+class Divider:
+    """A plain integer divider: f_out = f_in / ratio."""
+
+    id: str
+    input: str
+    ratio: IntChoices
+    additive_noise: Any = None
+
+
+@dataclass(frozen=True)
+class Buffer:
+    """A fanout buffer: copies its input to up to ``outputs`` loads."""
+
+    id: str
+    input: str
+    outputs: int
+    additive_jitter: float | None = None
+
+
+@dataclass(frozen=True)
+class Consumer:
+    """A load that needs a clock: its frequency, tolerance and budgets.
+
+    ``max_synthesis_error`` is how far (as a fraction, symmetric) the planner
+    may leave the synthesized frequency from ``frequency``; 0 means exact.
+    ``budget`` is the resolved ppm/jitter budget (from a standard or inline).
+    """
+
+    id: str
+    source: str
+    frequency: Fraction
+    max_synthesis_error: Fraction = Fraction(0)
+    standard: str | None = None
+    budget: Any = None
+
+
+@dataclass(frozen=True)
+class PllSetting:
+    """The settings of one PLL: R, N (exact) and each output's divider."""
+
+    r: int
+    n: Fraction
+    dividers: Mapping[str, int]
+
+
+@dataclass(frozen=True)
+class Settings:
+    """Settings for a whole board; parts missing from the maps are not set."""
+
+    plls: Mapping[str, PllSetting] = field(default_factory=dict)
+    dividers: Mapping[str, int] = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class Board:
+    """A whole board: its parts, the settings its file gives, and where it came from.
+
+    ``given`` holds settings fixed by the file (partial: ``pll_partial`` keeps
+    per-PLL pins such as a fixed R when N is left open). ``lines`` maps key
+    paths to line numbers for error messages.
+    """
+
+    name: str
+    temperature_c: tuple[float, float]
+    lifetime_s: float
+    references: tuple[Reference, ...]
+    plls: tuple[Pll, ...]
+    dividers: tuple[Divider, ...]
+    buffers: tuple[Buffer, ...]
+    consumers: tuple[Consumer, ...]
+    pins: Mapping[str, Mapping[str, Any]] = field(default_factory=dict)
+    source_file: str | None = None
+    lines: Mapping[str, int] = field(default_factory=dict)
+
+    def part(self, part_id: str) -> Any:
+        """Return the part (reference, PLL, divider, buffer or consumer) with this id."""
+        for group in (self.references, self.plls, self.dividers, self.buffers, self.consumers):
+            for part in group:
+                if part.id == part_id:
+                    return part
+        raise KeyError(part_id)
+
+    def all_ids(self) -> list[str]:
+        """Every part id on the board."""
+        groups = (self.references, self.plls, self.dividers, self.buffers, self.consumers)
+        return [part.id for group in groups for part in group]
+
+    def given_settings(self) -> Settings:
+        """The settings the board file fixes completely (every value present)."""
+        plls: dict[str, PllSetting] = {}
+        for pll in self.plls:
+            pin = self.pins.get(pll.id, {})
+            dividers = pin.get("dividers", {})
+            if "r" in pin and "n" in pin and all(o.name in dividers for o in pll.outputs):
+                plls[pll.id] = PllSetting(pin["r"], pin["n"], dict(dividers))
+        dividers = {d.id: self.pins[d.id]["ratio"] for d in self.dividers if "ratio" in self.pins.get(d.id, {})}
+        return Settings(plls, dividers)

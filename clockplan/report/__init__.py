@@ -1,0 +1,1 @@
+"""Reports: turning an analysis into text for people and documents for machines."""
