@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import math
 from bisect import bisect_left
+from fractions import Fraction
 from functools import lru_cache
 
 from clockplan.errors import ClockplanError
@@ -28,6 +29,7 @@ __all__ = [
     "series_mantissas",
     "series_tolerance",
     "eseries_values",
+    "exact_values",
     "snap",
     "nearest_values",
 ]
@@ -126,6 +128,30 @@ def eseries_values(series: str, decade_lo: int, decade_hi: int) -> list[float]:
         )
     mantissas = _mantissa_hundredths(name)
     return [_value(m, d) for d in range(int(decade_lo), int(decade_hi) + 1) for m in mantissas]
+
+
+def exact_values(series: str, low: Fraction | int, high: Fraction | int) -> tuple[Fraction, ...]:
+    """Return every value of ``series`` with ``low <= value <= high``, as exact fractions.
+
+    For exact work (e.g. load capacitances kept as :class:`~fractions.Fraction`).
+
+    Examples
+    --------
+    >>> [str(v * 10**12) for v in exact_values("E12", Fraction(9, 10**12), Fraction(15, 10**12))]
+    ['10', '12', '15']
+    """
+    name = _normalise_name(series)
+    low, high = Fraction(low), Fraction(high)
+    if not 0 < low <= high:
+        raise ClockplanError(f"value range {low}..{high} is empty", hint="give 0 < low <= high")
+    mantissas = _mantissa_hundredths(name)
+    decade = math.floor(math.log10(low)) - 1  # float log may be off by one: start a decade early
+    found: list[Fraction] = []
+    while Fraction(mantissas[0], 100) * Fraction(10) ** decade <= high:
+        scale = Fraction(10) ** decade / 100
+        found.extend(v for v in (m * scale for m in mantissas) if low <= v <= high)
+        decade += 1
+    return tuple(found)
 
 
 def _check_positive(value: float) -> float:

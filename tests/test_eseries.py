@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from fractions import Fraction
 
 import pytest
 from hypothesis import given, settings
@@ -12,6 +13,7 @@ from clockplan.errors import ClockplanError
 from clockplan.eseries import (
     SERIES_NAMES,
     eseries_values,
+    exact_values,
     nearest_values,
     series_mantissas,
     series_tolerance,
@@ -91,6 +93,23 @@ def test_values_span_decades_as_exact_decimals() -> None:
     assert values[0] == 1e-12 and values[-1] == 8.2e-10
     assert 4.7e-12 in values and 4.7e-11 in values  # exact decimal floats, not 4.7000000000000005e-12
     assert values == sorted(values)
+
+
+@pytest.mark.parametrize("series", ["E6", "E24", "E192"])
+def test_exact_values_agree_with_the_float_values(series: str) -> None:
+    floats = eseries_values(series, -13, -9)
+    exact = exact_values(series, Fraction(1, 10**13), Fraction(999, 10**11))
+    assert [float(v) for v in exact] == floats
+    # Exact decimals: 10**k times the value is an integer for some k.
+    assert all((v * 10**15).denominator == 1 for v in exact)
+
+
+def test_exact_values_range_is_inclusive() -> None:
+    # 10 pF and 15 pF are both E12 values (IEC 60063).
+    picked = exact_values("E12", Fraction(10, 10**12), Fraction(15, 10**12))
+    assert picked == (Fraction(10, 10**12), Fraction(12, 10**12), Fraction(15, 10**12))
+    with pytest.raises(ClockplanError):
+        exact_values("E12", 2, 1)
 
 
 # Brute force: the nearest-in-ratio value over a wide range of decades.

@@ -170,3 +170,18 @@ def test_render_of_an_existing_filter() -> None:
     assert "ideal" not in text
     margin = float(text.split("phase margin")[1].split("°")[0].split()[-1])
     assert math.isfinite(margin) and 50 < margin < 60
+
+
+def test_result_feeds_the_jitter_loop_model() -> None:
+    # The jitter model builds H and E from G = num/den: same response as ours.
+    import numpy as np
+
+    from clockplan.jitter.loop import loop_from_open_loop
+    from clockplan.loopfilter.response import frequency_response
+
+    config = parse_loop_filter(BASE | {"bandwidth": "100 kHz", "phase_margin": 55})
+    result = evaluate_loop_filter(config, config.spec(100, 25_000_000))
+    loop = loop_from_open_loop(*result.open_loop())
+    offsets = np.geomspace(1e2, 1e8, 61)
+    np.testing.assert_allclose(loop.closed_loop(offsets), frequency_response(*result.closed_loop(), offsets), rtol=1e-9)
+    np.testing.assert_allclose(loop.error(offsets), frequency_response(*result.error(), offsets), rtol=1e-9)

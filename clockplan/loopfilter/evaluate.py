@@ -3,8 +3,9 @@
 :func:`evaluate_loop_filter` is what ``clockplan loop BOARD PLL`` runs: it
 designs the filter (or takes the existing one), snaps it to the chosen
 E-series, and measures what the filter that will be built really gives.
-The jitter model takes :meth:`LoopFilterResult.closed_loop` and
-:meth:`LoopFilterResult.error` (polynomials in s, rad/s).
+The jitter model takes :meth:`LoopFilterResult.open_loop` (for
+``clockplan.jitter.loop.loop_from_open_loop``), or :meth:`LoopFilterResult.closed_loop`
+and :meth:`LoopFilterResult.error` directly (polynomials in s, rad/s).
 """
 
 from __future__ import annotations
@@ -23,6 +24,7 @@ from clockplan.loopfilter.response import (
     error_polynomials,
     lock_time,
     loop_margins,
+    open_loop_polynomials,
 )
 
 __all__ = [
@@ -65,6 +67,10 @@ class LoopFilterResult:
     ideal_performance: LoopPerformance | None
     chosen_performance: LoopPerformance
     notes: tuple[str, ...]
+
+    def open_loop(self) -> tuple[np.ndarray, np.ndarray]:
+        """``G(s)`` of the chosen filter, 1/N included (what ``jitter.loop_from_open_loop`` takes)."""
+        return open_loop_polynomials(self.chosen, self.spec)
 
     def closed_loop(self) -> tuple[np.ndarray, np.ndarray]:
         """``H(s) = G/(1+G)`` of the chosen filter (reference to output, before the factor N)."""
