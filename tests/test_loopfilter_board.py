@@ -185,3 +185,19 @@ def test_result_feeds_the_jitter_loop_model() -> None:
     offsets = np.geomspace(1e2, 1e8, 61)
     np.testing.assert_allclose(loop.closed_loop(offsets), frequency_response(*result.closed_loop(), offsets), rtol=1e-9)
     np.testing.assert_allclose(loop.error(offsets), frequency_response(*result.error(), offsets), rtol=1e-9)
+
+
+def test_result_document_is_json_and_round_trips_the_parts() -> None:
+    import json
+    from fractions import Fraction
+
+    from clockplan.loopfilter.evaluate import result_document
+
+    config = parse_loop_filter(BASE | {"bandwidth": "100 kHz", "phase_margin": 55, "order": 2})
+    result = evaluate_loop_filter(config, config.spec(Fraction(201, 2), 25_000_000))
+    document = json.loads(json.dumps(result_document(result)))
+    assert document["loop"]["n"] == "201/2" and document["loop"]["pfd_hz"] == 25e6
+    assert FilterDesign(2, **document["fitted"]) == result.chosen
+    assert document["performance"]["phase_margin_deg"] == result.chosen_performance.phase_margin_deg
+    assert document["closed_loop"]["den"] == [float(c) for c in result.closed_loop()[1]]
+    assert document["ideal"] is not None and document["notes"]

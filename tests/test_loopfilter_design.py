@@ -123,7 +123,9 @@ def test_symbolic_impedance_matches_nodal_analysis(design: FilterDesign) -> None
 # Worked example of the published method (Banerjee, "PLL Performance, Simulation,
 # and Design", fundamental loop filter design equations; equations from memory).
 # The book's part names map to ours as: book C1 -> c2, book C2 -> c1, book R2 -> r1,
-# book C3 -> c3, book R3 -> r3.  Inputs are an invented example.
+# book C3 -> c3, book R3 -> r3.  Inputs recalled from the book's design example
+# (from memory); its printed part values were not at hand, so the book's equations
+# are evaluated here and compared with our sympy-derived design.
 EXAMPLE = {"kphi": 4e-3, "kvco": 20e6, "n": 4500, "fpd": 200e3, "fc": 10e3, "phi": 47.8, "t31": 0.6, "gamma": 1.136}
 
 

@@ -11,7 +11,8 @@ and :meth:`LoopFilterResult.error` directly (polynomials in s, rad/s).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import asdict, dataclass
+from fractions import Fraction
 
 import numpy as np
 
@@ -33,6 +34,7 @@ __all__ = [
     "LoopFilterResult",
     "measure_performance",
     "evaluate_loop_filter",
+    "result_document",
 ]
 
 # Default lock criterion: within 1 ppm of the VCO frequency (common practice
@@ -179,3 +181,48 @@ def evaluate_loop_filter(config: LoopFilterConfig, spec: LoopSpec) -> LoopFilter
     chosen_performance = measure_performance(chosen, spec, lock_step_hz=step, lock_tolerance_hz=tolerance)
     notes = tuple(_notes(config, spec, chosen, chosen_performance))
     return LoopFilterResult(config, spec, ideal, chosen, ideal_performance, chosen_performance, notes)
+
+
+def _exact_or_number(value: Fraction | float) -> str | float:
+    if isinstance(value, Fraction):
+        return str(value.numerator) if value.denominator == 1 else f"{value.numerator}/{value.denominator}"
+    return float(value)
+
+
+def _polynomials(pair: tuple[np.ndarray, np.ndarray]) -> dict[str, list[float]]:
+    return {"num": [float(c) for c in pair[0]], "den": [float(c) for c in pair[1]]}
+
+
+def result_document(result: LoopFilterResult) -> dict:
+    """Return a JSON-ready dict of the result (SI units; polynomials in s, rad/s, highest power first).
+
+    Examples
+    --------
+    >>> import json
+    >>> from clockplan.loopfilter.board import parse_loop_filter
+    >>> config = parse_loop_filter({"charge_pump": "2.5 mA", "kvco": "30 MHz/V",
+    ...                             "bandwidth": "100 kHz", "phase_margin": 55})
+    >>> document = result_document(evaluate_loop_filter(config, config.spec(100, 25_000_000)))
+    >>> sorted(document["fitted"]) == ["c1", "c2", "c3", "r1", "r3"] and bool(json.dumps(document))
+    True
+    """
+    config, spec = result.config, result.spec
+    return {
+        "order": result.chosen.order,
+        "loop": {
+            "charge_pump_a": float(spec.charge_pump_a),
+            "kvco_hz_per_v": float(spec.kvco_hz_per_v),
+            "n": _exact_or_number(spec.n),
+            "pfd_hz": _exact_or_number(spec.f_pfd_hz),
+        },
+        "target": {"bandwidth_hz": config.bandwidth_hz, "phase_margin_deg": config.phase_margin_deg},
+        "series": {"resistors": config.resistor_series, "capacitors": config.capacitor_series},
+        "ideal": result.ideal.components() if result.ideal is not None else None,
+        "fitted": result.chosen.components(),
+        "ideal_performance": asdict(result.ideal_performance) if result.ideal_performance is not None else None,
+        "performance": asdict(result.chosen_performance),
+        "open_loop": _polynomials(result.open_loop()),
+        "closed_loop": _polynomials(result.closed_loop()),
+        "error": _polynomials(result.error()),
+        "notes": list(result.notes),
+    }
