@@ -78,8 +78,8 @@ def check_consumer_frequency(consumer: Consumer, actual_hz: Fraction | None) -> 
         return []
     text = f"achieves {format_frequency(actual_hz)} for a {format_frequency(consumer.frequency)} target ({format_ppm(error)})"
     if abs(error) > consumer.max_synthesis_error:
-        allowed = format_ppm(consumer.max_synthesis_error).lstrip("+")
-        return [_error("frequency", consumer.id, f"{text}, beyond the allowed synthesis error of ±{allowed}; re-plan or set max_synthesis_error")]
+        allowed = "0 (exact)" if consumer.max_synthesis_error == 0 else "±" + format_ppm(consumer.max_synthesis_error).lstrip("+")
+        return [_error("frequency", consumer.id, f"{text}, beyond the allowed synthesis error of {allowed}; re-plan, or set max_synthesis_error if the consumer tolerates it")]
     return [Finding(Severity.INFO, "inexact", consumer.id, f"{text}, within its allowed synthesis error")]
 
 

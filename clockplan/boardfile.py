@@ -8,6 +8,7 @@ The file format is documented in ``docs/board-format.md``.
 
 from __future__ import annotations
 
+import dataclasses
 import re
 import tomllib
 from collections.abc import Callable, Iterator
@@ -136,9 +137,9 @@ class TableReader:
             return default
         try:
             return parse(self.table[name])
-        except BoardError:
-            raise
         except ClockplanError as err:
+            if err.file or err.key:
+                raise
             raise self.ctx.error(self.path(name), err.message, err.hint or hint) from None
         except (TypeError, ValueError, ArithmeticError) as err:
             raise self.error(name, f"invalid value {self.table[name]!r}: {err}", hint) from None
@@ -396,6 +397,8 @@ def _read_buffer(reader: TableReader) -> Buffer:
 
 
 def _read_consumer(reader: TableReader) -> Consumer:
+    from clockplan.standards.resolve import BUDGET_FIELDS, resolve_budget
+
     consumer = Consumer(
         id=reader.get("id", _part_id),
         source=reader.get("source", _text),
@@ -404,7 +407,15 @@ def _read_consumer(reader: TableReader) -> Consumer:
         standard=reader.get("standard", _text, None),
     )
     reader.raw("description")
-    return consumer
+    for name in BUDGET_FIELDS:
+        reader.raw(name)
+    try:
+        budget = resolve_budget(consumer.standard, reader.table, reader.key)
+    except ClockplanError as err:
+        if err.file:
+            raise
+        raise reader.ctx.error(err.key or reader.key, err.message, err.hint) from None
+    return dataclasses.replace(consumer, budget=budget)
 
 
 def _array_of_tables(doc: dict, name: str, ctx: _Context) -> Iterator[TableReader]:
@@ -477,6 +488,9 @@ def parse_board(text: str, file: str | None = None) -> Board:
         lines=_line_table(ctx, doc),
     )
     _check_unique_ids(board, ctx)
+    from clockplan.graph import build_graph
+
+    build_graph(board)  # refuses unknown sources, loops and over-subscribed buffers
     return board
 
 

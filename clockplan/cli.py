@@ -90,6 +90,17 @@ def _build_parser() -> argparse.ArgumentParser:
     )
     _add_output_options(plan)
     plan.set_defaults(run=_run_plan)
+
+    standards = commands.add_parser(
+        "standards",
+        help="list interface clock requirements, or show one with its sources",
+        description="List the standards library (ppm tolerance, spread spectrum, jitter limit and band, with sources), "
+        "or show one entry in detail. A word that is not a key filters the list.",
+    )
+    standards.add_argument("key", nargs="?", help="a key or alias for its detail; any other word filters the list")
+    standards.add_argument("--width", type=int, default=None, help="terminal width for the tables")
+    standards.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
+    standards.set_defaults(run=_run_standards)
     return parser
 
 
@@ -179,6 +190,12 @@ def _run_plan(args: argparse.Namespace) -> int:
         if not args.json:
             sys.stderr.write(f"clockplan: wrote the planned settings to {target}\n")
     return EXIT_FINDINGS if analysis.has_errors else EXIT_OK
+
+def _run_standards(args: argparse.Namespace) -> int:
+    from clockplan.standards.render import standards_view
+
+    _console(args).print(standards_view(args.key))
+    return EXIT_OK
 
 
 def main(argv: Sequence[str] | None = None) -> int:

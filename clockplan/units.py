@@ -117,7 +117,7 @@ class _ExpressionParser:
 
     def parse(self) -> Fraction:
         if not self.tokens:
-            raise UnitError("empty number", hint="write a number such as '25' or '156.25'")
+            raise UnitError("a number is missing", hint="write a number such as '25' or '156.25'")
         value = self._expr()
         if self.pos != len(self.tokens):
             raise UnitError(
@@ -316,7 +316,8 @@ def parse_frequency(value: object) -> Fraction:
             )
         if unit and unit.lower().endswith("hz"):
             unit = unit[:-2] + "Hz"
-        hz = parse_number(number) * _prefix_scale(unit, "Hz", "frequency", value)
+        scale = _prefix_scale(unit, "Hz", "frequency", value)
+        hz = parse_number(number) * scale
     if hz <= 0:
         raise UnitError(f"frequency {value!r} is not positive", hint="a frequency must be above 0 Hz")
     return hz
@@ -380,7 +381,8 @@ def parse_time(value: object) -> float:
     number, unit = _split_unit(value)
     if unit == "":
         raise UnitError(f"time {value!r} has no unit", hint="write e.g. '0.3 ps' or '150 fs'")
-    seconds = parse_number(number) * _prefix_scale(unit, "s", "time", value)
+    scale = _prefix_scale(unit, "s", "time", value)
+    seconds = parse_number(number) * scale
     if seconds < 0:
         raise UnitError(f"time {value!r} is negative", hint="a time interval is zero or positive")
     return float(seconds)
@@ -482,14 +484,15 @@ def format_quantity(value: Fraction | int | float, unit: str, significant: int =
 
     An exact value is written with all its digits if its decimal expansion
     terminates within ``significant`` digits; otherwise it is rounded to
-    ``significant`` digits and marked ``≈``, so an inexact value never looks exact.
+    10 significant digits (fewer than any exact value may show) and marked
+    ``≈``, so an inexact value never looks exact.
 
     Examples
     --------
     >>> format_quantity(Fraction(156250000), "Hz")
     '156.25 MHz'
     >>> format_quantity(Fraction(148500000000, 1001), "Hz")
-    '≈148.351648352 MHz'
+    '≈148.3516484 MHz'
     """
     if isinstance(value, float):
         if not math.isfinite(value):
@@ -504,7 +507,7 @@ def format_quantity(value: Fraction | int | float, unit: str, significant: int =
     exact = _decimal_text(scaled, max(significant - integer_digits, 0))
     if exact is not None:
         return f"{exact} {prefix}{unit}"
-    decimals = max(significant - integer_digits, 0)
+    decimals = max(min(significant, 10) - integer_digits, 0)
     rounded = f"{float(scaled):.{decimals}f}".rstrip("0").rstrip(".")
     return f"≈{rounded} {prefix}{unit}"
 

@@ -5,20 +5,19 @@ one-line ``settings = { ... }`` is replaced, dotted ``settings.x = ...`` lines
 and ``[pll.settings]`` sub-tables are replaced by one line, and a table
 without settings gets one after its last key. Every other line, comment and
 blank line stays as it was. The result is read back and checked before
-anything is written, and the file is replaced atomically (a temporary file
-in the same folder, then ``os.replace``).
+anything is written, and the file is replaced atomically
+(:func:`clockplan.fileio.atomic_write_text`).
 """
 
 from __future__ import annotations
 
-import os
 import re
-import tempfile
 import tomllib
 from fractions import Fraction
 from pathlib import Path
 
 from clockplan.errors import BoardError, ClockplanError
+from clockplan.fileio import atomic_write_text, refuse_overwrite
 from clockplan.parts import Board, PllSetting, Settings
 
 __all__ = ["settings_line", "write_settings", "write_board_file"]
@@ -182,30 +181,13 @@ def write_board_file(source: str | Path, target: str | Path, board: Board, setti
     ------
     ClockplanError
         Writing over the input without ``in_place``, or a file that cannot be written.
+
+    Examples
+    --------
+    >>> write_board_file("boards/edge-router.toml", "planned.toml", board, plan.settings)  # doctest: +SKIP
+    PosixPath('planned.toml')
     """
-    source, target = Path(source), Path(target)
-    if target.exists() and source.exists() and os.path.samefile(source, target) and not in_place:
-        raise ClockplanError(
-            "refusing to write over the input board file",
-            file=str(target),
-            hint="write to another file with --write OUT.toml, or pass --in-place to update the input",
-        )
-    text = source.read_text(encoding="utf-8")
-    new_text = write_settings(text, board, settings)
-    folder = target.parent if str(target.parent) else Path(".")
-    try:
-        handle = tempfile.NamedTemporaryFile("w", encoding="utf-8", dir=folder, prefix=f".{target.name}.", suffix=".tmp", delete=False, newline="")
-        with handle:
-            handle.write(new_text)
-            handle.flush()
-            os.fsync(handle.fileno())
-        if target.exists():
-            os.chmod(handle.name, target.stat().st_mode & 0o7777)
-        os.replace(handle.name, target)
-    except OSError as err:
-        try:
-            os.unlink(handle.name)
-        except (OSError, UnboundLocalError):
-            pass
-        raise ClockplanError(f"cannot write the board file: {err.strerror}", file=str(target)) from None
-    return target
+    refuse_overwrite(target, protected=[source], allow=in_place)
+    text = Path(source).read_text(encoding="utf-8")
+    atomic_write_text(target, write_settings(text, board, settings))
+    return Path(target)

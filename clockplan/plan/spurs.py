@@ -46,18 +46,40 @@ def loop_bandwidth_of(pll: Any, default: Fraction | float | None = DEFAULT_LOOP_
     """The loop bandwidth of ``pll`` in Hz: from its ``loop`` data when it has one, else ``default``.
 
     Accepts a ``loop`` object with a ``bandwidth`` (or ``bandwidth_hz``)
-    attribute or a mapping with such a key, and a ``loop_bandwidth`` attribute
-    on the part itself.
+    attribute or a mapping with such a key, a loop response with
+    ``closed_loop_power(f)`` (its -3 dB frequency is taken), and a
+    ``loop_bandwidth`` attribute on the part itself.
     """
     candidates = [getattr(pll, "loop_bandwidth", None)]
     loop = getattr(pll, "loop", None)
     if loop is not None:
         for name in ("bandwidth", "bandwidth_hz"):
             candidates.append(loop.get(name) if isinstance(loop, dict) else getattr(loop, name, None))
+        if hasattr(loop, "closed_loop_power"):
+            candidates.append(_three_db_bandwidth(loop))
     for value in candidates:
         if isinstance(value, (int, float, Fraction)) and not isinstance(value, bool) and value > 0:
             return value
     return default
+
+
+def _three_db_bandwidth(loop: Any) -> float | None:
+    """The highest frequency where the closed-loop power response is still at least one half (-3 dB)."""
+    import numpy as np
+
+    grid = np.logspace(-1, 11, 1201)
+    power = np.asarray(loop.closed_loop_power(grid), dtype=float)
+    above = np.nonzero(power >= 0.5)[0]
+    if above.size == 0 or above[-1] == grid.size - 1:
+        return None
+    lo, hi = float(grid[above[-1]]), float(grid[above[-1] + 1])
+    for _ in range(60):
+        mid = (lo * hi) ** 0.5
+        if float(np.asarray(loop.closed_loop_power(np.array([mid])))[0]) >= 0.5:
+            lo = mid
+        else:
+            hi = mid
+    return lo
 
 
 def spur_in_band(offset_hz: Fraction | None, bandwidth_hz: Fraction | float | None) -> bool:
