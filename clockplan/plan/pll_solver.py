@@ -140,6 +140,9 @@ class _Output:
     window_hi: Fraction
     ladder: Ladder
     bottoms: list[Fraction]
+    center_f: float = 0.0
+    t_lo_f: float = 0.0
+    t_hi_f: float = 0.0
 
     def errors(self, out_hz: Fraction) -> dict[str, Fraction]:
         return {t.label: out_hz / t.hz - 1 for t in self.spec.targets}
@@ -174,12 +177,6 @@ class _Output:
             return None
         return best[2], best[1], not best[0]
 
-    def pure_error(self, v: Fraction) -> Fraction | None:
-        """Smallest worst error over the two nearest units (the curve the sweep follows)."""
-        x = v / self.center
-        errors = [self.curve_error(v, d) for d in (self.ladder.below(floor_fraction(x)), self.ladder.above(ceil_fraction(x))) if d]
-        return min(errors) if errors else None
-
 
 def _build_output(spec: OutputSpec, vlo: Fraction, vhi: Fraction, limits: SearchLimits, notes: list[str]) -> _Output:
     hz = [t.hz for t in spec.targets]
@@ -196,7 +193,8 @@ def _build_output(spec: OutputSpec, vlo: Fraction, vhi: Fraction, limits: Search
         ladder = product_ladder(spec.chain, max(1, lo // 2), 2 * hi + 2, limits.max_ladder)
         if ladder.truncated:
             notes.append(f"output {spec.name}: only the first {limits.max_ladder} divider products were searched")
-    return _Output(spec, t_lo, t_hi, center, window_lo, window_hi, ladder, [d * center for d in ladder.values])
+    bottoms = [d * center for d in ladder.values]
+    return _Output(spec, t_lo, t_hi, center, window_lo, window_hi, ladder, bottoms, float(center), float(t_lo), float(t_hi))
 
 
 # --------------------------------------------------------------------------- the grid per R
@@ -220,8 +218,10 @@ class _RGrid:
 
 def _r_grids(problem: PllProblem) -> list[_RGrid]:
     pll, f_in = problem.pll, problem.input_hz
-    lo = ceil_fraction(f_in / pll.pfd.hi)
-    hi = floor_fraction(f_in / pll.pfd.lo)
+    # R must put the PFD in range and let some N in range reach the VCO range:
+    # f_in * n_min / R <= vco_hi and f_in * n_max / R >= vco_lo.
+    lo = max(ceil_fraction(f_in / pll.pfd.hi), ceil_fraction(f_in * pll.n_min / pll.vco.hi))
+    hi = min(floor_fraction(f_in / pll.pfd.lo), floor_fraction(f_in * pll.n_max / pll.vco.lo))
     values: Iterable[int]
     if problem.r_pin is not None:
         values = [problem.r_pin] if problem.r_pin in pll.r and lo <= problem.r_pin <= hi else []
@@ -425,14 +425,18 @@ class _Solver:
     # ----------------------------------------------------------------- the sweep
 
     def _sweep(self) -> None:
-        candidates = self._critical_points()
-        inside = [c for c in candidates if c[2]]
-        self._visit(sorted((e, m) for e, m, _ in inside), feasible_only=True)
+        points = sorted(self._critical_points(), key=lambda item: item[0])
+        self._visit(points, feasible_only=True)
         if not any(c.score.feasible for c in self.found.values()):
-            self._visit(sorted((e, m) for e, m, _ in candidates), feasible_only=False)
+            self._visit(points, feasible_only=False)
 
-    def _critical_points(self) -> list[tuple[Fraction, Fraction, bool]]:
-        """(error lower bound, VCO point, inside tolerance?) for every point an optimum can sit next to."""
+    def _critical_points(self) -> list[tuple[float, "Fraction | _Crossing"]]:
+        """(error bound, VCO point) for every point an optimum can sit next to.
+
+        The bound is the worst-error curve at the point, computed in floats
+        (from a superset of the nearest dividers, so it never overstates);
+        :meth:`_visit` prunes only with a margin far above float rounding.
+        """
         points: set[Fraction] = {self.vlo, self.vhi}
         points |= {g.vco_lo for g in self.grids} | {g.vco_hi for g in self.grids}
         for out in self.outputs:
@@ -440,73 +444,93 @@ class _Solver:
                 for edge in (d * out.center, d * out.window_lo, d * out.window_hi):
                     if self.vlo <= edge <= self.vhi:
                         points.add(edge)
-        boundaries = sorted(p for p in points if self.vlo <= p <= self.vhi)
+        # Floats order the points; exact comparison only breaks float ties.
+        boundaries = sorted(points, key=lambda p: (float(p), p))
         result = []
         for p in boundaries:
-            e = self._pure_error(p)
+            e = self._pure_error_float(float(p))
             if e is not None:
-                result.append((e, p, self._inside(p)))
-        result += self._crossings(boundaries)
-        return result
+                result.append((e, p))
+        return result + self._crossings(boundaries)  # type: ignore[operator]
 
-    def _crossings(self, boundaries: list[Fraction]) -> list[tuple[Fraction, Fraction, bool]]:
-        """Local minima of the worst-error curve strictly inside elementary intervals."""
+    def _crossings(self, boundaries: list[Fraction]) -> list[tuple[float, "_Crossing"]]:
+        """Local minima of the worst-error curve strictly inside elementary intervals.
+
+        Inside an interval each output's error is a tent ``min(v/B - 1, 1 - v/A)``;
+        a local minimum of the worst error is where one output's falling side
+        meets another output's rising side on top of every other tent (an
+        output's own sides meet at its peak, never at a minimum). Floats discard
+        the pairs that are clearly not on top (with a margin far above rounding);
+        the point itself, ``2AB/(A+B)``, is made exact only when visited.
+        """
         found = []
         for p, q in zip(boundaries, boundaries[1:]):
-            rising: list[Fraction] = []  # v / B - 1
-            falling: list[Fraction] = []  # 1 - v / A
+            lines = []  # per output: (B or None, A or None), exact
             for out in self.outputs:
                 i = bisect.bisect_right(out.bottoms, p) - 1
                 j = bisect.bisect_left(out.bottoms, q)
-                if i >= 0:
-                    rising.append(out.ladder.values[i] * out.t_lo)
-                if j < len(out.bottoms):
-                    falling.append(out.ladder.values[j] * out.t_hi)
-            if not rising or not falling:
-                continue
-            for a in falling:
-                for b in rising:
-                    v = 2 * a * b / (a + b)
-                    if not p < v < q:
+                rise = out.ladder.values[i] * out.t_lo if i >= 0 else None
+                fall = out.ladder.values[j] * out.t_hi if j < len(out.bottoms) else None
+                lines.append((rise, fall))
+            floats = [(float(b) if b is not None else None, float(a) if a is not None else None) for b, a in lines]
+            pf, qf = float(p), float(q)
+            for ia, (_, a) in enumerate(lines):
+                if a is None:
+                    continue
+                af = floats[ia][1]
+                for ib, (b, _) in enumerate(lines):
+                    if b is None or ia == ib:
                         continue
-                    level = 1 - v / a
-                    if level == self._interval_error(v, p, q) and level >= 0:
-                        found.append((level, v, self._inside(v)))
+                    bf = floats[ib][0]
+                    vf = 2 * af * bf / (af + bf)
+                    if not pf * (1 - 1e-12) < vf < qf * (1 + 1e-12):
+                        continue
+                    level_f = 1 - vf / af
+                    if level_f < -1e-12 or any(_tent(vf, rb, fa) > level_f + 1e-12 for rb, fa in floats):
+                        continue
+                    # Kept without an exact check: an extra point costs a visit, a missing one optimality.
+                    found.append((level_f, _Crossing(a, b)))
         return found
 
-    def _interval_error(self, v: Fraction, p: Fraction, q: Fraction) -> Fraction:
-        worst = Fraction(-1)
+    def _pure_error_float(self, v: float) -> float | None:
+        worst = 0.0
         for out in self.outputs:
-            i = bisect.bisect_right(out.bottoms, p) - 1
-            j = bisect.bisect_left(out.bottoms, q)
-            levels = []
-            if i >= 0:
-                levels.append(v / (out.ladder.values[i] * out.t_lo) - 1)
-            if j < len(out.bottoms):
-                levels.append(1 - v / (out.ladder.values[j] * out.t_hi))
-            worst = max(worst, min(levels))
-        return worst
-
-    def _pure_error(self, v: Fraction) -> Fraction | None:
-        worst = Fraction(0)
-        for out in self.outputs:
-            e = out.pure_error(v)
-            if e is None:
+            x = v / out.center_f
+            units = {out.ladder.below(math.floor(x) + 1), out.ladder.below(math.floor(x)), out.ladder.above(math.ceil(x)), out.ladder.above(math.ceil(x) - 1)}
+            errors = [max(v / (d * out.t_lo_f) - 1, 1 - v / (d * out.t_hi_f)) for d in units if d]
+            if not errors:
                 return None
-            worst = max(worst, e)
+            worst = max(worst, min(errors))
         return worst
 
     def _inside(self, v: Fraction) -> bool:
-        return all(any(out.feasible(v, d) for d in out.candidate_dividers(v)) for out in self.outputs)
+        vf = float(v)
+        for out in self.outputs:
+            x = vf / out.center_f
+            near = {out.ladder.below(math.floor(x) + 1), out.ladder.above(math.ceil(x) - 1)}
+            # Quick float rejection: no nearby divider's window comes within rounding of v.
+            lo_f, hi_f = float(out.window_lo), float(out.window_hi)
+            if lo_f <= hi_f and all(d is None or vf < d * lo_f * (1 - 1e-12) or vf > d * hi_f * (1 + 1e-12) for d in near):
+                far = out.candidate_dividers(v) - near
+                if not any(out.feasible(v, d) for d in far):
+                    return False
+                continue
+            if not any(out.feasible(v, d) for d in out.candidate_dividers(v)):
+                return False
+        return True
 
-    def _visit(self, points: Sequence[tuple[Fraction, Fraction]], feasible_only: bool) -> None:
-        for index, (bound, m) in enumerate(points):
-            best = self._best_error(feasible_only)
-            if best is not None and bound > best:
+    def _visit(self, points: Sequence[tuple[float, "Fraction | _Crossing"]], feasible_only: bool) -> None:
+        best = self._best_error(feasible_only)
+        for index, (bound, point) in enumerate(points):
+            if best is not None and bound > float(best) * (1 + 1e-9) + 1e-15:
                 return
+            m = point.point if isinstance(point, _Crossing) else point
+            if feasible_only and not self._inside(m):
+                continue
             if index % 16 == 0 and self._out_of_time():
                 return
             self._visit_point(m)
+            best = self._best_error(feasible_only)
 
     def _best_error(self, feasible_only: bool) -> Fraction | None:
         errors = [c.score.worst_error for c in self.found.values() if c.score.feasible or not feasible_only]
@@ -531,6 +555,23 @@ class _Solver:
                         break
                     distances.append(distance)
                 self._consider(grid, n)
+
+
+def _tent(v: float, rise: float | None, fall: float | None) -> float:
+    levels = [x for x in (v / rise - 1 if rise else None, 1 - v / fall if fall else None) if x is not None]
+    return min(levels)
+
+
+@dataclass(frozen=True)
+class _Crossing:
+    """Where a falling side ``1 - v/A`` meets a rising side ``v/B - 1``: ``v = 2AB/(A+B)``."""
+
+    a: Fraction
+    b: Fraction
+
+    @property
+    def point(self) -> Fraction:
+        return 2 * self.a * self.b / (self.a + self.b)
 
 
 def _whole_in(ladder: Ladder, d: Fraction) -> bool:
