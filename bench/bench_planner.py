@@ -7,7 +7,8 @@ Run from the repository root::
 
 Part 1 solves one 4-output fractional-N PLL (R up to 1023, N up to 4095,
 output dividers up to 256) with the planner and with an exhaustive search,
-in the same run, and prints both worst errors and the speed ratio.
+in the same run, and prints both worst errors and the speed ratio (planner:
+best of five runs; exhaustive: one run).
 
 How the exhaustive baseline is restricted so that it finishes: it visits
 *every* allowed R and *every* feedback ratio on the part's grid, which is
@@ -20,8 +21,9 @@ of the float minimum is re-evaluated exactly with fractions, so the
 baseline's worst error is exact.
 
 Part 2 plans synthetic boards of 10, 50 and 200 consumers (five consumers
-per PLL, every fourth PLL fed by another PLL's spare output) and prints the
-planning time per board size.
+per PLL drawn from network, audio and video frequency families, every eighth
+PLL from a mixed family with no common VCO frequency, every fourth PLL fed
+by another PLL's spare output) and prints the planning time per board size.
 
 This is a script that prints figures, not a timed test.
 """
@@ -124,37 +126,48 @@ def part_one() -> None:
     for name, targets in cases.items():
         pll = bench_pll(targets)
         outputs = tuple(OutputSpec(f"o{i}", (Target(f"c{i}", t),), (IntChoices(1, 256),)) for i, t in enumerate(targets))
-        started = time.perf_counter()
-        search = solve_pll(PllProblem(pll, F_IN, outputs), SearchLimits(keep=1))
-        planner_s = time.perf_counter() - started
+        planner_s = math.inf
+        for _ in range(5):  # best of five: the planner's runs are short enough for timer noise to matter
+            started = time.perf_counter()
+            search = solve_pll(PllProblem(pll, F_IN, outputs), SearchLimits(keep=1))
+            planner_s = min(planner_s, time.perf_counter() - started)
         started = time.perf_counter()
         reference, visited = exhaustive(pll, targets)
         exhaustive_s = time.perf_counter() - started
         planned = search.best.score.worst_error
         print(f"  {name}")
-        print(f"    planner:    worst error {float(planned) * 1e6:.6g} ppm in {planner_s * 1000:.1f} ms ({search.evaluated} settings evaluated)")
+        print(f"    planner:    worst error {float(planned) * 1e6:.6g} ppm in {planner_s * 1000:.1f} ms, best of 5 ({search.evaluated} settings evaluated)")
         print(f"    exhaustive: worst error {float(reference) * 1e6:.6g} ppm in {exhaustive_s:.2f} s ({visited:,} grid points)")
         print(f"    same worst error: {planned == reference}; speed ratio: {exhaustive_s / planner_s:,.0f}x")
 
 
 # --------------------------------------------------------------------------- synthetic boards
 
-POOL = [
-    "156.25 MHz", "125 MHz", "100 MHz", "25 MHz", "50 MHz", "250 MHz", "12.288 MHz", "11.2896 MHz",
-    "24.576 MHz", "148.5 MHz", "74.25 MHz", "27 MHz", "122.88 MHz", "245.76 MHz", "48 MHz", "33.333 MHz",
-]
+# Families of consumer frequencies that share a VCO (plus a mixed one that does not).
+FAMILIES = {
+    "network": ["156.25 MHz", "125 MHz", "100 MHz", "250 MHz", "25 MHz", "50 MHz"],
+    "audio": ["12.288 MHz", "24.576 MHz", "49.152 MHz", "98.304 MHz"],
+    "video": ["148.5 MHz", "74.25 MHz", "27 MHz", "13.5 MHz"],
+    "mixed": ["156.25 MHz", "122.88 MHz", "148.5/1.001 MHz", "33.333 MHz", "11.2896 MHz", "40 MHz"],
+}
+_PATTERN = [("network", "integer"), ("audio", "fractional"), ("video", "integer"), ("network", "fractional"),
+            ("network", "integer"), ("audio", "fractional"), ("video", "integer"), ("mixed", "fractional")]
 
 
 def synthetic_board(consumers: int, seed: int = 1) -> str:
-    """A board of ``consumers`` consumers, five per PLL; every fourth PLL hangs off another PLL's spare output."""
+    """A board of ``consumers`` consumers, five per PLL.
+
+    PLLs cycle through frequency families (network, audio, video, and every
+    eighth a mixed family with no common VCO, where the sweep has to work);
+    every fourth PLL is fed by the previous PLL's spare output (a cascade).
+    """
     rng = random.Random(seed)
     lines = ['[board]\nname = "synthetic"\n', '[[reference]]\nid = "ref"\nfrequency = "25 MHz"\n']
     plls = (consumers + 4) // 5
     for p in range(plls):
-        cascade = p % 4 == 3
-        source = f"pll{p - 1}.spare" if cascade else "ref"
-        fractional = p % 2 == 1
-        rule = 'mode = "fractional"\nmax_denominator = 16777215\n' if fractional else 'mode = "integer"\n'
+        family, mode = _PATTERN[p % len(_PATTERN)]
+        source = f"pll{p - 1}.spare" if p % 4 == 3 else "ref"
+        rule = 'mode = "fractional"\nmax_denominator = 16777215\n' if mode == "fractional" else 'mode = "integer"\n'
         lines.append(
             f'[[pll]]\nid = "pll{p}"\ninput = "{source}"\nvco = ["2.4 GHz", "3.2 GHz"]\npfd = ["1 MHz", "100 MHz"]\n'
             f'r = [1, 255]\nn = [8, 4095]\n{rule}'
@@ -165,15 +178,15 @@ def synthetic_board(consumers: int, seed: int = 1) -> str:
         for o in range(5):
             if p * 5 + o >= consumers:
                 break
-            freq = rng.choice(POOL[:6] if not fractional else POOL)
-            lines.append(
-                f'[[consumer]]\nid = "c{p}_{o}"\nsource = "pll{p}.o{o}"\nfrequency = "{freq}"\nmax_synthesis_error = "±100 ppm"\n'
-            )
+            freq = rng.choice(FAMILIES[family])
+            tolerance = '\nmax_synthesis_error = "±100 ppm"' if family == "mixed" else ""
+            lines.append(f'[[consumer]]\nid = "c{p}_{o}"\nsource = "pll{p}.o{o}"\nfrequency = "{freq}"{tolerance}\n')
     return "\n".join(lines)
 
 
 def part_two(sizes: list[int]) -> None:
-    print("Part 2: planning time for synthetic boards (five consumers per PLL, every fourth PLL cascaded)")
+    print("Part 2: planning time for synthetic boards (five consumers per PLL, every fourth PLL cascaded,")
+    print("        every eighth PLL with a mixed family that has no common VCO frequency)")
     for size in sizes:
         board = parse_board(synthetic_board(size), f"synthetic-{size}.toml")
         started = time.perf_counter()

@@ -61,13 +61,21 @@ class PlanOptions:
     loop_bandwidth_hz
         Loop bandwidth used for the spur flag of a PLL that does not state its own.
     max_cascade_inputs
-        How many input frequencies are tried for a PLL fed by another PLL or an open divider.
+        How many ratios of an open plain divider are tried when a PLL follows it.
+    max_cascade_solves
+        How many output dividers of a PLL output feeding another PLL are tried
+        (each needs a full plan of the downstream PLL).
+    cascade_patience
+        Stop trying output dividers for a cascade after this many in a row
+        brought no better downstream plan.
     """
 
     alternatives: int = 0
     time_limit_s: float = 10.0
     loop_bandwidth_hz: Fraction = DEFAULT_LOOP_BANDWIDTH_HZ
     max_cascade_inputs: int = 256
+    max_cascade_solves: int = 12
+    cascade_patience: int = 3
 
 
 @dataclass(frozen=True)
@@ -191,6 +199,7 @@ class _Planner:
             pll.id: loop_bandwidth_of(pll, options.loop_bandwidth_hz) for pll in board.plls
         }
         self._cache: dict[tuple[str, Fraction], list[SubPlan]] = {}
+        self._wish_cache: dict[str, list[Fraction]] = {}
 
     # ----------------------------------------------------------------- helpers
 
@@ -327,7 +336,7 @@ class _Planner:
             spec = self.output_spec(out.name, node, chain_first)
             if spec is None:
                 free.append(out.name)
-                wish = self._input_wishes(node)
+                wish = self._wishes(node)
                 if wish:
                     wishes.append((out.name, wish))
             else:
@@ -345,7 +354,9 @@ class _Planner:
         if not candidates:
             return [self._blocked(pll.id, _cannot_run(pll, hz, problem))]
         plans: list[SubPlan] = []
-        for candidate in candidates[: self.keep + 2]:
+        # Outputs feeding other PLLs make each candidate costly: fewer candidates then.
+        width = self.keep + (0 if any(self._lift(f"{pll.id}.{name}").plls for name in free) else 2)
+        for candidate in candidates[:width]:
             plans += self._complete_pll(pll, candidate, free, pinned_dividers)
             if time.monotonic() > self.deadline:
                 self._note("the search stopped at its time limit: the plan is the best found, not proven optimal")
@@ -463,10 +474,17 @@ class _Planner:
                 branches.append(self._output_branch(node, d, candidate.vco_hz))
             else:
                 options = [pinned[out.name]] if out.name in pinned else self._free_dividers(pll, out, candidate.vco_hz)
-                ranked = []
+                ranked: list[SubPlan] = []
+                best_key, stale = None, 0
                 for d in options:
                     ranked += self._output_branch(node, d, candidate.vco_hz)
-                    if time.monotonic() > self.deadline:
+                    if time.monotonic() > self.deadline or _settled(ranked, self.keep):
+                        break
+                    # Stop trying inputs after a few that bring nothing better.
+                    key = min(p.score.key() for p in ranked) if ranked else None
+                    stale = 0 if best_key is None or (key is not None and key < best_key) else stale + 1
+                    best_key = key if best_key is None or (key is not None and key < best_key) else best_key
+                    if stale >= self.options.cascade_patience:
                         break
                 branches.append(_ranked(ranked, self.keep))
         plans = []
@@ -486,7 +504,14 @@ class _Planner:
         ]
 
     def _free_dividers(self, pll: Pll, out: Any, vco: Fraction) -> list[int]:
-        lift = self._lift(f"{pll.id}.{out.name}")
+        """Dividers to try on an output without targets of its own, most promising first.
+
+        For an output feeding another PLL: first the dividers that hit a
+        frequency the downstream PLL wishes for, then the rest from the highest
+        frequency down, at most ``max_cascade_solves`` in all.
+        """
+        node = f"{pll.id}.{out.name}"
+        lift = self._lift(node)
         if not lift.plls and not lift.open_dividers and not lift.targets:
             return [out.divider.lo]  # an unused output: the smallest allowed divider
         options: set[int] = set()
@@ -494,7 +519,38 @@ class _Planner:
             options |= set(self._ratios_feeding(out.divider, vco, downstream, factor))
         if lift.open_dividers:
             options.add(out.divider.lo)
-        return sorted(options) or [out.divider.lo]
+        if not options:
+            return [out.divider.lo]
+        wished = []
+        for hz in self._wishes(node):
+            d = vco / hz
+            if d.denominator == 1 and int(d) in options and int(d) not in wished:
+                wished.append(int(d))
+        ordered = wished + [d for d in sorted(options) if d not in wished]
+        cap = self.options.max_cascade_solves
+        if len(ordered) > cap:
+            self._note(
+                f"{node}: {cap} of {len(ordered)} output dividers were tried for the parts it feeds "
+                "(those giving the frequencies they prefer first, then the highest frequencies)"
+            )
+            ordered = ordered[:cap]
+        return ordered
+
+    def _wishes(self, node: str) -> list[Fraction]:
+        if node not in self._wish_cache:
+            self._wish_cache[node] = self._input_wishes(node)
+        return self._wish_cache[node]
+
+
+def _settled(plans: list[SubPlan], keep: int) -> bool:
+    """True once ``keep`` plans below a cascade output are exact and integer-N throughout.
+
+    The dividers are tried in order of preference (the downstream PLL's
+    wished-for inputs, highest PFD first), so the search of a cascade output
+    stops at the first such plans.
+    """
+    ideal = [p for p in plans if p.score.feasible and p.score.worst_error == 0 and p.score.fractional == 0 and not p.blocked]
+    return len(ideal) >= keep
 
 
 def _cannot_run(pll: Pll, hz: Fraction, problem: PllProblem) -> str:

@@ -277,6 +277,7 @@ class _Solver:
         self.grids = _r_grids(problem)
         self.evaluated = 0
         self.found: dict[tuple[int, Fraction], PllCandidate] = {}
+        self._exact_settled = False
         self._divide_cache: dict[Fraction, tuple | None] = {}
         if self.grids:
             self.vlo = min(g.vco_lo for g in self.grids)
@@ -380,7 +381,10 @@ class _Solver:
             return False
         step = lcm_fractions(out.t_lo for out in self.outputs)
         multiples = multiples_in(step, self.vlo, self.vhi)
+        # With every tolerance zero, feasible means exact: a complete exact search settles feasibility.
+        self._exact_settled = all(t.tolerance == 0 for out in self.outputs for t in out.spec.targets)
         if len(multiples) > self.limits.max_multiples:
+            self._exact_settled = False
             self.notes.append(
                 f"{self.pll.id}: {len(multiples)} VCO frequencies are common multiples of the outputs; "
                 f"only the lowest {self.limits.max_multiples} were examined"
@@ -389,6 +393,7 @@ class _Solver:
         found = False
         for index, m in enumerate(multiples):
             if index % 256 == 0 and self._out_of_time():
+                self._exact_settled = False
                 break
             v = m * step
             if not all(_whole_in(out.ladder, v / out.t_lo) for out in self.outputs):
@@ -426,7 +431,8 @@ class _Solver:
 
     def _sweep(self) -> None:
         points = sorted(self._critical_points(), key=lambda item: item[0])
-        self._visit(points, feasible_only=True)
+        if not self._exact_settled:
+            self._visit(points, feasible_only=True)
         if not any(c.score.feasible for c in self.found.values()):
             self._visit(points, feasible_only=False)
 
@@ -464,11 +470,18 @@ class _Solver:
         the point itself, ``2AB/(A+B)``, is made exact only when visited.
         """
         found = []
+        # Per output: how many bottoms lie at or below p (advanced as p moves right).
+        below = [bisect.bisect_right(out.bottoms, boundaries[0]) for out in self.outputs] if boundaries else []
         for p, q in zip(boundaries, boundaries[1:]):
             lines = []  # per output: (B or None, A or None), exact
-            for out in self.outputs:
-                i = bisect.bisect_right(out.bottoms, p) - 1
-                j = bisect.bisect_left(out.bottoms, q)
+            for k, out in enumerate(self.outputs):
+                while below[k] < len(out.bottoms) and out.bottoms[below[k]] <= p:
+                    below[k] += 1
+                i = below[k] - 1
+                # The first bottom at or above q: the next one, unless it lies strictly inside (p, q).
+                j = below[k]
+                if j < len(out.bottoms) and out.bottoms[j] < q:
+                    j = bisect.bisect_left(out.bottoms, q, j)
                 rise = out.ladder.values[i] * out.t_lo if i >= 0 else None
                 fall = out.ladder.values[j] * out.t_hi if j < len(out.bottoms) else None
                 lines.append((rise, fall))
