@@ -104,24 +104,23 @@ def _build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def _count(text: str) -> int:
-    try:
-        value = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
-    if not 0 <= value <= 100:
-        raise argparse.ArgumentTypeError("expected a whole number from 0 to 100")
-    return value
+def _bounded(parse, lo: float, hi: float, what: str, lo_open: bool = False):
+    """An argparse type: ``parse(text)`` within ``lo..hi`` (``lo`` excluded if ``lo_open``)."""
+
+    def convert(text: str):
+        try:
+            value = parse(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"expected {what}, got {text!r}") from None
+        if value > hi or value < lo or (lo_open and value == lo):
+            raise argparse.ArgumentTypeError(f"expected {what} {'above' if lo_open else 'from'} {lo} and at most {hi}")
+        return value
+
+    return convert
 
 
-def _seconds(text: str) -> float:
-    try:
-        value = float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"expected a number of seconds, got {text!r}") from None
-    if not 0 < value <= 3600:
-        raise argparse.ArgumentTypeError("expected a time limit above 0 and at most 3600 seconds")
-    return value
+_count = _bounded(int, 0, 100, "a whole number")
+_seconds = _bounded(float, 0, 3600, "a number of seconds", lo_open=True)
 
 
 def _console(args: argparse.Namespace):

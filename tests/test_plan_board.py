@@ -254,3 +254,20 @@ def test_every_setting_respects_its_constraint_on_every_demo_board():
             analysis = analyze(board, candidate.settings)
             ranges = [f for f in analysis.findings if f.code.endswith("-range") or f.code in ("n-fraction", "denominator", "unset")]
             assert not ranges, (path, ranges)
+
+
+def test_bounds_are_reported_and_never_leave_a_part_without_settings():
+    from clockplan.plan.pll_solver import SearchLimits
+
+    board = load_board("boards/edge-router.toml")
+    plan = plan_board(board, PlanOptions(time_limit_s=1e-6))
+    assert any("time limit" in note for note in plan.notes)
+    assert set(plan.settings.plls) == {p.id for p in board.plls}
+    # A cap on the common multiples examined is reported too (the audio VCO has 1 multiple; the cleaner more).
+    from clockplan.plan.pll_solver import OutputSpec, PllProblem, Target, solve_pll
+
+    pll = board.part("cleaner")
+    spec = OutputSpec("sgmii", (Target("sgmii_phy", Fraction(125_000_000)),), (pll.output("sgmii").divider,))
+    search = solve_pll(PllProblem(pll, Fraction(25_000_000), (spec,)), SearchLimits(max_multiples=1))
+    assert search.best.score.worst_error == 0
+    assert any("only the lowest 1" in note for note in search.notes)

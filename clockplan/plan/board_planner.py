@@ -352,6 +352,8 @@ class _Planner:
                 self._note(text)
             candidates = search.candidates
         if not candidates:
+            if time.monotonic() > self.deadline:
+                return [self._blocked(pll.id, f"{pll.id}: the search reached its time limit before finding a setting; raise --time-limit")]
             return [self._blocked(pll.id, _cannot_run(pll, hz, problem))]
         plans: list[SubPlan] = []
         # Outputs feeding other PLLs make each candidate costly: fewer candidates then.

@@ -40,7 +40,7 @@ class Conflict:
     ``consumers`` are the consumers involved, ``constraint`` a short code of
     what blocks them (``integer-n``, ``denominator``, ``vco-range``,
     ``output-divider``, ``pfd-range``, ``n-range``, ``pinned``, ``combined``,
-    ``part-cannot-run``, ``unreachable``), ``message`` the explanation in words.
+    ``part-cannot-run``, ``unreachable``, ``time-limit``), ``message`` the explanation in words.
     """
 
     consumers: tuple[str, ...]
@@ -185,6 +185,10 @@ def explain_infeasible(plan: "BoardPlan") -> Explanation:
     board = plan.board
     tolerances = {c.id: c.max_synthesis_error for c in board.consumers}
     explanation = Explanation(nearest_errors=dict(plan.best.errors), tolerances=tolerances)
+    if any("time limit" in note for note in plan.notes):
+        explanation.conflicts.append(
+            Conflict((), "time-limit", "the search stopped at its time limit, so a feasible plan may exist; raise --time-limit")
+        )
     for reason in plan.best.blocked:
         explanation.conflicts.append(Conflict((), "part-cannot-run", reason))
     missing = {cid for cid, err in plan.best.errors.items() if abs(err) > tolerances.get(cid, Fraction(0))}

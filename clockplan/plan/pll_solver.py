@@ -354,8 +354,22 @@ class _Solver:
         else:
             if not self._exact() or len(self.found) < self.limits.keep:
                 self._sweep()
+        if not self.found:
+            self._fallback()
         ranked = self.ranked()
         return PllSearch(ranked, list(dict.fromkeys(self.notes)), self.evaluated)
+
+    def _fallback(self) -> None:
+        """Out of time with nothing found: visit the few most promising points regardless of the clock."""
+        if self.problem.n_pin is not None:
+            return
+        if not self.outputs:
+            grid = self.grids[0]
+            self._consider(grid, Fraction(ceil_fraction(grid.n_lo)))
+            return
+        points = sorted(self._critical_points(), key=lambda item: item[0])[:8]
+        for _, point in points:
+            self._visit_point(point.point if isinstance(point, _Crossing) else point)
 
     def _pinned_n(self) -> None:
         n = self.problem.n_pin

@@ -31,6 +31,16 @@ __all__ = [
 _TRIAL_DIVISION_LIMIT = 10**12
 
 
+def _fold(values: Iterable[Fraction | int], numerators, denominators, what: str) -> Fraction:
+    """Combine reduced fractions: ``numerators`` over the numerators, ``denominators`` over the denominators."""
+    fractions = [Fraction(v) for v in values]
+    if not fractions:
+        raise ValueError(f"{what} of no values")
+    if any(v <= 0 for v in fractions):
+        raise ValueError(f"{what} of rationals needs positive values, got {fractions}")
+    return Fraction(numerators(*(v.numerator for v in fractions)), denominators(*(v.denominator for v in fractions)))
+
+
 def lcm_fractions(values: Iterable[Fraction | int]) -> Fraction:
     """Least common multiple of positive rationals.
 
@@ -44,36 +54,20 @@ def lcm_fractions(values: Iterable[Fraction | int]) -> Fraction:
     >>> lcm_fractions([Fraction(1, 2), Fraction(1, 3)])
     Fraction(1, 1)
     """
-    numerator, denominator = 1, 0
-    for value in values:
-        value = Fraction(value)
-        if value <= 0:
-            raise ValueError(f"lcm of rationals needs positive values, got {value}")
-        numerator = math.lcm(numerator, value.numerator)
-        denominator = math.gcd(denominator, value.denominator)
-    if denominator == 0:
-        raise ValueError("lcm of no values")
-    return Fraction(numerator, denominator)
+    return _fold(values, math.lcm, math.gcd, "lcm")
 
 
 def gcd_fractions(values: Iterable[Fraction | int]) -> Fraction:
     """Greatest common divisor of positive rationals: the largest ``g`` with every value a whole multiple of ``g``.
+
+    ``gcd(a/b, c/d) = gcd(a, c) / lcm(b, d)`` for reduced fractions.
 
     Examples
     --------
     >>> gcd_fractions([Fraction(3, 4), Fraction(1, 2)])
     Fraction(1, 4)
     """
-    numerator, denominator = 0, 1
-    for value in values:
-        value = Fraction(value)
-        if value <= 0:
-            raise ValueError(f"gcd of rationals needs positive values, got {value}")
-        numerator = math.gcd(numerator, value.numerator)
-        denominator = math.lcm(denominator, value.denominator)
-    if numerator == 0:
-        raise ValueError("gcd of no values")
-    return Fraction(numerator, denominator)
+    return _fold(values, math.gcd, math.lcm, "gcd")
 
 
 def divisors(n: int) -> list[int]:
