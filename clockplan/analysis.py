@@ -103,6 +103,16 @@ Stage = Callable[[Analysis, AnalysisOptions], Analysis]
 STAGES: list[Stage] = []
 
 
+def _jitter_stage(analysis: Analysis, options: AnalysisOptions) -> Analysis:
+    # Imported on first use: the jitter model needs numpy.
+    from clockplan.jitter.stage import jitter_stage
+
+    return jitter_stage(analysis, options)
+
+
+STAGES.append(_jitter_stage)
+
+
 def _consumer_results(board: Board, graph: "nx.DiGraph", freqs: Frequencies) -> tuple[ConsumerResult, ...]:
     results = []
     for consumer in board.consumers:
