@@ -15,7 +15,7 @@ from clockplan.ppm.crystal_load import (
     series_load,
     trim_sensitivity,
 )
-from clockplan.ppm.eseries import series_mantissas, series_values
+from clockplan.eseries import exact_values as series_values
 
 pF = Fraction(1, 10**12)
 fF = Fraction(1, 10**15)
@@ -107,35 +107,6 @@ def test_crystal_load_rejects_impossible_values(kwargs, match):
     base = dict(specified_load=12 * pF, motional_c1=5 * fF, shunt_c0=2 * pF, cap_a=18 * pF, cap_b=18 * pF, stray=3 * pF)
     with pytest.raises(BoardError, match=match):
         CrystalLoad(**(base | kwargs))
-
-
-# IEC 60063 preferred numbers, E24 series, as listed in the standard.
-IEC_60063_E24 = "1.0 1.1 1.2 1.3 1.5 1.6 1.8 2.0 2.2 2.4 2.7 3.0 3.3 3.6 3.9 4.3 4.7 5.1 5.6 6.2 6.8 7.5 8.2 9.1"
-# IEC 60063 E96 series as listed in the standard (from memory of the published table).
-IEC_60063_E96 = (
-    "1.00 1.02 1.05 1.07 1.10 1.13 1.15 1.18 1.21 1.24 1.27 1.30 1.33 1.37 1.40 1.43 1.47 1.50 1.54 1.58 "
-    "1.62 1.65 1.69 1.74 1.78 1.82 1.87 1.91 1.96 2.00 2.05 2.10 2.15 2.21 2.26 2.32 2.37 2.43 2.49 2.55 "
-    "2.61 2.67 2.74 2.80 2.87 2.94 3.01 3.09 3.16 3.24 3.32 3.40 3.48 3.57 3.65 3.74 3.83 3.92 4.02 4.12 "
-    "4.22 4.32 4.42 4.53 4.64 4.75 4.87 4.99 5.11 5.23 5.36 5.49 5.62 5.76 5.90 6.04 6.19 6.34 6.49 6.65 "
-    "6.81 6.98 7.15 7.32 7.50 7.68 7.87 8.06 8.25 8.45 8.66 8.87 9.09 9.31 9.53 9.76"
-)
-
-
-def test_e24_and_e96_match_iec_60063():
-    assert series_mantissas("E24") == tuple(Fraction(v) for v in IEC_60063_E24.split())
-    assert series_mantissas("E96") == tuple(Fraction(v) for v in IEC_60063_E96.split())
-
-
-@pytest.mark.parametrize("coarse, fine", [("E6", "E12"), ("E12", "E24"), ("E48", "E96"), ("E96", "E192")])
-def test_each_series_is_every_other_value_of_the_next(coarse, fine):
-    # IEC 60063 structure: each series takes every second value of the next finer one.
-    assert series_mantissas(coarse) == series_mantissas(fine)[::2]
-
-
-def test_series_values_span_decades_and_reject_unknown_series():
-    assert series_values("E6", 10 * pF, 47 * pF) == (10 * pF, 15 * pF, 22 * pF, 33 * pF, 47 * pF)
-    with pytest.raises(ClockplanError, match="unknown E series"):
-        series_mantissas("E7")
 
 
 def test_nearest_capacitors_hit_exact_load_with_zero_residual():

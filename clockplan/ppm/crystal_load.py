@@ -19,7 +19,7 @@ from dataclasses import dataclass
 from fractions import Fraction
 
 from clockplan.errors import BoardError
-from clockplan.ppm.eseries import series_values
+from clockplan.eseries import exact_values as series_values
 
 __all__ = [
     "CrystalLoad",
