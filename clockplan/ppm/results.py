@@ -261,7 +261,7 @@ class ConsumerAccuracy:
         worst = format_error(r.worst_case)
         cells = {
             "ppm worst": ("typ. " if self.basis == BASIS_TYPICAL else "") + worst,
-            "worst at": _temperature_text(r.worst_temperature_c),
+            "at": _temperature_text(r.worst_temperature_c),
             "ppm budget": _limits_text(self.budget.tolerance) if self.budget else "none",
             "ppm margin": format_error(r.margin) if self.judged else "-",
         }
