@@ -20,38 +20,21 @@ from clockplan.errors import BoardError
 from clockplan.ppm.aging import SECONDS_PER_YEAR
 from clockplan.report.progress import DelayedProgress
 
+from .boards import MINIMAL
+
 PPM = Fraction(1, 10**6)
 
-# Invented for these tests: two references, each with its own chain.
-TWO_CHAINS = '''
-[board]
-name = "ppm test board"
-temperature = ["-40 C", "85 C"]
-
-[[reference]]
-id = "ref_a"
-frequency = "25 MHz"
-kind = "xo"
-tolerance = "±20 ppm"
-
+# Invented for these tests: the shared minimal board with figures on its reference "ref", plus a
+# second reference with its own chain, and two consumers with budgets.
+TWO_CHAINS = MINIMAL.replace('name = "test board"', 'name = "test board"\ntemperature = ["-40 C", "85 C"]').replace(
+    'frequency = "25 MHz"\n', 'frequency = "25 MHz"\nkind = "xo"\ntolerance = "±20 ppm"\n', 1
+) + '''
 [[reference]]
 id = "ref_b"
 frequency = "10 MHz"
 kind = "tcxo"
 tolerance = "±1 ppm"
 stability = "±0.5 ppm"
-
-[[pll]]
-id = "pll_a"
-input = "ref_a"
-vco = ["2.4 GHz", "3.2 GHz"]
-pfd = ["1 MHz", "100 MHz"]
-r = [1, 255]
-n = [16, 4095]
-mode = "fractional"
-denominator = "2^24"
-outputs.out0 = { divider = [1, 256] }
-settings = { r = 1, n = "100", outputs = { out0 = 20 } }
 
 [[divider]]
 id = "div_b"
@@ -106,7 +89,7 @@ def test_reference_error_passes_through_the_pll_and_adds_the_exact_synthesis_err
 def test_consumers_on_different_references_get_their_own_chains():
     analysis = _analyze(TWO_CHAINS)
     far = analysis.consumer("far").accuracy
-    assert far.reference == "ref_b" and analysis.consumer("near").accuracy.reference == "ref_a"
+    assert far.reference == "ref_b" and analysis.consumer("near").accuracy.reference == "ref"
     # ref_b: ±1 ppm at 25 °C plus a ±0.5 ppm band add linearly (datasheet "overall" convention), /4 adds 0.
     assert (far.result.carrier_min, far.result.carrier_max) == (Fraction(-3, 2) * PPM, Fraction(3, 2) * PPM)
     # Statistical total: centres add, half-widths as root-sum-square: sqrt(1^2 + 0.5^2) ppm.
@@ -121,7 +104,7 @@ def test_an_ideal_exact_chain_reports_exactly_zero(capsys, tmp_path):
     assert accuracy.result.rss == 0 and isinstance(accuracy.result.rss, Fraction)
     board = tmp_path / "ideal.toml"
     board.write_text(text, encoding="utf-8")
-    consumer = _json(capsys, str(board))["consumers"][0]
+    consumer = next(c for c in _json(capsys, str(board))["consumers"] if c["id"] == "near")
     for key in ("ppm_worst_case", "ppm_min", "ppm_max", "ppm_rss"):
         assert consumer[key] == 0 and isinstance(consumer[key], int), key
     assert consumer["ppm_budget"] == 300 and consumer["ppm_margin"] == 300
@@ -228,14 +211,14 @@ def test_reference_without_data_uses_typical_figures_marked_as_assumed():
     # Typical XO grade (common practice, clockplan/data/oscillator_grades.toml): ±20 ppm and ±25 ppm, no lifetime.
     assert near.result.carrier_max == (1 + 45 * PPM) * (1 + Fraction(1, 9999)) - 1
     note = next(f for f in analysis.findings if f.code == "ppm-assumed")
-    assert note.node == "ref_a" and "not datasheet data" in note.message
+    assert note.node == "ref" and "not datasheet data" in note.message
 
 
 def test_kind_without_a_grade_is_not_checked():
     text = TWO_CHAINS.replace('kind = "xo"\ntolerance = "±20 ppm"', 'kind = "vcxo"')
     analysis = _analyze(text)
     assert analysis.consumer("near").accuracy is None
-    assert any(f.code == "ppm-no-data" and f.node == "ref_a" for f in analysis.findings)
+    assert any(f.code == "ppm-no-data" and f.node == "ref" for f in analysis.findings)
 
 
 def test_temperature_table_must_cover_the_board_range():
@@ -374,3 +357,16 @@ def test_lifetime_sets_the_aging_term():
     aging = dict(near.contributions())["reference aging over 10 years"]
     assert aging == 12 * PPM  # 3 ppm in the first year, then 1 ppm for each of nine more
     assert near.lifetime_s == 10 * SECONDS_PER_YEAR
+
+
+@pytest.mark.parametrize(
+    "name", ["clockplan.ppm.board", "clockplan.ppm.display", "clockplan.ppm.results", "clockplan.report.progress"]
+)
+def test_docstring_examples_run(name):
+    import doctest
+    import importlib
+
+    module = importlib.import_module(name)
+    failed, attempted = doctest.testmod(module)
+    assert failed == 0 and attempted > 0
+    assert all(hasattr(module, attr) for attr in module.__all__)

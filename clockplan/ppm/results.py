@@ -16,6 +16,7 @@ from typing import TYPE_CHECKING, Any
 
 from clockplan.ppm.accuracy import AccuracyResult, ConsumerBudget, Contribution
 from clockplan.ppm.aging import SECONDS_PER_YEAR
+from clockplan.ppm.display import format_error, format_limits
 from clockplan.ppm.grades import Grade, GradeAdvice
 from clockplan.ppm.oscillator import OscillatorPower
 from clockplan.ppm.spread import SpreadSpectrum
@@ -27,7 +28,6 @@ __all__ = [
     "BASIS_BOARD",
     "BASIS_TYPICAL",
     "BASIS_NONE",
-    "format_error",
     "ppm_number",
     "ConsumerAccuracy",
     "ReferenceAdvice",
@@ -68,28 +68,6 @@ def ppm_number(value: Number | None) -> int | float | None:
         ppm = value * _PPM
         return ppm.numerator if ppm.denominator == 1 else float(ppm)
     return round(float(value) * _PPM, 6) + 0.0
-
-
-def format_error(value: Number) -> str:
-    """A signed fractional error in ppm, or in % from 0.1 % up, the way datasheets write them.
-
-    Examples
-    --------
-    >>> format_error(Fraction(-1, 50000)), format_error(Fraction(-19, 1000)), format_error(Fraction(0))
-    ('-20 ppm', '-1.9 %', '0 ppm')
-    """
-    from clockplan.units import format_ppm
-
-    if abs(value) >= Fraction(1, 1000):
-        return f"{float(value) * 100:+.3g} %"
-    return format_ppm(value)
-
-
-def _limits_text(limits: tuple[Number, Number]) -> str:
-    low, high = limits
-    if low == -high:
-        return "±" + format_error(high).lstrip("+")
-    return f"{format_error(low)}..{format_error(high)}"
 
 
 def _temperature_text(celsius: float | None) -> str:
@@ -262,7 +240,7 @@ class ConsumerAccuracy:
         cells = {
             "ppm worst": ("typ. " if self.basis == BASIS_TYPICAL else "") + worst,
             "at": _temperature_text(r.worst_temperature_c),
-            "ppm budget": _limits_text(self.budget.tolerance) if self.budget else "none",
+            "ppm budget": format_limits(self.budget.tolerance) if self.budget else "none",
             "ppm margin": format_error(r.margin) if self.judged else "-",
         }
         if self.yield_fraction is not None:

@@ -21,6 +21,7 @@ from collections.abc import Sequence
 from fractions import Fraction
 from typing import TYPE_CHECKING
 
+from clockplan.errors import BoardError
 from clockplan.findings import Finding, Severity
 from clockplan.ppm.accuracy import AccuracyResult, ConsumerBudget, consumer_accuracy
 from clockplan.ppm.board import (
@@ -31,19 +32,18 @@ from clockplan.ppm.board import (
     consumer_links,
     reference_models,
 )
+from clockplan.ppm.display import format_error, format_limits
 from clockplan.ppm.grades import DEFAULT_MARGIN, Grade, advise_grade, load_grades
 from clockplan.ppm.montecarlo import ConsumerChain, monte_carlo_yield
 from clockplan.ppm.oscillator import OscillatorSpec
-from clockplan.ppm.temperature import StabilityBand
 from clockplan.ppm.results import (
     BASIS_TYPICAL,
     ConsumerAccuracy,
     MonteCarloSummary,
     ReferenceAdvice,
     ReferenceAdvices,
-    format_error,
 )
-from clockplan.errors import BoardError
+from clockplan.ppm.temperature import StabilityBand
 
 if TYPE_CHECKING:
     from clockplan.analysis import Analysis, AnalysisOptions
@@ -56,11 +56,6 @@ STAGE_NAME = "accuracy"
 _NO_BUDGET = ConsumerBudget((Fraction(-1), Fraction(1)))
 _ROOM_C = 25.0
 _MARGIN_TEXT = f"{float(DEFAULT_MARGIN) * 100:g} %"
-
-
-def _limits(budget: ConsumerBudget) -> str:
-    low, high = budget.tolerance
-    return "±" + format_error(high).lstrip("+") if low == -high else f"{format_error(low)}..{format_error(high)}"
 
 
 def _at(celsius: float | None) -> str:
@@ -219,7 +214,7 @@ def _consumer_findings(link: ConsumerLink, accuracy: ConsumerAccuracy, advice: R
     if not accuracy.judged:
         message = f"no frequency-error budget (no standard, ppm or derived budget): {worst}, shown but not judged"
         return [Finding(Severity.INFO, "ppm-no-budget", link.id, message)]
-    budget = f"the {_limits(link.budget)} budget ({link.budget_source})"
+    budget = f"the {format_limits(link.budget.tolerance)} budget ({link.budget_source})"
     spread = f" (the spread counts as error: {r.spread_note})" if r.spread_ok is False else ""
     if not r.passes and not r.rss_passes:
         message = (
