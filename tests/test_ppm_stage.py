@@ -231,6 +231,14 @@ def test_temperature_table_must_cover_the_board_range():
     assert caught.value.line == text.splitlines().index('[[reference]]') + 6
 
 
+def test_a_budget_that_excludes_nominal_is_a_located_error(tmp_path, capsys):
+    board = tmp_path / "bad.toml"
+    board.write_text(TWO_CHAINS.replace('ppm = "±2 ppm"', 'ppm = "10..20 ppm"'), encoding="utf-8")
+    assert main(["audit", str(board)]) == 2
+    err = capsys.readouterr().err
+    assert "consumer[3].ppm" in err and "+10 ppm..+20 ppm does not contain 0" in err and "Traceback" not in err
+
+
 @pytest.mark.parametrize(
     ("old", "new", "key"),
     [

@@ -22,6 +22,7 @@ from typing import TYPE_CHECKING
 
 from clockplan.errors import BoardError
 from clockplan.ppm.accuracy import ConsumerBudget
+from clockplan.ppm.display import format_limits
 from clockplan.ppm.grades import Grade
 from clockplan.ppm.montecarlo import ConsumerChain
 from clockplan.ppm.oscillator import OscillatorSpec
@@ -169,7 +170,8 @@ def consumer_links(analysis: "Analysis") -> tuple[ConsumerLink, ...]:
     Raises
     ------
     BoardError
-        A resolved budget the ppm core cannot hold (one that does not contain 0), located at the consumer.
+        A budget that does not contain 0 (a ``ppm`` override such as ``"10..20 ppm"``),
+        located at the consumer's ``ppm`` key.
     """
     board = analysis.board
     links = []
@@ -177,9 +179,15 @@ def consumer_links(analysis: "Analysis") -> tuple[ConsumerLink, ...]:
         consumer = board.part(result.id)
         try:
             budget = consumer_budget(consumer.budget)
-        except BoardError as err:
-            key = f"consumer[{index}]"
-            raise err.located(file=board.source_file, key=key, line=board.lines.get(key)) from None
+        except BoardError:
+            key = f"consumer[{index}].ppm"
+            raise BoardError(
+                f"the budget {format_limits(consumer.budget.ppm)} does not contain 0 (the nominal frequency)",
+                file=board.source_file,
+                key=key,
+                line=board.lines.get(key) or board.lines.get(f"consumer[{index}]"),
+                hint="a budget is an error range around nominal, e.g. '±100 ppm' or '-50..+30 ppm'",
+            ) from None
         spreads = _spreads(analysis, result.chain)
         links.append(
             ConsumerLink(
