@@ -45,6 +45,30 @@ def _add_output_options(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
 
 
+def _count(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if value < 0:
+        raise argparse.ArgumentTypeError(f"{value} is negative")
+    return value
+
+
+def _add_budget_options(parser: argparse.ArgumentParser) -> None:
+    """Options of the budget stages, shared by every command that analyses a board."""
+    parser.add_argument("--samples", type=_count, default=0, metavar="N",
+                        help="simulate N boards for the Monte Carlo frequency-error yield (default 0: none)")
+    parser.add_argument("--seed", type=_count, default=0, metavar="S",
+                        help="seed of the Monte Carlo; the same seed gives the same numbers (default 0)")
+
+
+def _analysis_options(args: argparse.Namespace, progress=None):
+    from clockplan.analysis import AnalysisOptions
+
+    return AnalysisOptions(samples=args.samples, seed=args.seed, progress=progress)
+
+
 def _build_parser() -> argparse.ArgumentParser:
     parser = _Parser(
         prog="clockplan",
@@ -64,6 +88,7 @@ def _build_parser() -> argparse.ArgumentParser:
     )
     audit.add_argument("board", help="board file (TOML)")
     _add_output_options(audit)
+    _add_budget_options(audit)
     audit.set_defaults(run=_run_audit)
 
     standards = commands.add_parser(
@@ -101,8 +126,12 @@ def _emit(args: argparse.Namespace, analysis, command: str) -> int:
 def _run_audit(args: argparse.Namespace) -> int:
     from clockplan.analysis import analyze
     from clockplan.boardfile import load_board
+    from clockplan.report.progress import DelayedProgress
 
-    return _emit(args, analyze(load_board(args.board)), "audit")
+    board = load_board(args.board)
+    with DelayedProgress("Monte Carlo yield") as progress:
+        analysis = analyze(board, options=_analysis_options(args, progress))
+    return _emit(args, analysis, "audit")
 
 
 def _run_standards(args: argparse.Namespace) -> int:
