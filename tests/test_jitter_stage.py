@@ -86,7 +86,7 @@ frequency = "100 MHz"
 """
 
 
-def _board(**changes):
+def _chain_text(**changes) -> str:
     fields = {
         "ref_level": -150,
         "pll_noise": "",
@@ -97,7 +97,11 @@ def _board(**changes):
     }
     fields.update(changes)
     fields["load_frequency"] = f"{100 / fields['ratio']} MHz"
-    return parse_board(CHAIN_BOARD.format(**fields), "test.toml")
+    return CHAIN_BOARD.format(**fields)
+
+
+def _board(**changes):
+    return parse_board(_chain_text(**changes), "test.toml")
 
 
 def _curve_at(jitter: ConsumerJitter, offset_hz: float) -> float:
@@ -223,10 +227,7 @@ def test_broken_budget_is_an_error_naming_the_dominant_contributor():
 
 
 def test_cascade_multiplies_through_both_plls():
-    text = CHAIN_BOARD.format(
-        ref_level=-150, pll_noise='noise = { fom = "-230 dBc/Hz" }', ratio=4, divider_noise="", buffer_noise="",
-        budget="10 ps", load_frequency="25 MHz",
-    ) + """
+    text = _chain_text(pll_noise='noise = { fom = "-230 dBc/Hz" }') + """
 [[pll]]
 id = "pll_b"
 input = "pll_a.out"
@@ -355,10 +356,7 @@ def test_missing_reference_noise_is_an_info_finding_for_budgeted_consumers():
 
 
 def test_pll_without_a_loop_stops_the_chain():
-    text = CHAIN_BOARD.format(
-        ref_level=-150, pll_noise="", ratio=4, divider_noise="", buffer_noise="", budget="1 ps",
-        load_frequency="25 MHz",
-    ).replace('loop = { bandwidth = "100 kHz", damping = 0.707 }\n', "")
+    text = _chain_text(budget="1 ps").replace('loop = { bandwidth = "100 kHz", damping = 0.707 }\n', "")
     analysis = analyze(parse_board(text))
     assert analysis.consumer("load").jitter is None
     notes = [f for f in analysis.findings if f.code == "jitter-data"]
@@ -451,10 +449,7 @@ def test_loop_filter_noise_matches_an_independent_integration():
     ],
 )
 def test_bad_noise_keys_are_located(change, key, words):
-    text = CHAIN_BOARD.format(
-        ref_level=-150, pll_noise="", ratio=4, divider_noise="", buffer_noise="", budget="1 ps",
-        load_frequency="25 MHz",
-    )
+    text = _chain_text()
     assert change[0] in text
     with pytest.raises(BoardError) as caught:
         parse_board(text.replace(change[0], change[1], 1), "bad.toml")

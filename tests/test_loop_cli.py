@@ -68,30 +68,30 @@ def test_loop_refuses_with_a_clear_message(capsys, pll, words):
     assert words in err and err.startswith("clockplan: error:") and "Traceback" not in err
 
 
-def test_loop_needs_settings_first(capsys, tmp_path):
+def _variant(tmp_path: Path, old: str, new: str) -> str:
+    """A copy of the receiver board with ``old`` replaced by ``new`` (once); its path."""
     text = Path(RECEIVER).read_text()
+    assert old in text
+    board = tmp_path / "variant.toml"
+    board.write_text(text.replace(old, new, 1))
+    return str(board)
+
+
+def test_loop_needs_settings_first(capsys, tmp_path):
     settings = 'settings = { r = 1, n = "29.4912", outputs = { adc = 12, dac = 6, fpga = 24 } }\n'
-    assert settings in text
-    board = tmp_path / "unplanned.toml"
-    board.write_text(text.replace(settings, ""))
-    status, _, err = _run(capsys, "loop", str(board), "conv_synth")
+    status, _, err = _run(capsys, "loop", _variant(tmp_path, settings, ""), "conv_synth")
     assert status == 2 and "has no settings yet" in err and "clockplan plan" in err
 
 
 def test_loop_analyses_an_existing_filter(capsys, tmp_path):
-    text = Path(RECEIVER).read_text()
-    designed = 'bandwidth = "50 kHz"\nphase_margin = 55\n'
-    assert designed in text
-    board = tmp_path / "built.toml"
-    board.write_text(text.replace(designed, 'r1 = "100 ohm"\nc1 = "100 nF"\nc2 = "5.6 nF"\nr3 = "750 ohm"\nc3 = "680 pF"\n'))
-    status, out, _ = _run(capsys, "loop", str(board), "conv_synth", "--no-color", "--width", "140")
+    parts = 'r1 = "100 ohm"\nc1 = "100 nF"\nc2 = "5.6 nF"\nr3 = "750 ohm"\nc3 = "680 pF"\n'
+    board = _variant(tmp_path, 'bandwidth = "50 kHz"\nphase_margin = 55\n', parts)
+    status, out, _ = _run(capsys, "loop", board, "conv_synth", "--no-color", "--width", "140")
     assert status == 0 and "given parts" in out
 
 
 def test_loop_refuses_loop_and_filter_together(capsys, tmp_path):
-    text = Path(RECEIVER).read_text()
-    board = tmp_path / "both.toml"
     loop = 'loop = { bandwidth = "50 kHz", damping = 0.7 }\n'
-    board.write_text(text.replace('noise = { fom = "-227', loop + 'noise = { fom = "-227', 1))
-    status, _, err = _run(capsys, "loop", str(board), "conv_synth")
+    board = _variant(tmp_path, 'noise = { fom = "-227', loop + 'noise = { fom = "-227')
+    status, _, err = _run(capsys, "loop", board, "conv_synth")
     assert status == 2 and "loop_filter" in err and "not both" in err
