@@ -122,8 +122,13 @@ class BoardNoise:
 
     Examples
     --------
-    ``BoardNoise(board, graph, freqs, log_grid()).at("adc_clk")`` gives the
-    ADC clock's :class:`NodeNoise`, or :class:`MissingNoiseData`.
+    >>> from clockplan.analysis import analyze
+    >>> from clockplan.boardfile import load_board
+    >>> from clockplan.jitter.chain import log_grid
+    >>> analysis = analyze(load_board("boards/sampling-receiver.toml"))
+    >>> noise = BoardNoise(analysis.board, analysis.graph, analysis.frequencies, log_grid())
+    >>> noise.at("link_ref").kinds["link_fanout buffer"]
+    ('buffer', 'link_fanout')
     """
 
     board: Board
