@@ -45,6 +45,30 @@ def _add_output_options(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
 
 
+def _count(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if value < 0:
+        raise argparse.ArgumentTypeError(f"{value} is negative")
+    return value
+
+
+def _add_budget_options(parser: argparse.ArgumentParser) -> None:
+    """Options of the budget stages, shared by every command that analyses a board."""
+    parser.add_argument("--samples", type=_count, default=0, metavar="N",
+                        help="simulate N boards for the Monte Carlo frequency-error yield (default 0: none)")
+    parser.add_argument("--seed", type=_count, default=0, metavar="S",
+                        help="seed of the Monte Carlo; the same seed gives the same numbers (default 0)")
+
+
+def _analysis_options(args: argparse.Namespace, progress=None):
+    from clockplan.analysis import AnalysisOptions
+
+    return AnalysisOptions(samples=args.samples, seed=args.seed, progress=progress)
+
+
 def _build_parser() -> argparse.ArgumentParser:
     parser = _Parser(
         prog="clockplan",
@@ -64,6 +88,7 @@ def _build_parser() -> argparse.ArgumentParser:
     )
     audit.add_argument("board", help="board file (TOML)")
     _add_output_options(audit)
+    _add_budget_options(audit)
     audit.set_defaults(run=_run_audit)
 
     plan = commands.add_parser(
@@ -101,6 +126,7 @@ def _build_parser() -> argparse.ArgumentParser:
     standards.add_argument("--width", type=int, default=None, help="terminal width for the tables")
     standards.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
     standards.set_defaults(run=_run_standards)
+    _add_loop_command(commands)
     return parser
 
 
@@ -144,8 +170,12 @@ def _emit(args: argparse.Namespace, analysis, command: str) -> int:
 def _run_audit(args: argparse.Namespace) -> int:
     from clockplan.analysis import analyze
     from clockplan.boardfile import load_board
+    from clockplan.report.progress import DelayedProgress
 
-    return _emit(args, analyze(load_board(args.board)), "audit")
+    board = load_board(args.board)
+    with DelayedProgress("Monte Carlo yield") as progress:
+        analysis = analyze(board, options=_analysis_options(args, progress))
+    return _emit(args, analysis, "audit")
 
 
 def _run_plan(args: argparse.Namespace) -> int:
@@ -194,6 +224,45 @@ def _run_standards(args: argparse.Namespace) -> int:
     from clockplan.standards.render import standards_view
 
     _console(args).print(standards_view(args.key))
+    return EXIT_OK
+
+
+# --------------------------------------------------------------------------- loop filters
+
+
+def _add_loop_command(commands) -> None:
+    loop = commands.add_parser(
+        "loop",
+        help="design or check a PLL's loop filter: parts, margins, closed-loop response",
+        description="Design the passive loop filter of PLL from its [pll.loop_filter] table (or analyse the "
+        "parts it gives) at the N and PFD frequency of the board's settings; print the parts, the margins, "
+        "the closed-loop response and the jitter of the clocks the PLL feeds (docs/loop-filter.md).",
+        epilog=_EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    loop.add_argument("board", help="board file (TOML)")
+    loop.add_argument("pll", help="the PLL's id")
+    loop.add_argument("--json", action="store_true", help="write the filter as a JSON document to stdout")
+    loop.add_argument("--width", type=int, default=None, help="terminal width for the tables")
+    loop.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
+    loop.set_defaults(run=_run_loop)
+
+
+def _run_loop(args: argparse.Namespace) -> int:
+    from clockplan.analysis import analyze
+    from clockplan.boardfile import load_board
+    from clockplan.loopfilter.onboard import board_loop_filter, loop_document, loop_view
+
+    analysis = analyze(load_board(args.board))
+    result = board_loop_filter(analysis, args.pll)
+    if args.json:
+        from clockplan.report.json import dumps
+
+        sys.stdout.write(dumps(loop_document(analysis, args.pll, result)))
+    else:
+        console = _console(args)
+        console.print(f"[bold]clockplan loop[/]: {args.pll} on {analysis.board.name} ({args.board})")
+        console.print(loop_view(analysis, args.pll, result))
     return EXIT_OK
 
 

@@ -172,6 +172,9 @@ def render_analysis(analysis: Analysis, console: "Console", title: str = "audit"
     console.print(f"verdict: {verdict} - {errors} error(s), {warnings} warning(s), {len(analysis.consumers)} consumer(s)")
     console.print(tree_view(analysis))
     console.print(consumer_table(analysis))
+    for extra in analysis.extras.values():
+        if hasattr(extra, "rich_renderable"):
+            console.print(extra.rich_renderable())
     for renderable in (pll_table(analysis), findings_table(analysis)):
         if renderable is not None:
             console.print(renderable)
