@@ -103,7 +103,7 @@ def _build_parser() -> argparse.ArgumentParser:
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     plan.add_argument("board", help="board file (TOML)")
-    plan.add_argument("--alternatives", type=_count, default=0, metavar="K", help="also show K distinct runner-up plans")
+    plan.add_argument("--alternatives", type=_alternatives, default=0, metavar="K", help="also show K distinct runner-up plans")
     plan.add_argument("--write", metavar="OUT", help="write the board with its settings filled in to OUT (never over the input without --in-place)")
     plan.add_argument("--in-place", action="store_true", help="write the filled-in settings back into the input file")
     plan.add_argument("--time-limit", type=_seconds, default=10.0, metavar="S", help="search time budget in seconds (default 10)")
@@ -114,6 +114,7 @@ def _build_parser() -> argparse.ArgumentParser:
         help="loop bandwidth for the in-band spur flag of PLLs that do not state one (default 200 kHz)",
     )
     _add_output_options(plan)
+    _add_budget_options(plan)
     plan.set_defaults(run=_run_plan)
 
     standards = commands.add_parser(
@@ -145,7 +146,7 @@ def _bounded(parse, lo: float, hi: float, what: str, lo_open: bool = False):
     return convert
 
 
-_count = _bounded(int, 0, 100, "a whole number")
+_alternatives = _bounded(int, 0, 100, "a whole number")
 _seconds = _bounded(float, 0, 3600, "a number of seconds", lo_open=True)
 
 
@@ -192,7 +193,7 @@ def _run_plan(args: argparse.Namespace) -> int:
     if args.loop_bandwidth is not None:
         options = PlanOptions(args.alternatives, args.time_limit, parse_frequency(args.loop_bandwidth))
     plan = plan_board(board, options)
-    analysis = analyze(board, plan.settings)
+    analysis = analyze(board, plan.settings, _analysis_options(args))
     analysis = analysis.with_findings(plan_findings(plan, analysis))
     explanation = None
     if not plan.feasible:
