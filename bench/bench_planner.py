@@ -5,7 +5,7 @@ Run from the repository root::
     python bench/bench_planner.py            # full run
     python bench/bench_planner.py --quick    # smaller synthetic boards only
 
-Part 1 solves one 4-output fractional-N PLL (R up to 1023, N up to 4095,
+Part 1 solves one 4-output fractional-N loop (input divider up to 1023, N up to 4095,
 output dividers up to 256) with the planner and with an exhaustive search,
 in the same run, and prints both worst errors and the speed ratio (planner:
 best of five runs; exhaustive: one run).
@@ -58,17 +58,17 @@ def bench_pll(targets: list[Fraction]) -> Pll:
         input="ref",
         vco=FrequencyRange(Fraction(3_000_000_000), Fraction(6_000_000_000)),
         pfd=FrequencyRange(Fraction(50_000), Fraction(100_000_000)),
-        r=IntChoices(1, 1023),
-        n_min=Fraction(16),
-        n_max=Fraction(4095),
+        ref_divider=IntChoices(1, 1023),
+        feedback_min=Fraction(16),
+        feedback_max=Fraction(4095),
         mode="fractional",
         outputs=tuple(PllOutput(f"o{i}", IntChoices(1, 256)) for i in range(len(targets))),
         denominator=Denominator(fixed=MODULUS),
     )
 
 
-def _exact_worst(pll: Pll, r: int, k: int, targets: list[Fraction]) -> Fraction:
-    vco = F_IN / r * Fraction(k, MODULUS)
+def _exact_worst(ref_div: int, k: int, targets: list[Fraction]) -> Fraction:
+    vco = F_IN / ref_div * Fraction(k, MODULUS)
     worst = Fraction(0)
     for target in targets:
         x = vco / target
@@ -108,12 +108,12 @@ def exhaustive(pll: Pll, targets: list[Fraction]) -> tuple[Fraction, int]:
         best = min(best, low)
         for index in np.nonzero(worst <= best + 1e-12)[0]:
             near.append((r, int(k[index])))
-    exact = min(_exact_worst(pll, r, k, targets) for r, k in near)
+    exact = min(_exact_worst(ref_div, k, targets) for ref_div, k in near)
     return exact, visited
 
 
 def part_one() -> None:
-    print("Part 1: one 4-output fractional-N PLL (R 1..1023, N 16..4095, dividers 1..256, N = k/1000)")
+    print("Part 1: one 4-output fractional-N loop (input divider 1..1023, N 16..4095, dividers 1..256, N = k/1000)")
     cases = {
         "exact reachable (156.25, 125, 100, 250 MHz)": [Fraction(156_250_000), Fraction(125_000_000), Fraction(100_000_000), Fraction(250_000_000)],
         "no exact plan (156.25, 122.88, 148.5/1.001, 33.333 MHz)": [
@@ -166,10 +166,10 @@ def synthetic_board(consumers: int, seed: int = 1) -> str:
     plls = (consumers + 4) // 5
     for p in range(plls):
         family, mode = _PATTERN[p % len(_PATTERN)]
-        source = f"pll{p - 1}.spare" if p % 4 == 3 else "ref"
+        source = f"synth{p - 1}.spare" if p % 4 == 3 else "ref"
         rule = 'mode = "fractional"\nmax_denominator = 16777215\n' if mode == "fractional" else 'mode = "integer"\n'
         lines.append(
-            f'[[pll]]\nid = "pll{p}"\ninput = "{source}"\nvco = ["2.4 GHz", "3.2 GHz"]\npfd = ["1 MHz", "100 MHz"]\n'
+            f'[[pll]]\nid = "synth{p}"\ninput = "{source}"\nvco = ["2.4 GHz", "3.2 GHz"]\npfd = ["1 MHz", "100 MHz"]\n'
             f'r = [1, 255]\nn = [8, 4095]\n{rule}'
         )
         for o in range(5):
@@ -180,7 +180,7 @@ def synthetic_board(consumers: int, seed: int = 1) -> str:
                 break
             freq = rng.choice(FAMILIES[family])
             tolerance = '\nmax_synthesis_error = "±100 ppm"' if family == "mixed" else ""
-            lines.append(f'[[consumer]]\nid = "c{p}_{o}"\nsource = "pll{p}.o{o}"\nfrequency = "{freq}"{tolerance}\n')
+            lines.append(f'[[consumer]]\nid = "c{p}_{o}"\nsource = "synth{p}.o{o}"\nfrequency = "{freq}"{tolerance}\n')
     return "\n".join(lines)
 
 

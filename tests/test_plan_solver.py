@@ -23,7 +23,7 @@ from clockplan.plan.pll_solver import OutputSpec, PllProblem, SearchLimits, Targ
 
 
 def _n_grid(pll: Pll) -> list[Fraction]:
-    lo, hi = pll.n_min, pll.n_max
+    lo, hi = pll.feedback_min, pll.feedback_max
     values = set()
     if pll.mode == "integer":
         values = {Fraction(n) for n in range(int(lo), int(hi) + 1)}
@@ -51,7 +51,7 @@ def exhaustive_best(pll: Pll, f_in: Fraction, outputs: list[OutputSpec]) -> tupl
     """(feasible, worst error) of the best plan by brute force, None if the part cannot run at all."""
     best = None
     divider_sets = [_products(o.chain) for o in outputs]
-    for r in pll.r:
+    for r in pll.ref_divider:
         pfd = f_in / r
         if pfd not in pll.pfd:
             continue
@@ -128,9 +128,9 @@ def cases(draw):
         input="ref",
         vco=FrequencyRange(vco_lo, vco_hi),
         pfd=FrequencyRange(F_IN / r_max, F_IN),
-        r=IntChoices(1, r_max + draw(st.integers(0, 2))),
-        n_min=Fraction(n_lo),
-        n_max=Fraction(n_hi),
+        ref_divider=IntChoices(1, r_max + draw(st.integers(0, 2))),
+        feedback_min=Fraction(n_lo),
+        feedback_max=Fraction(n_hi),
         mode="integer" if mode == "integer" else "fractional",
         outputs=tuple(PllOutput(o.name, o.chain[0]) for o in outputs),
         denominator=denominator,
@@ -139,7 +139,7 @@ def cases(draw):
 
 
 def _check_constraints(pll: Pll, outputs: list[OutputSpec], candidate) -> None:
-    assert candidate.r in pll.r
+    assert candidate.r in pll.ref_divider
     assert candidate.pfd_hz == F_IN / candidate.r and candidate.pfd_hz in pll.pfd
     assert pll.allows_n(candidate.n)
     assert candidate.vco_hz == candidate.pfd_hz * candidate.n and candidate.vco_hz in pll.vco

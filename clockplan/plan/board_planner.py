@@ -151,8 +151,8 @@ def check_pins(board: Board) -> None:
     """
     for index, pll in enumerate(board.plls):
         pin = board.pins.get(pll.id, {})
-        if "r" in pin and pin["r"] not in pll.r:
-            _pin_error(board, f"pll[{index}].settings", f"pinned R = {pin['r']} of {pll.id} is not allowed (R: {pll.r.describe()})")
+        if "r" in pin and pin["r"] not in pll.ref_divider:
+            _pin_error(board, f"pll[{index}].settings", f"pinned R = {pin['r']} of {pll.id} is not allowed (R: {pll.ref_divider.describe()})")
         if "n" in pin and not pll.allows_n(pin["n"]):
             _pin_error(board, f"pll[{index}].settings", f"pinned N = {pin['n']} of {pll.id} is outside its N range or mode")
         for name, d in pin.get("dividers", {}).items():
@@ -304,8 +304,8 @@ class _Planner:
 
     def _ratios_feeding(self, choices: IntChoices, hz: Fraction, pll: Pll, factor: int) -> list[int]:
         """Ratios that put ``pll``'s input where its PFD (and input range) can take it."""
-        lo_in = pll.pfd.lo * pll.r.lo
-        hi_in = pll.pfd.hi * pll.r.hi
+        lo_in = pll.pfd.lo * pll.ref_divider.lo
+        hi_in = pll.pfd.hi * pll.ref_divider.hi
         if pll.input_range is not None:
             lo_in, hi_in = max(lo_in, pll.input_range.lo), min(hi_in, pll.input_range.hi)
         if lo_in > hi_in:
@@ -435,12 +435,12 @@ class _Planner:
             vco = m * step
             if not all((vco / hz).denominator == 1 and int(vco / hz) in choices for hz, choices in targets):
                 continue
-            n_first = max(ceil_fraction(vco / pll.pfd.hi), ceil_fraction(pll.n_min))
-            for n in range(n_first, min(n_first + 4, floor_fraction(pll.n_max) + 1)):
+            n_first = max(ceil_fraction(vco / pll.pfd.hi), ceil_fraction(pll.feedback_min))
+            for n in range(n_first, min(n_first + 4, floor_fraction(pll.feedback_max) + 1)):
                 pfd = vco / n
                 if pfd not in pll.pfd:
                     continue
-                for r in list(ladder_of(pll.r, pll.r.lo, pll.r.lo + 8).between(pll.r.lo, pll.r.lo + 8))[:4]:
+                for r in list(ladder_of(pll.ref_divider, pll.ref_divider.lo, pll.ref_divider.lo + 8).between(pll.ref_divider.lo, pll.ref_divider.lo + 8))[:4]:
                     wishes.append((-pfd, pfd * r * factor))
         ordered = [hz for _, hz in sorted(set(wishes))]
         return list(dict.fromkeys(ordered))[:16]
@@ -558,11 +558,11 @@ def _settled(plans: list[SubPlan], keep: int) -> bool:
 def _cannot_run(pll: Pll, hz: Fraction, problem: PllProblem) -> str:
     pfd_r_lo = ceil_fraction(hz / pll.pfd.hi)
     pfd_r_hi = floor_fraction(hz / pll.pfd.lo)
-    if not ladder_of(pll.r, max(1, pfd_r_lo), pfd_r_hi).between(max(1, pfd_r_lo), pfd_r_hi):
-        return f"{pll.id}: no allowed R ({pll.r.describe()}) puts {format_frequency(hz)} / R inside the PFD range {format_frequency(pll.pfd.lo)} to {format_frequency(pll.pfd.hi)}"
+    if not ladder_of(pll.ref_divider, max(1, pfd_r_lo), pfd_r_hi).between(max(1, pfd_r_lo), pfd_r_hi):
+        return f"{pll.id}: no allowed R ({pll.ref_divider.describe()}) puts {format_frequency(hz)} / R inside the PFD range {format_frequency(pll.pfd.lo)} to {format_frequency(pll.pfd.hi)}"
     if problem.n_pin is not None:
         return f"{pll.id}: the pinned N = {problem.n_pin} puts the VCO outside {format_frequency(pll.vco.lo)} to {format_frequency(pll.vco.hi)} for every allowed R"
-    return f"{pll.id}: no N in {pll.n_min}..{pll.n_max} reaches the VCO range {format_frequency(pll.vco.lo)} to {format_frequency(pll.vco.hi)} from {format_frequency(hz)}"
+    return f"{pll.id}: no N in {pll.feedback_min}..{pll.feedback_max} reaches the VCO range {format_frequency(pll.vco.lo)} to {format_frequency(pll.vco.hi)} from {format_frequency(hz)}"
 
 
 # --------------------------------------------------------------------------- ranking

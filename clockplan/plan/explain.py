@@ -95,10 +95,10 @@ def _relaxations(pll: Pll, problem: PllProblem) -> list[tuple[str, str, PllProbl
     wide_outputs = tuple(replace(o, chain=(_WIDE_DIVIDER,) + o.chain[1:]) for o in problem.outputs)
     text = f"the output divider set of {pll.id} lacks the ratio it needs"
     relaxed.append(("output-divider", text, replace(problem, outputs=wide_outputs)))
-    text = f"the PFD range ({format_frequency(pll.pfd.lo)} to {format_frequency(pll.pfd.hi)}) or R set ({pll.r.describe()}) of {pll.id} blocks it"
-    relaxed.append(("pfd-range", text, replace(problem, pll=replace(pll, pfd=FrequencyRange(Fraction(1), pll.pfd.hi * 4), r=IntChoices(1, 1 << 16)))))
-    text = f"the N range ({format_exact(pll.n_min)}..{format_exact(pll.n_max)}) of {pll.id} blocks it"
-    relaxed.append(("n-range", text, replace(problem, pll=replace(pll, n_min=Fraction(1), n_max=Fraction(1 << 20)))))
+    text = f"the PFD range ({format_frequency(pll.pfd.lo)} to {format_frequency(pll.pfd.hi)}) or R set ({pll.ref_divider.describe()}) of {pll.id} blocks it"
+    relaxed.append(("pfd-range", text, replace(problem, pll=replace(pll, pfd=FrequencyRange(Fraction(1), pll.pfd.hi * 4), ref_divider=IntChoices(1, 1 << 16)))))
+    text = f"the N range ({format_exact(pll.feedback_min)}..{format_exact(pll.feedback_max)}) of {pll.id} blocks it"
+    relaxed.append(("n-range", text, replace(problem, pll=replace(pll, feedback_min=Fraction(1), feedback_max=Fraction(1 << 20)))))
     return relaxed
 
 

@@ -1,4 +1,4 @@
-"""Settings for one PLL: R, N and output dividers that best meet its targets.
+"""Settings for one loop: input divider, feedback ratio and output dividers that best meet its targets.
 
 The problem: an exact input frequency, a part's constraints (R set, PFD and
 VCO ranges, N range and mode, denominator rule, output divider sets), the
@@ -220,18 +220,18 @@ def _r_grids(problem: PllProblem) -> list[_RGrid]:
     pll, f_in = problem.pll, problem.input_hz
     # R must put the PFD in range and let some N in range reach the VCO range:
     # f_in * n_min / R <= vco_hi and f_in * n_max / R >= vco_lo.
-    lo = max(ceil_fraction(f_in / pll.pfd.hi), ceil_fraction(f_in * pll.n_min / pll.vco.hi))
-    hi = min(floor_fraction(f_in / pll.pfd.lo), floor_fraction(f_in * pll.n_max / pll.vco.lo))
+    lo = max(ceil_fraction(f_in / pll.pfd.hi), ceil_fraction(f_in * pll.feedback_min / pll.vco.hi))
+    hi = min(floor_fraction(f_in / pll.pfd.lo), floor_fraction(f_in * pll.feedback_max / pll.vco.lo))
     values: Iterable[int]
     if problem.r_pin is not None:
-        values = [problem.r_pin] if problem.r_pin in pll.r and lo <= problem.r_pin <= hi else []
+        values = [problem.r_pin] if problem.r_pin in pll.ref_divider and lo <= problem.r_pin <= hi else []
     else:
-        values = ladder_of(pll.r, max(lo, 1), hi).between(max(lo, 1), hi)
+        values = ladder_of(pll.ref_divider, max(lo, 1), hi).between(max(lo, 1), hi)
     grids = []
     for r in values:
         pfd = f_in / r
-        n_lo = max(pll.n_min, pll.vco.lo / pfd)
-        n_hi = min(pll.n_max, pll.vco.hi / pfd)
+        n_lo = max(pll.feedback_min, pll.vco.lo / pfd)
+        n_hi = min(pll.feedback_max, pll.vco.hi / pfd)
         if n_lo <= n_hi:
             grids.append(_RGrid(r, pfd, n_lo, n_hi))
     return grids
@@ -261,8 +261,8 @@ def _grid_points(pll: Pll, grid: _RGrid, m: Fraction) -> list[tuple[int, bool, F
     return points
 
 
-def _on_grid(pll: Pll, n: Fraction) -> bool:
-    return pll.allows_n(n)
+def _on_grid(loop: Pll, ratio: Fraction) -> bool:
+    return loop.allows_n(ratio)
 
 
 # --------------------------------------------------------------------------- the solver
@@ -375,7 +375,7 @@ class _Solver:
         n = self.problem.n_pin
         assert n is not None
         for grid in self.grids:
-            if grid.n_lo <= n <= grid.n_hi and _on_grid(self.pll, n):
+            if grid.n_lo <= n <= grid.n_hi and _on_grid(self.pll, ratio=n):
                 self._consider(grid, n)
 
     def _unconstrained(self) -> None:
@@ -627,13 +627,13 @@ def solve_pll(problem: PllProblem, limits: SearchLimits | None = None) -> PllSea
     multiple of 500 MHz (2.5 GHz or 3 GHz in a 2.4-3.2 GHz range), exactly.
 
     >>> from clockplan.parts import Pll, PllOutput, IntChoices, FrequencyRange
-    >>> pll = Pll("p", "ref", FrequencyRange(Fraction(2_400_000_000), Fraction(3_200_000_000)),
+    >>> part = Pll("synth", "ref", FrequencyRange(Fraction(2_400_000_000), Fraction(3_200_000_000)),
     ...           FrequencyRange(Fraction(5_000_000), Fraction(100_000_000)), IntChoices(1, 255),
     ...           Fraction(16), Fraction(4095), "integer",
     ...           (PllOutput("a", IntChoices(4, 256)), PllOutput("b", IntChoices(4, 256))))
     >>> outs = (OutputSpec("a", (Target("eth", Fraction(125_000_000)),), (IntChoices(4, 256),)),
     ...         OutputSpec("b", (Target("pcie", Fraction(100_000_000)),), (IntChoices(4, 256),)))
-    >>> best = solve_pll(PllProblem(pll, Fraction(25_000_000), outs)).best
+    >>> best = solve_pll(PllProblem(part, Fraction(25_000_000), outs)).best
     >>> best.vco_hz, best.r, best.n, best.score.worst_error
     (Fraction(2500000000, 1), 1, Fraction(100, 1), Fraction(0, 1))
     """
