@@ -1,0 +1,1 @@
+"""Synthesis: draw the clock tree for a list of consumers (docs/synthesis.md)."""

@@ -1,0 +1,192 @@
+"""Synthesis from end to end: consumer list in, verified trees out.
+
+1. Group the consumers by frequency (:mod:`clockplan.synth.classes`).
+2. For every main-reference frequency the library offers (the board may
+   restrict them), search the groupings (:mod:`clockplan.synth.grouping`):
+   most promising frequencies first, all runs sharing one list of the best
+   trees and one time limit.
+3. Verify the best trees through their written board files
+   (:func:`clockplan.synth.evaluate.verify_tree`): only a tree that passes is
+   proposed as passing.
+4. Explain what could not share a PLL, what needed a cleaner path, what the
+   next tree costs -- or, with no passing tree, why
+   (:mod:`clockplan.synth.explain`).
+
+Every figure is a planning estimate from typical template figures: choose
+real parts, enter their datasheet figures and audit again.
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+from fractions import Fraction
+from pathlib import Path
+
+from clockplan.synth.evaluate import Evaluator, Verified, verify_tree
+from clockplan.synth.grouping import BranchAndBound, Candidate, LeafJudge, SearchStats, TopTrees, exhaustive_search
+from clockplan.synth.input import ConsumerList
+from clockplan.synth.library import PartsLibrary, default_library, load_library
+from clockplan.synth.tree import MainReference, Problem
+
+__all__ = ["SynthesisOptions", "ProposedTree", "SynthesisResult", "synthesize", "library_for"]
+
+#: Trees kept beyond those shown, in case some fail verification through their board file.
+_SPARE_TREES = 3
+
+
+@dataclass(frozen=True)
+class SynthesisOptions:
+    """Knobs of the synthesis.
+
+    Parameters
+    ----------
+    alternatives
+        Runner-up trees shown beside the best.
+    time_limit_s
+        Search budget; the best trees found are returned when it runs out.
+    exhaustive
+        Judge every grouping with no pruning (exact but slow: for small cases and tests).
+    """
+
+    alternatives: int = 2
+    time_limit_s: float = 30.0
+    exhaustive: bool = False
+
+
+@dataclass
+class ProposedTree:
+    """A ranked tree with its verification through the written board file."""
+
+    rank: int
+    candidate: Candidate
+    verified: Verified
+
+    @property
+    def passes(self) -> bool:
+        """True if the written board plans and audits with every budget met."""
+        return self.verified.check.ok
+
+
+@dataclass
+class SynthesisResult:
+    """What synthesis found: ranked trees (passing first), search figures and notes."""
+
+    problem: Problem
+    evaluator: Evaluator
+    trees: list[ProposedTree]
+    failing: list[ProposedTree]
+    stats: SearchStats
+    notes: list[str] = field(default_factory=list)
+    elapsed_s: float = 0.0
+
+    @property
+    def feasible(self) -> bool:
+        """True if at least one tree meets every budget."""
+        return bool(self.trees)
+
+    @property
+    def best(self) -> ProposedTree | None:
+        """The best passing tree."""
+        return self.trees[0] if self.trees else None
+
+
+def library_for(spec: ConsumerList, extra: str | None = None) -> PartsLibrary:
+    """The shipped library, plus the board's ``[synthesis] library`` and ``extra`` files, restricted by ``allow``.
+
+    A relative ``[synthesis] library`` path is taken from the board file's folder.
+    """
+    library = default_library()
+    paths = []
+    if spec.settings.library:
+        path = Path(spec.settings.library)
+        if not path.is_absolute() and spec.source_file:
+            path = Path(spec.source_file).parent / path
+        paths.append(path)
+    if extra:
+        paths.append(Path(extra))
+    for path in paths:
+        library = library.merged(load_library(path))
+    if spec.settings.allow is not None:
+        library = library.restricted(spec.settings.allow, file=spec.source_file)
+    return library
+
+
+def _frequencies(problem: Problem, references: dict[Fraction, list[MainReference]]) -> list[Fraction | None]:
+    """Reference frequencies, most promising first: most classes taken straight off it, then cheapest part."""
+
+    def promise(hz: Fraction) -> tuple:
+        direct = sum(1 for c in problem.classes if problem.direct_ratio(hz, c.index) is not None)
+        cheapest = min(r.cost.key() for r in references[hz])
+        return (-direct, cheapest, hz)
+
+    ordered: list[Fraction | None] = sorted(references, key=promise)
+    return ordered + [None]
+
+
+def synthesize(spec: ConsumerList, library: PartsLibrary | None = None, options: SynthesisOptions | None = None) -> SynthesisResult:
+    """Propose clock trees for a consumer list, best first, each verified through its board file.
+
+    Examples
+    --------
+    >>> from clockplan.synth.input import load_consumer_list
+    >>> spec = load_consumer_list("boards/consumer-list.toml")  # doctest: +SKIP
+    >>> result = synthesize(spec)  # doctest: +SKIP
+    >>> result.best.candidate.cost.parts  # doctest: +SKIP
+    6
+    """
+    options = options or SynthesisOptions()
+    started = time.monotonic()
+    library = library if library is not None else library_for(spec)
+    problem = Problem.of(spec, library)
+    references: dict[Fraction, list[MainReference]] = {}
+    for reference in problem.reference_candidates():
+        references.setdefault(reference.hz, []).append(reference)
+    evaluator = Evaluator(problem)
+    judge = LeafJudge(problem, evaluator, references)
+    keep = options.alternatives + 1 + _SPARE_TREES
+    stats = SearchStats()
+    frequencies = _frequencies(problem, references)
+    if options.exhaustive:
+        top = exhaustive_search(judge, frequencies, keep)
+    else:
+        top = TopTrees(keep)
+        deadline = started + options.time_limit_s
+        search = BranchAndBound(judge, top, deadline, stats)
+        unfinished = []
+        for position, hz in enumerate(frequencies):
+            # Each run gets an even share of the time left, so one hopeless frequency cannot starve the rest.
+            share = (deadline - time.monotonic()) / (len(frequencies) - position)
+            if not search.run(hz, time.monotonic() + share):
+                unfinished.append(hz)
+            if stats.stopped:
+                break
+        if unfinished and not stats.stopped:
+            stats.stopped = True
+    notes = []
+    if stats.stopped:
+        notes.append(
+            f"the search stopped at its time limit ({options.time_limit_s:g} s): these are the best trees found, "
+            "not proven the best; raise --time-limit to search further"
+        )
+    passing: list[ProposedTree] = []
+    failing: list[ProposedTree] = []
+    header = _header(spec)
+    for candidate in top.items:
+        if len(passing) > options.alternatives:
+            break
+        verified = verify_tree(problem, candidate.tree, header)
+        proposed = ProposedTree(len(passing) + 1, candidate, verified)
+        (passing if verified.check.ok else failing).append(proposed)
+    stats.elapsed_s = time.monotonic() - started
+    return SynthesisResult(problem, evaluator, passing, failing, stats, notes, stats.elapsed_s)
+
+
+def _header(spec: ConsumerList) -> list[str]:
+    source = spec.source_file or "a consumer list"
+    return [
+        f"Synthesized by 'clockplan synthesize' from {source}.",
+        "Parts are generic templates with typical figures (common practice), not any maker's data:",
+        "choose real parts, enter their datasheet figures, and run 'clockplan audit' again.",
+        "Budgets are planning estimates: the part datasheets and the governing standard decide.",
+    ]
