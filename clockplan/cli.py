@@ -128,6 +128,7 @@ def _build_parser() -> argparse.ArgumentParser:
     standards.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
     standards.set_defaults(run=_run_standards)
     _add_loop_command(commands)
+    _add_synthesize_command(commands)
     return parser
 
 
@@ -265,6 +266,70 @@ def _run_loop(args: argparse.Namespace) -> int:
         console.print(f"[bold]clockplan loop[/]: {args.pll} on {analysis.board.name} ({args.board})")
         console.print(loop_view(analysis, args.pll, result))
     return EXIT_OK
+
+
+# --------------------------------------------------------------------------- synthesis
+
+
+def _add_synthesize_command(commands) -> None:
+    synthesize = commands.add_parser(
+        "synthesize",
+        help="draw the clock tree for a list of consumers: reference, PLLs, dividers, buffers",
+        description="Propose clock trees for a board that lists only its consumers (frequencies and standards): "
+        "which reference, how many PLLs, which consumers share a VCO, where a divider or a fanout buffer will do. "
+        "Minimizes parts, then power, then cost, then the worst margin (docs/synthesis.md); every tree is "
+        "checked by planning and auditing its written board file.",
+        epilog=_EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    synthesize.add_argument("board", help="consumer-list board file (TOML)")
+    synthesize.add_argument("--alternatives", type=_alternatives, default=None, metavar="K",
+                            help="also show K runner-up trees (default: the board's [synthesis] alternatives, else 2)")
+    synthesize.add_argument("--write", metavar="OUT", help="write the best tree as a complete board file to OUT")
+    synthesize.add_argument("--library", metavar="FILE", help="a parts library file added to the shipped templates")
+    synthesize.add_argument("--time-limit", type=_seconds, default=None, metavar="S",
+                            help="search budget in seconds (default: the board's [synthesis] time_limit, else 30)")
+    _add_output_options(synthesize)
+    synthesize.set_defaults(run=_run_synthesize)
+
+
+def _run_synthesize(args: argparse.Namespace) -> int:
+    from clockplan.synth.input import load_consumer_list
+    from clockplan.synth.render import render_synthesis, synthesis_document
+    from clockplan.synth.synthesize import SynthesisOptions, library_for, synthesize
+
+    spec = load_consumer_list(args.board)
+    if args.write:
+        from clockplan.fileio import refuse_overwrite
+
+        refuse_overwrite(args.write, protected=[args.board])
+    library = library_for(spec, args.library)
+    alternatives = args.alternatives if args.alternatives is not None else spec.settings.alternatives
+    time_limit = args.time_limit if args.time_limit is not None else spec.settings.time_limit_s
+    options = SynthesisOptions(
+        alternatives=2 if alternatives is None else alternatives,
+        time_limit_s=30.0 if time_limit is None else time_limit,
+    )
+    result = synthesize(spec, library, options)
+    if args.json:
+        from clockplan.report.json import dumps
+
+        sys.stdout.write(dumps(synthesis_document(result)))
+    else:
+        render_synthesis(result, _console(args))
+    if result.best is None:
+        raise InfeasibleError(
+            f"{spec.name}: no tree meets every budget with the allowed parts\n" + "\n".join(result.explanation.lines()),
+            file=spec.source_file,
+            hint="allow more part templates (a library file, [synthesis] allow), relax the blocking budget, or raise --time-limit",
+        )
+    if args.write:
+        from clockplan.fileio import atomic_write_text
+
+        atomic_write_text(args.write, result.best.verified.text)
+        if not args.json:
+            sys.stderr.write(f"clockplan: wrote the best tree to {args.write}\n")
+    return EXIT_FINDINGS if result.best.verified.analysis.has_errors else EXIT_OK
 
 
 def main(argv: Sequence[str] | None = None) -> int:

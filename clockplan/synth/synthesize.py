@@ -24,6 +24,7 @@ from fractions import Fraction
 from pathlib import Path
 
 from clockplan.synth.evaluate import Evaluator, Verified, verify_tree
+from clockplan.synth.explain import Explanation, explain
 from clockplan.synth.grouping import BranchAndBound, Candidate, LeafJudge, SearchStats, TopTrees, exhaustive_search
 from clockplan.synth.input import ConsumerList
 from clockplan.synth.library import PartsLibrary, default_library, load_library
@@ -73,12 +74,18 @@ class SynthesisResult:
     """What synthesis found: ranked trees (passing first), search figures and notes."""
 
     problem: Problem
-    evaluator: Evaluator
+    judge: LeafJudge
     trees: list[ProposedTree]
     failing: list[ProposedTree]
     stats: SearchStats
+    explanation: Explanation
     notes: list[str] = field(default_factory=list)
     elapsed_s: float = 0.0
+
+    @property
+    def evaluator(self) -> Evaluator:
+        """The block checker (and its cache)."""
+        return self.judge.evaluator
 
     @property
     def feasible(self) -> bool:
@@ -178,8 +185,9 @@ def synthesize(spec: ConsumerList, library: PartsLibrary | None = None, options:
         verified = verify_tree(problem, candidate.tree, header)
         proposed = ProposedTree(len(passing) + 1, candidate, verified)
         (passing if verified.check.ok else failing).append(proposed)
+    explanation = explain(judge, [p.candidate for p in passing], stats.stopped)
     stats.elapsed_s = time.monotonic() - started
-    return SynthesisResult(problem, evaluator, passing, failing, stats, notes, stats.elapsed_s)
+    return SynthesisResult(problem, judge, passing, failing, stats, explanation, notes, stats.elapsed_s)
 
 
 def _header(spec: ConsumerList) -> list[str]:
