@@ -25,11 +25,12 @@ Results are cached per template and frequency set.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 from fractions import Fraction
 
-from clockplan.plan.choices import at_or_above
+from clockplan.plan.choices import at_or_above, ladder_of
 from clockplan.plan.rational import ceil_fraction, floor_fraction, lcm_fractions, multiples_in
 from clockplan.synth.classes import ConsumerClass
 from clockplan.synth.library import DividerTemplate, PllTemplate
@@ -87,6 +88,26 @@ class Compat:
     ok: bool
     vco_hz: Fraction | None = None
     reason: str = ""
+
+
+def _feedback_reaches(template: PllTemplate, input_hz: Fraction, v: Fraction, cap: int = 4096) -> bool:
+    """Some R in the template's set puts the PFD in range and ``v`` on the feedback grid with N in range."""
+    ratio = v / input_hz  # N = ratio * R
+    lo = max(ceil_fraction(input_hz / template.pfd.hi), ceil_fraction(template.feedback_min / ratio), 1)
+    hi = min(floor_fraction(input_hz / template.pfd.lo), floor_fraction(template.feedback_max / ratio))
+    b = ratio.denominator
+    rule = template.denominator if template.mode == "fractional" else None
+    for count, r in enumerate(ladder_of(template.ref_divider, lo, hi).between(lo, hi)):
+        if count >= cap:
+            return True  # not prejudged: the planner decides
+        if r % b == 0:
+            return True
+        if rule is not None:
+            if rule.fixed is not None and (r * rule.fixed) % b == 0:
+                return True
+            if rule.limit is not None and b // math.gcd(b, r) <= rule.limit:
+                return True
+    return False
 
 
 class VcoCompat:
@@ -167,6 +188,40 @@ class VcoCompat:
             if all(self._exact_at(template, c, v) for c in exact) and all(self._window_at(template, c, v) for c in windowed):
                 return Compat(True, v)
         return Compat(False, reason=self._why_not(template, exact, step, bool(multiples)))
+
+    def exact_from(self, template: PllTemplate, members: Sequence[int], input_hz: Fraction) -> bool:
+        """Whether an exact plan exists from a reference at ``input_hz`` (every member exact).
+
+        The planner's exact path (docs/planning.md) in brief: a common multiple of
+        the outputs inside the VCO range, each divider allowed, and an R that puts
+        the PFD in range with N in range and on the part's grid (whole; ``k/M`` for
+        a fixed modulus; a denominator within the limit). Used to turn down a block
+        before running the planner, whose search for the nearest (inexact) plan is
+        slow; a set with more common multiples than ``MAX_MULTIPLES`` is not
+        prejudged (True).
+        """
+        key = ("exact-from", template.name, tuple(sorted(members)), input_hz)
+        found = self._cache.get(key)
+        if found is None:
+            found = Compat(self._exact_from(template, key[2], input_hz))
+            self._cache[key] = found
+        return found.ok
+
+    def _exact_from(self, template: PllTemplate, members: tuple[int, ...], input_hz: Fraction) -> bool:
+        classes = [self.classes[i] for i in members]
+        if any(not c.exact for c in classes):
+            return True  # a class allowed an error: the planner's sweep decides
+        if not self.check(template, members).ok:
+            return False
+        step = lcm_fractions(self._output_hz(template, c) for c in classes)
+        multiples = multiples_in(step, template.vco.lo, template.vco.hi)
+        if len(multiples) > MAX_MULTIPLES:
+            return True
+        for m in multiples:
+            v = m * step
+            if all(self._exact_at(template, c, v) for c in classes) and _feedback_reaches(template, input_hz, v):
+                return True
+        return False
 
     def _exact_at(self, template: PllTemplate, c: ConsumerClass, v: Fraction) -> bool:
         q = v / self._output_hz(template, c)

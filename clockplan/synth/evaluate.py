@@ -107,14 +107,6 @@ def check_analysis(analysis: "Analysis", plan: "BoardPlan | None" = None) -> Che
     return Check(not failures, tuple(failures), worst, margins)
 
 
-def _plan_and_analyze(board: "Board", seconds: float) -> tuple["BoardPlan", "Analysis"]:
-    from clockplan.analysis import analyze
-    from clockplan.plan.board_planner import PlanOptions, plan_board
-
-    plan = plan_board(board, PlanOptions(time_limit_s=seconds))
-    return plan, analyze(board, plan.settings)
-
-
 class Evaluator:
     """Checks blocks and direct classes against a main reference, with a cache.
 
@@ -127,15 +119,23 @@ class Evaluator:
     def __init__(self, problem: Problem) -> None:
         self.problem = problem
         self._cache: dict[tuple, Check] = {}
+        self._plans: dict[tuple, Any] = {}
         self.checked = 0
 
-    def _run(self, key: tuple, tree: Tree) -> Check:
+    def _run(self, key: tuple, tree: Tree, plan_key: tuple) -> Check:
+        from clockplan.analysis import analyze
+        from clockplan.plan.board_planner import PlanOptions, plan_board
+
         found = self._cache.get(key)
         if found is None:
             self.checked += 1
             board = parts_board(self.problem, tree_parts(self.problem, tree), name="block")
-            plan, analysis = _plan_and_analyze(board, BLOCK_PLAN_SECONDS)
-            found = check_analysis(analysis, plan)
+            # The settings depend on the reference's frequency, not on its grade: plan once per frequency.
+            plan = self._plans.get(plan_key)
+            if plan is None:
+                plan = plan_board(board, PlanOptions(time_limit_s=BLOCK_PLAN_SECONDS))
+                self._plans[plan_key] = plan
+            found = check_analysis(analyze(board, plan.settings), plan)
             self._cache[key] = found
         return found
 
@@ -143,12 +143,32 @@ class Evaluator:
         """Check one block (a PLL block on ``reference``, or a dedicated oscillator)."""
         if block.is_pll:
             assert reference is not None
-            return self._run(("block", reference.name, reference.hz, block.signature()), Tree(reference, (block,)))
-        return self._run(("oscillator", block.signature()), Tree(None, (block,)))
+            key = ("block", reference.name, reference.hz, block.signature())
+            if not self.problem.compat.exact_from(block.kind, block.own, reference.hz):
+                # No exact plan exists: the planner would only search for the nearest miss, slowly.
+                labels = ", ".join(self.problem.classes[c].label() for c in block.own)
+                message = (
+                    f"no setting of {block.kind.name} makes {labels} exactly from {reference.label()}: "
+                    "no common VCO multiple is reachable with an allowed R, PFD and N"
+                )
+                return self._cache.setdefault(key, Check(False, (Failure(block.kind.name, "no-plan", message),)))
+            exact_own = tuple(c for c in block.own if self.problem.classes[c].exact)
+            if key not in self._cache and exact_own and len(exact_own) < len(block.own):
+                # A setting that serves the whole block serves its exact part: if the exact part has no plan,
+                # neither has the block, and the planner's slower search for the frequencies allowed an
+                # error is spared. (A budget failure of the part proves nothing: the planner may choose
+                # another setting for the part alone.)
+                part = self.block(reference, Block(block.kind, exact_own, tuple(a for a in block.attached if a[1] in exact_own)))
+                if not part.ok and all(f.code == "no-plan" for f in part.failures):
+                    return self._cache.setdefault(key, part)
+            return self._run(key, Tree(reference, (block,)), ("block", reference.hz, block.signature()))
+        key = ("oscillator", block.signature())
+        return self._run(key, Tree(None, (block,)), key)
 
     def direct(self, reference: MainReference, direct: DirectClass) -> Check:
         """Check one class taken straight off the main reference."""
-        return self._run(("direct", reference.name, reference.hz, direct.cls, direct.ratio), Tree(reference, (), (direct,)))
+        key = ("direct", reference.name, reference.hz, direct.cls, direct.ratio)
+        return self._run(key, Tree(reference, (), (direct,)), ("direct", reference.hz, direct.cls, direct.ratio))
 
 
 @dataclass

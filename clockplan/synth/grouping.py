@@ -175,14 +175,19 @@ class LeafJudge:
         assert cost is not None
         return cost.key()
 
-    def _first_passing(self, reference: MainReference | None, own: tuple[int, ...], attached: Attached, kinds: Sequence[Any]) -> tuple[Block, Check] | None:
-        """The cheapest template that passes; among equally cheap ones, the largest margin."""
+    def _first_passing(
+        self, reference: MainReference | None, own: tuple[int, ...], attached: Attached, kinds: Sequence[Any], ceiling: Cost | None = None
+    ) -> tuple[Block, Check] | None:
+        """The cheapest template that passes; among equally cheap ones, the largest margin.
+
+        Templates dearer than ``ceiling`` are not checked: the tree could not enter the best list with them.
+        """
         chosen: tuple[Block, Check] | None = None
         chosen_cost = None
         for kind in kinds:
             block = Block(kind, own, attached)
             cost = self.problem.block_cost(block)
-            if chosen is not None and cost != chosen_cost:
+            if (chosen is not None and cost != chosen_cost) or (ceiling is not None and cost.key() > ceiling.key()):
                 break
             check = self.evaluator.block(reference, block)
             if not check.ok:
@@ -192,47 +197,82 @@ class LeafJudge:
         return chosen
 
     def best(self, grouping: Grouping, hz: Fraction | None, bound: tuple | None = None) -> Candidate | None:
-        """The best tree for ``grouping`` at main-reference frequency ``hz`` (None if none passes)."""
+        """The best tree for ``grouping`` at main-reference frequency ``hz`` (None if none passes).
+
+        With ``bound`` (a cost key), trees dearer than it are not looked for.
+        """
         kinds = [self.kinds(hz, own, attached) for own, attached in grouping.blocks]
         if any(not k for k in kinds):
             return None
         references = self.references.get(hz, []) if hz is not None else []
         best: Candidate | None = None
         for reference in references or [None]:
-            candidate = self._with_reference(grouping, kinds, reference)
+            limit = bound if best is None else (best.cost.key() if bound is None else min(bound, best.cost.key()))
+            candidate = self._with_reference(grouping, kinds, reference, limit)
             if candidate is not None and (best is None or candidate.key < best.key):
                 best = candidate
         return best
 
-    def _with_reference(self, grouping: Grouping, kinds: list[list[Any]], reference: MainReference | None) -> Candidate | None:
-        options: list[list[tuple[Block, Check]]] = []
-        for (own, attached), block_kinds in zip(grouping.blocks, kinds):
-            members = own + tuple(c for c, _, _ in attached)
-            fits = reference is not None and all(self.problem.fits(reference, c) for c in members)
-            plls = [k for k in block_kinds if isinstance(k, PllTemplate)] if fits else []
-            oscillators = [k for k in block_kinds if isinstance(k, OscillatorTemplate)]
-            found = [f for f in (self._first_passing(None, own, attached, oscillators),) if f]
-            # A passing oscillator strictly cheaper than every PLL template wins whatever else the tree holds:
-            # a PLL also loads the reference, whose fan-out cost never falls with more loads.
-            if plls and not (found and self._cost(found[0][0]) < self._cost(Block(plls[0], own, attached))):
-                found += [f for f in (self._first_passing(reference, own, attached, plls),) if f]
-            if not found:
+    def _usable(self, reference: MainReference | None, own: tuple[int, ...], attached: Attached, kinds: list[Any]) -> tuple[list[Any], list[Any]]:
+        """The block's PLL templates usable on ``reference`` (every member keeps its ppm budget) and its oscillators."""
+        members = own + tuple(c for c, _, _ in attached)
+        fits = reference is not None and all(self.problem.fits(reference, c) for c in members)
+        plls = [k for k in kinds if isinstance(k, PllTemplate)] if fits else []
+        return plls, [k for k in kinds if isinstance(k, OscillatorTemplate)]
+
+    def _with_reference(self, grouping: Grouping, kinds: list[list[Any]], reference: MainReference | None, limit: tuple | None = None) -> Candidate | None:
+        problem = self.problem
+        usable = [self._usable(reference, own, attached, k) for (own, attached), k in zip(grouping.blocks, kinds)]
+        if any(not plls and not oscillators for plls, oscillators in usable):
+            return None
+        if grouping.direct and (reference is None or not all(problem.fits(reference, d.cls) for d in grouping.direct)):
+            return None
+        # The cheapest this grouping can be on this reference: every block at its cheapest usable template.
+        cheapest = [min((problem.block_cost(Block(k, own, attached)) for k in plls + oscs), key=lambda c: c.key())
+                    for (own, attached), (plls, oscs) in zip(grouping.blocks, usable)]
+        base = ZERO
+        for cost in cheapest:
+            base = base + cost
+        for direct in grouping.direct:
+            base = base + problem.direct_cost(direct)
+        loads = sum(1 for _, oscs in usable if not oscs) + sum(problem.direct_loads(d) for d in grouping.direct)
+        if loads:
+            fan = problem.reference_fan(loads, reference.outputs)
+            if fan is None:
                 return None
-            options.append(found)
+            base = base + reference.cost + fan.cost
+        ceiling_total = Cost(*limit) if limit is not None else None
+        if ceiling_total is not None and base.key() > limit:
+            return None
         direct_checks = []
         for direct in grouping.direct:
-            if reference is None or not self.problem.fits(reference, direct.cls):
-                return None
             check = self.evaluator.direct(reference, direct)
             if not check.ok:
                 return None
             direct_checks.append(check)
+        options: list[list[tuple[Block, Check]]] = []
+        # Blocks whose classes all want exact frequencies check fastest: settle them first.
+        order = sorted(range(len(grouping.blocks)), key=lambda i: any(not problem.classes[c].exact for c in _members(grouping.blocks[i])))
+        chosen: dict[int, list[tuple[Block, Check]]] = {}
+        for i in order:
+            own, attached = grouping.blocks[i]
+            plls, oscillators = usable[i]
+            ceiling = ceiling_total - (base - cheapest[i]) if ceiling_total is not None else None
+            found = [f for f in (self._first_passing(None, own, attached, oscillators, ceiling),) if f]
+            # A passing oscillator strictly cheaper than every PLL template wins whatever else the tree holds:
+            # a PLL also loads the reference, whose fan-out cost never falls with more loads.
+            if plls and not (found and self._cost(found[0][0]) < self._cost(Block(plls[0], own, attached))):
+                found += [f for f in (self._first_passing(reference, own, attached, plls, ceiling),) if f]
+            if not found:
+                return None
+            chosen[i] = found
+        options = [chosen[i] for i in range(len(grouping.blocks))]
         if sum(len(o) > 1 for o in options) > _MAX_JOINT:
-            options = [[min(o, key=lambda bc: self.problem.block_cost(bc[0]).key())] for o in options]
+            options = [[min(o, key=lambda bc: self._cost(bc[0]))] for o in options]
         best: Candidate | None = None
         for combo in itertools.product(*options):
             tree = Tree(reference, tuple(b for b, _ in combo), grouping.direct)
-            cost = self.problem.tree_cost(tree)
+            cost = problem.tree_cost(tree)
             if cost is None:
                 continue
             checks = tuple(c for _, c in combo) + tuple(direct_checks)
@@ -241,6 +281,11 @@ class LeafJudge:
             if best is None or candidate.key < best.key:
                 best = candidate
         return best
+
+
+def _members(block: tuple[tuple[int, ...], Attached]) -> tuple[int, ...]:
+    own, attached = block
+    return own + tuple(c for c, _, _ in attached)
 
 
 def _margin(check: Check) -> float:
@@ -316,6 +361,19 @@ class _Open:
         return all(isinstance(k, PllTemplate) for k in self.kinds)
 
 
+@dataclass(frozen=True)
+class _State:
+    """A partial grouping: open blocks, direct classes, the references that fit every direct class,
+    and running sums for the bound (blocks at their cheapest, direct classes, loads on the reference)."""
+
+    blocks: tuple[_Open, ...]
+    direct: tuple[DirectClass, ...]
+    fit: frozenset[int]
+    blocks_sum: Cost
+    direct_sum: Cost
+    loads: int
+
+
 @dataclass
 class SearchStats:
     """What a search did: nodes visited, groupings judged, whether the time limit stopped it."""
@@ -324,6 +382,7 @@ class SearchStats:
     leaves: int = 0
     stopped: bool = False
     elapsed_s: float = 0.0
+    cut_runs: int = 0
 
 
 class BranchAndBound:
@@ -352,20 +411,25 @@ class BranchAndBound:
         self.deadline = deadline
         self.stats = stats or SearchStats()
 
-    def run(self, hz: Fraction | None, deadline: float | None = None) -> bool:
+    def run(self, hz: Fraction | None, deadline: float | None = None, leaf_limit: int | None = None) -> bool:
         """Search every grouping at main-reference frequency ``hz`` (None: no main reference).
 
-        Returns True if the run finished, False if ``deadline`` (or the search's own) cut it short.
+        Returns True if the run finished, False if ``deadline`` (or the search's own), or
+        ``leaf_limit`` groupings judged, cut it short. A run with a small leaf limit is a
+        probe: the first, cheapest-looking groupings only, to set a bound early.
         """
         self.hz = hz
         self.run_deadline = deadline
+        self.leaf_limit = None if leaf_limit is None else self.stats.leaves + leaf_limit
         self.cut = False
         self.references = self.judge.references.get(hz, []) if hz is not None else []
         every = frozenset(range(len(self.references)))
         self.fit = [
             frozenset(i for i, r in enumerate(self.references) if self.problem.fits(r, c.index)) for c in self.problem.classes
         ]
-        self._grow(0, (), (), every)
+        self._reference_parts: dict[tuple, Cost | None] = {}
+        self._prepare_isolation()
+        self._grow(0, _State((), (), every, ZERO, ZERO, 0))
         return not self.cut
 
     # ----------------------------------------------------------------- bounds
@@ -383,42 +447,85 @@ class BranchAndBound:
         lb = min((c for c, _ in priced), key=lambda c: c.key())
         return _Open(own, attached, tuple(k for _, k in priced), fit, lb)
 
-    def _lower_bound(self, blocks: Sequence[_Open], direct: Sequence[DirectClass], fit: frozenset[int]) -> Cost | None:
-        total = ZERO
-        loads = 0
-        for block in blocks:
-            total = total + block.lb
+    def _reference_part(self, fit: frozenset[int], loads: int) -> Cost | None:
+        """The cheapest main reference still possible with the fan-out ``loads`` need (cached)."""
+        key = (fit, loads)
+        if key not in self._reference_parts:
+            found = None
+            if fit:
+                references = [self.references[i] for i in fit]
+                fan = self.problem.reference_fan(loads, max(r.outputs for r in references))
+                if fan is not None:
+                    found = min((r.cost for r in references), key=lambda c: c.key()) + fan.cost
+            self._reference_parts[key] = found
+        return self._reference_parts[key]
+
+    def _prepare_isolation(self) -> None:
+        """Facts for the bound on parts still to add (see :meth:`_homeless`), fixed for the run."""
+        problem, count = self.problem, len(self.problem.classes)
+        templates = [t for t in problem.library.plls if self.hz is not None and t.accepts_input(self.hz)]
+        self.pairs = [
+            {d for d in range(count) if d != c and any(problem.compat.check(t, (c, d)).ok for t in templates)} for c in range(count)
+        ]
+        self.free_direct = [
+            self.hz is not None and bool(self.fit[c]) and problem.direct_ratio(self.hz, c) == 1 for c in range(count)
+        ]
+        units = [self.problem.block_cost(Block(k, (c,))) for c in range(count) for k in self.judge.kinds(self.hz, (c,), ())]
+        if problem.library.divider is not None:
+            units.append(part_cost(problem.library.divider))
+        self.cheapest_part = min((c for c in units if c is not None), key=lambda c: c.key(), default=None)
+
+    def _homeless(self, index: int, state: "_State") -> int:
+        """At least how many parts the classes after ``index`` still add.
+
+        A class that can neither join an open block as an own class (the block's
+        templates still share a VCO with it and have an output free) nor be taken
+        off the reference as it is, costs at least one part: a new block, or the
+        divider that divides it down from another clock. Two such classes that no
+        template puts on one VCO cannot share a new block, so a greedy set of
+        them, pairwise apart, counts parts that must still come.
+        """
+        problem = self.problem
+        chosen: list[int] = []
+        for c in range(index, len(problem.classes)):
+            if self.free_direct[c] or any(d in self.pairs[c] for d in chosen):
+                continue
+            joins = any(
+                isinstance(k, PllTemplate) and problem.compat.check(k, block.own + (c,)).ok for block in state.blocks for k in block.kinds
+            )
+            if not joins:
+                chosen.append(c)
+        return len(chosen)
+
+    def _price(self, state: "_State") -> Cost | None:
+        """The state's lower bound: its blocks at their cheapest, its direct classes, and the reference they need."""
+        if not state.loads:
+            return state.blocks_sum + state.direct_sum
+        fit = state.fit
+        for block in state.blocks:
             if block.needs_reference:
-                loads += 1
                 fit = fit & block.fit
-        for d in direct:
-            cost = self.problem.direct_cost(d)
-            if cost is None:
-                return None
-            total = total + cost
-            loads += self.problem.direct_loads(d)
-        if loads:
-            if not fit:
-                return None
-            references = [self.references[i] for i in fit]
-            fan = self.problem.reference_fan(loads, max(r.outputs for r in references))
-            if fan is None:
-                return None
-            total = total + min((r.cost for r in references), key=lambda c: c.key()) + fan.cost
-        return total
+        reference = self._reference_part(fit, state.loads)
+        return None if reference is None else state.blocks_sum + state.direct_sum + reference
 
     # ----------------------------------------------------------------- options
 
-    def _options(self, index: int, blocks: tuple[_Open, ...], direct: tuple[DirectClass, ...], fit: frozenset[int]) -> list[tuple]:
+    def _replace(self, state: "_State", position: int, grown: _Open) -> "_State":
+        old = state.blocks[position]
+        loads = state.loads - int(old.needs_reference) + int(grown.needs_reference)
+        blocks = state.blocks[:position] + (grown,) + state.blocks[position + 1 :]
+        return _State(blocks, state.direct, state.fit, state.blocks_sum - old.lb + grown.lb, state.direct_sum, loads)
+
+    def _options(self, index: int, state: "_State") -> list[tuple[Cost, "_State"]]:
         problem = self.problem
         mine = self.fit[index]
-        states: list[tuple[tuple[_Open, ...], tuple[DirectClass, ...], frozenset[int]]] = []
-        for position, block in enumerate(blocks):
+        states: list[_State] = []
+        for position, block in enumerate(state.blocks):
             own = block.own + (index,)
             kinds = [k for k in block.kinds if isinstance(k, PllTemplate) and problem.compat.check(k, own).ok]
             grown = self._open(own, block.attached, kinds, block.fit & mine)
             if grown is not None:
-                states.append((blocks[:position] + (grown,) + blocks[position + 1 :], direct, fit))
+                states.append(self._replace(state, position, grown))
             for parent in block.own:
                 ratio = problem.attach_ratio(parent, index)
                 if ratio is None:
@@ -426,19 +533,25 @@ class BranchAndBound:
                 kinds = [k for k in block.kinds if isinstance(k, PllTemplate) or problem.fits(k, index)]
                 grown = self._open(block.own, block.attached + ((index, parent, ratio),), kinds, block.fit & mine)
                 if grown is not None:
-                    states.append((blocks[:position] + (grown,) + blocks[position + 1 :], direct, fit))
-        if self.hz is not None and mine & fit:
+                    states.append(self._replace(state, position, grown))
+        if self.hz is not None and mine & state.fit:
             ratio = problem.direct_ratio(self.hz, index)
-            if ratio is not None:
-                states.append((blocks, direct + (DirectClass(index, ratio),), fit & mine))
+            direct = DirectClass(index, ratio) if ratio is not None else None
+            cost = problem.direct_cost(direct) if direct is not None else None
+            if direct is not None and cost is not None:
+                states.append(
+                    _State(state.blocks, state.direct + (direct,), state.fit & mine, state.blocks_sum,
+                           state.direct_sum + cost, state.loads + problem.direct_loads(direct))
+                )
         fresh = self._open((index,), (), self.judge.kinds(self.hz, (index,), ()), mine)
         if fresh is not None:
-            states.append((blocks + (fresh,), direct, fit))
-        priced = []
-        for new_blocks, new_direct, new_fit in states:
-            lb = self._lower_bound(new_blocks, new_direct, new_fit)
-            if lb is not None:
-                priced.append((lb, new_blocks, new_direct, new_fit))
+            states.append(
+                _State(state.blocks + (fresh,), state.direct, state.fit, state.blocks_sum + fresh.lb,
+                       state.direct_sum, state.loads + int(fresh.needs_reference))
+            )
+        priced = [(lb, s) for s in states if (lb := self._price(s)) is not None]
+        if priced and self.cheapest_part is not None and self.top.bound() is not None:
+            priced = [(lb + self.cheapest_part.times(self._homeless(index + 1, s)), s) for lb, s in priced]
         priced.sort(key=lambda item: item[0].key())
         return priced
 
@@ -448,21 +561,23 @@ class BranchAndBound:
             self.stats.stopped = True
         if self.stats.stopped or (self.run_deadline is not None and now > self.run_deadline):
             self.cut = True
+        if self.leaf_limit is not None and self.stats.leaves >= self.leaf_limit:
+            self.cut = True
         return self.cut
 
-    def _grow(self, index: int, blocks: tuple[_Open, ...], direct: tuple[DirectClass, ...], fit: frozenset[int]) -> None:
+    def _grow(self, index: int, state: "_State") -> None:
         self.stats.nodes += 1
         if self._out_of_time():
             return
         if index == len(self.problem.classes):
             self.stats.leaves += 1
-            grouping = Grouping(tuple((b.own, b.attached) for b in blocks), direct)
-            self.top.offer(self.judge.best(grouping, self.hz))
+            grouping = Grouping(tuple((b.own, b.attached) for b in state.blocks), state.direct)
+            self.top.offer(self.judge.best(grouping, self.hz, self.top.bound()))
             return
-        for lb, new_blocks, new_direct, new_fit in self._options(index, blocks, direct, fit):
+        for lb, new_state in self._options(index, state):
             bound = self.top.bound()
             if bound is not None and lb.key() > bound:
                 break  # options are sorted by their bound: the rest cannot do better
-            self._grow(index + 1, new_blocks, new_direct, new_fit)
+            self._grow(index + 1, new_state)
             if self.cut:
                 return

@@ -41,6 +41,9 @@ class Cost:
     def __add__(self, other: "Cost") -> "Cost":
         return Cost(self.parts + other.parts, self.power_w + other.power_w, self.cost + other.cost)
 
+    def __sub__(self, other: "Cost") -> "Cost":
+        return Cost(self.parts - other.parts, self.power_w - other.power_w, self.cost - other.cost)
+
     def times(self, count: int) -> "Cost":
         """``count`` of these parts."""
         return Cost(self.parts * count, self.power_w * count, self.cost * count)

@@ -33,7 +33,9 @@ from clockplan.synth.tree import MainReference, Problem
 __all__ = ["SynthesisOptions", "ProposedTree", "SynthesisResult", "synthesize", "library_for"]
 
 #: Trees kept beyond those shown, in case some fail verification through their board file.
-_SPARE_TREES = 3
+_SPARE_TREES = 1
+#: Groupings a probe judges per reference frequency before the full runs.
+_PROBE_LEAVES = 3
 
 
 @dataclass(frozen=True)
@@ -160,15 +162,25 @@ def synthesize(spec: ConsumerList, library: PartsLibrary | None = None, options:
         top = TopTrees(keep)
         deadline = started + options.time_limit_s
         search = BranchAndBound(judge, top, deadline, stats)
-        unfinished = []
-        for position, hz in enumerate(frequencies):
-            # Each run gets an even share of the time left, so one hopeless frequency cannot starve the rest.
-            share = (deadline - time.monotonic()) / (len(frequencies) - position)
-            if not search.run(hz, time.monotonic() + share):
-                unfinished.append(hz)
+        # Probe every frequency first (its first few groupings) so that a good bound prunes the full runs;
+        # then search each fully, the frequencies whose probe found the cheapest trees first.
+        found: dict[Fraction | None, tuple] = {}
+        for hz in frequencies:
+            before = {id(c) for c in top.items}
+            search.run(hz, deadline, leaf_limit=_PROBE_LEAVES)
+            new = [c.cost.key() for c in top.items if id(c) not in before]
+            found[hz] = min(new) if new else (float("inf"),)
             if stats.stopped:
                 break
-        if unfinished and not stats.stopped:
+        ordered = sorted(frequencies, key=lambda hz: (found.get(hz, (float("inf"),)), frequencies.index(hz)))
+        for position, hz in enumerate(ordered):
+            if stats.stopped:
+                break
+            # Each run gets an even share of the time left, so one hard frequency cannot starve the rest.
+            share = (deadline - time.monotonic()) / (len(ordered) - position)
+            if not search.run(hz, time.monotonic() + share):
+                stats.cut_runs += 1
+        if stats.cut_runs:
             stats.stopped = True
     notes = []
     if stats.stopped:

@@ -158,6 +158,7 @@ class Problem:
     compat: VcoCompat
     _layouts: dict[tuple, Layout | None] = field(default_factory=dict)
     _fits: dict[tuple, bool] = field(default_factory=dict)
+    _costs: dict[tuple, Cost | None] = field(default_factory=dict)
 
     @classmethod
     def of(cls, spec: ConsumerList, library: PartsLibrary) -> "Problem":
@@ -178,9 +179,12 @@ class Problem:
         return self._layouts[key]
 
     def block_cost(self, block: Block) -> Cost | None:
-        """The part, its dividers and buffers; None if the block cannot be laid out."""
-        layout = self.layout(block.kind, block.own, block.attached)
-        return None if layout is None else part_cost(block.kind) + layout.cost
+        """The part, its dividers and buffers; None if the block cannot be laid out (cached)."""
+        key = (block.kind.name, block.own, block.attached)
+        if key not in self._costs:
+            layout = self.layout(block.kind, block.own, block.attached)
+            self._costs[key] = None if layout is None else part_cost(block.kind) + layout.cost
+        return self._costs[key]
 
     def direct_loads(self, direct: DirectClass) -> int:
         """Loads a direct class puts on the main reference."""
