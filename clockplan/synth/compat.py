@@ -58,23 +58,29 @@ def needs_low_divider(template: PllTemplate, hz: Fraction) -> bool:
 def low_ratio(template: PllTemplate, divider: DividerTemplate | None, hz: Fraction) -> int | None:
     """The plain divider's ratio for a frequency below the output dividers' reach, or None if none works.
 
-    The smallest allowed ``b`` with ``hz * b * D_max`` at or above the top of the
-    VCO range, provided ``hz * b * D_min`` is still at or below its bottom: the
-    output dividers then reach ``hz * b`` from every VCO frequency.
+    The output dividers must reach ``hz * b`` from every VCO frequency:
+    ``hz * b * D_max`` at or above the top of the VCO range and ``hz * b * D_min``
+    at or below its bottom. Of those ``b``, the smallest power of two is taken
+    where there is one (the low clocks of a board are mostly binary fractions of
+    their family -- audio bit clocks, baud clocks, real-time clocks: common
+    practice), else the smallest.
 
     Examples
     --------
     >>> from clockplan.synth.library import default_library
     >>> lib = default_library()
-    >>> low_ratio(lib.pll("int-synth-4"), lib.divider, Fraction(1_843_200))
-    4
+    >>> low_ratio(lib.pll("int-synth-4"), lib.divider, Fraction(1_843_200)), low_ratio(lib.pll("int-synth-4"), lib.divider, Fraction(3_072_000))
+    (4, 4)
     """
     if divider is None:
         return None
-    b = at_or_above(divider.ratio, max(1, ceil_fraction(template.vco.hi / (hz * template.output_divider.hi))))
-    if b is None or hz * b * template.output_divider.lo > template.vco.lo:
-        return None
-    return b
+    smallest = max(1, ceil_fraction(template.vco.hi / (hz * template.output_divider.hi)))
+    largest = floor_fraction(template.vco.lo / (hz * template.output_divider.lo))
+    power = 1 << (smallest - 1).bit_length()
+    for b in (power, at_or_above(divider.ratio, smallest)):
+        if b is not None and smallest <= b <= largest and b in divider.ratio:
+            return b
+    return None
 
 
 @dataclass(frozen=True)

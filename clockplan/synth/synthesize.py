@@ -139,7 +139,7 @@ def synthesize(spec: ConsumerList, library: PartsLibrary | None = None, options:
     Examples
     --------
     >>> from clockplan.synth.input import load_consumer_list
-    >>> spec = load_consumer_list("boards/consumer-list.toml")  # doctest: +SKIP
+    >>> spec = load_consumer_list("boards/synthesis/consumer-list.toml")  # doctest: +SKIP
     >>> result = synthesize(spec)  # doctest: +SKIP
     >>> result.best.candidate.cost.parts  # doctest: +SKIP
     6
