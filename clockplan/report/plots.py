@@ -193,6 +193,7 @@ def phase_noise_figure(traces: Sequence[PhaseNoiseTrace]) -> "Figure":
 def _budget_lines(ax: Any, budget: tuple[float, float], horizontal: bool) -> None:
     draw = ax.axhline if horizontal else ax.axvline
     low, high = (float(b) * 1e6 for b in budget)
+    (ax.axhspan if horizontal else ax.axvspan)(low, high, color="#2e7d32", alpha=0.06, linewidth=0)
     draw(low, label=f"budget {low:+g} / {high:+g} ppm", **_BUDGET_STYLE)
     draw(high, **_BUDGET_STYLE)
 
