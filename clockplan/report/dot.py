@@ -32,7 +32,7 @@ _SHAPE = {
     "pll": ("box3d", "#ede7f6"),
     "pll_output": ("box", "#f3e5f5"),
     "divider": ("trapezium", "#fff8e1"),
-    "buffer": ("invtriangle", "#e0f2f1"),
+    "buffer": ("cds", "#e0f2f1"),
     "consumer": ("box", "#e8f5e9"),
 }
 _STATUS_COLOUR = {"FAIL": ("#c62828", "#ffebee"), "warn": ("#ef6c00", "#fff3e0")}
@@ -106,6 +106,8 @@ def render_dot(analysis: Analysis) -> str:
         role = graph.nodes[node]["role"]
         shape, fill = _SHAPE[role]
         extra: dict[str, str | float] = {"style": "filled,rounded"} if role == "consumer" else {}
+        if role == "divider":
+            extra["margin"] = "0.02,0.02"  # a trapezium's default margin makes it twice as wide as its text
         lines = _node_lines(analysis, node, role)
         status = status_of(analysis, node)
         if status in _STATUS_COLOUR:

@@ -52,6 +52,7 @@ td.word { font-weight: 700; white-space: nowrap; }
 td.PASS { color: var(--pass); background: var(--pass-bg); }
 td.warn, td.warning { color: var(--warn); background: var(--warn-bg); }
 td.FAIL, td.error { color: var(--fail); background: var(--fail-bg); }
+td.info { color: #01579b; background: #e1f5fe; }
 code { font-family: ui-monospace, "SFMono-Regular", Menlo, Consolas, monospace; font-size: .9em; }
 .diagram { overflow-x: auto; border: 1px solid var(--line); border-radius: .3rem; padding: .5rem; }
 .diagram svg { max-width: 100%; height: auto; }
