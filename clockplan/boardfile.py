@@ -8,6 +8,7 @@ The file format is documented in ``docs/board-format.md``.
 
 from __future__ import annotations
 
+import dataclasses
 import re
 import tomllib
 from collections.abc import Callable, Iterator
@@ -396,6 +397,8 @@ def _read_buffer(reader: TableReader) -> Buffer:
 
 
 def _read_consumer(reader: TableReader) -> Consumer:
+    from clockplan.standards.resolve import BUDGET_FIELDS, resolve_budget
+
     consumer = Consumer(
         id=reader.get("id", _part_id),
         source=reader.get("source", _text),
@@ -404,7 +407,15 @@ def _read_consumer(reader: TableReader) -> Consumer:
         standard=reader.get("standard", _text, None),
     )
     reader.raw("description")
-    return consumer
+    for name in BUDGET_FIELDS:
+        reader.raw(name)
+    try:
+        budget = resolve_budget(consumer.standard, reader.table, reader.key)
+    except ClockplanError as err:
+        if err.file:
+            raise
+        raise reader.ctx.error(err.key or reader.key, err.message, err.hint) from None
+    return dataclasses.replace(consumer, budget=budget)
 
 
 def _array_of_tables(doc: dict, name: str, ctx: _Context) -> Iterator[TableReader]:

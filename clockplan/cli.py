@@ -66,6 +66,17 @@ def _build_parser() -> argparse.ArgumentParser:
     audit.add_argument("board", help="board file (TOML)")
     _add_output_options(audit)
     audit.set_defaults(run=_run_audit)
+
+    standards = commands.add_parser(
+        "standards",
+        help="list interface clock requirements, or show one with its sources",
+        description="List the standards library (ppm tolerance, spread spectrum, jitter limit and band, with sources), "
+        "or show one entry in detail. A word that is not a key filters the list.",
+    )
+    standards.add_argument("key", nargs="?", help="a key or alias for its detail; any other word filters the list")
+    standards.add_argument("--width", type=int, default=None, help="terminal width for the tables")
+    standards.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
+    standards.set_defaults(run=_run_standards)
     _add_report_commands(commands)
     return parser
 
@@ -260,6 +271,13 @@ def _run_new(args: argparse.Namespace) -> int:
 
     path = write_starter(args.file, args.name)
     sys.stdout.write(f"clockplan: wrote {path}; check it with: clockplan audit {path}\n")
+    return EXIT_OK
+
+
+def _run_standards(args: argparse.Namespace) -> int:
+    from clockplan.standards.render import standards_view
+
+    _console(args).print(standards_view(args.key))
     return EXIT_OK
 
 
