@@ -179,3 +179,32 @@ def test_explain_writes_files(tmp_path, capsys):
         target = tmp_path / f"explain.{fmt}"
         assert main(["explain", "boards/video-converter.toml", "pix_720p", "--format", fmt, "-o", str(target)]) == 0
         assert "pix_720p" in target.read_text(encoding="utf-8")
+
+
+# --------------------------------------------------------------------------- with the real budget results
+
+
+def test_waterfall_total_agrees_with_the_accuracy_module(video):
+    # The ppm module's worst case for the same reference and chain is the reference for the running total.
+    from clockplan.ppm import ConsumerBudget, OscillatorSpec, StabilityBand, consumer_accuracy
+    from clockplan.units import parse_ppm
+
+    spec = OscillatorSpec("xo", parse_ppm("±20 ppm"), StabilityBand(*parse_ppm("±25 ppm")))
+    error = video.consumer("audio_codec").synthesis_error
+    accuracy = consumer_accuracy(spec, error, None, (0.0, 70.0), 0.0, ConsumerBudget(parse_ppm("±100 ppm")))
+    result = replace(video.consumer("audio_codec"), accuracy=accuracy)
+    rows = explain(video.with_consumer(result), "audio_codec").accuracy_rows
+    assert [r.stage for r in rows][:2] == ["initial", "temperature"]
+    assert rows[-1].total == (accuracy.carrier_min, accuracy.carrier_max)
+
+
+def test_jitter_waterfall_agrees_with_the_jitter_module(video):
+    from clockplan.jitter.result import JitterResult
+
+    # 300 fs and 400 fs uncorrelated: 500 fs RMS in total (root-sum-square).
+    jitter = JitterResult(148.5e6, 12e3, 20e6, 5e-13, (("pix_pll", 4e-13), ("ref_27m", 3e-13)), 1e-12)
+    result = replace(video.consumer("hdmi_tx"), jitter=jitter)
+    explanation = explain(video.with_consumer(result), "hdmi_tx")
+    assert explanation.jitter_rows[-1].total == pytest.approx(jitter.rms_seconds, rel=1e-12)
+    assert explanation.budget_cells["jitter"] == "500 fs"
+    assert explanation.jitter_rows[0].share == f"{jitter.shares()['pix_pll'] * 100:.3g} %"

@@ -129,3 +129,20 @@ def test_a_long_stage_reports_progress_through_the_cli(monkeypatch, capsys):
     assert main(["audit", "boards/industrial-gateway.toml", "--json"]) == 0
     assert seen == [0, 1, 2, 3, 4]
     assert capsys.readouterr().err == ""  # not a terminal: no bar drawn, stdout stays pure JSON
+
+
+@pytest.mark.parametrize("width", [40, 60, 100, 160])
+def test_no_value_is_cut_at_any_width(width, capsys):
+    # Every cell of the consumer table appears whole: in the grid, or as "header: value" lines.
+    analysis = analyze(load_board("boards/video-converter.toml"))
+    main(["audit", "boards/video-converter.toml", "--no-color", "--width", str(width)])
+    out = capsys.readouterr().out
+    lines = [line.strip("│ ") for line in out.splitlines()]
+    table = consumers_table(analysis)
+    for row in table.rows:
+        for header, cell in zip(table.headers, row):
+            if " " in cell or len(cell) > width // 3:
+                continue  # a multi-word cell may wrap inside a grid cell; its words are checked below
+            assert any(cell in line for line in lines), (header, cell)
+        for word in " ".join(row).split():
+            assert word in out, word

@@ -54,23 +54,65 @@ def _styled(word: str) -> str:
     return f"[{style}]{escape(word)}[/]" if style else escape(word)
 
 
-def rich_table(table: TextTable) -> "RenderableType":
-    """A rich table from plain cells; the status column's words are coloured, never replaced.
-
-    Examples
-    --------
-    >>> make_console(width=80, color=False).print(rich_table(consumers_table(result)))  # doctest: +SKIP
-    """
+def _grid(table: TextTable) -> "RenderableType":
     from rich.markup import escape
     from rich.table import Table
 
     out = Table(title=table.title, title_justify="left", header_style="bold")
     for column in table.columns:
-        # Fold rather than crop: on a narrow terminal a cell wraps, but no character is lost.
+        # Fold rather than crop: if a cell must wrap, no character is lost.
         out.add_column(column.header, justify="right" if column.align == "right" else "left", overflow="fold")
     for row in table.rows:
         out.add_row(*[_styled(cell) if i == table.status_column else escape(cell) for i, cell in enumerate(row)])
     return out
+
+
+def _records(table: TextTable) -> "list[RenderableType]":
+    from rich.markup import escape
+
+    lines = [f"[bold]{escape(table.title)}[/]"]
+    for row in table.rows:
+        lines.append(f"[bold]{escape(row[0])}[/]")
+        for index, (header, cell) in enumerate(zip(table.headers[1:], row[1:]), 1):
+            value = _styled(cell) if index == table.status_column else escape(cell)
+            lines.append(f"  {escape(header)}: {value}")
+    return lines
+
+
+def _unbroken_width(table: TextTable) -> int:
+    """The narrowest the grid can be without breaking a word: longest word per column, plus rules."""
+    total = 1
+    for index, column in enumerate(table.columns):
+        words = [w for text in (column.header, *(row[index] for row in table.rows)) for w in text.split()]
+        total += max((len(w) for w in words), default=1) + 3
+    return total
+
+
+class _FittedTable:
+    """A grid where it fits without breaking words, else one block of ``header: value`` lines per row."""
+
+    def __init__(self, table: TextTable) -> None:
+        self.table = table
+
+    def __rich_console__(self, console, options):
+        if _unbroken_width(self.table) <= options.max_width:
+            yield _grid(self.table)
+        else:
+            yield from _records(self.table)
+
+
+def rich_table(table: TextTable) -> "RenderableType":
+    """A rich table from plain cells; the status column's words are coloured, never replaced.
+
+    On a terminal too narrow for the grid without breaking words, each row is
+    printed as its own block of ``header: value`` lines instead, so that no
+    value is cut or split.
+
+    Examples
+    --------
+    >>> make_console(width=80, color=False).print(rich_table(consumers_table(result)))  # doctest: +SKIP
+    """
+    return _FittedTable(table)
 
 
 def consumer_table(analysis: Analysis) -> "RenderableType":
