@@ -34,6 +34,7 @@ __all__ = [
     "TreeNode",
     "Summary",
     "STATUS_WORDS",
+    "NO_MARGINS",
     "status_of",
     "format_tolerance",
     "consumer_margins",
@@ -49,6 +50,9 @@ __all__ = [
 
 #: The words a status can be; reports may colour them but never replace them.
 STATUS_WORDS = ("PASS", "warn", "FAIL")
+
+#: What the summary says when no consumer has a margin to show.
+NO_MARGINS = "none to show (every target is exact and no ppm or jitter budget is set)"
 
 _SECONDS_PER_YEAR = 365.25 * 86400
 
@@ -133,6 +137,18 @@ class Summary:
     def counts(self) -> str:
         """``'1 error(s), 0 warning(s), 6 consumer(s)'``."""
         return f"{self.errors} error(s), {self.warnings} warning(s), {self.consumers} consumer(s)"
+
+    @property
+    def facts(self) -> tuple[tuple[str, str], ...]:
+        """The summary's ``(label, text)`` lines after the title (which names the board and its file)."""
+        return (("references", "; ".join(self.references)), ("conditions", self.conditions))
+
+    @property
+    def margin_lines(self) -> tuple[str, ...]:
+        """One line per worst margin, e.g. ``'synthesis: uart_clk 32.1 % left (-1.357 % of ±2 %)'``."""
+        if not self.margins:
+            return (NO_MARGINS,)
+        return tuple(f"{m.kind}: {m.consumer} {m.describe} ({m.text})" for m in self.margins)
 
 
 def status_of(analysis: Analysis, node: str) -> str:

@@ -121,18 +121,13 @@ def clean_svg(svg: str) -> str:
 
 
 def _summary(summary: Summary, title: str) -> str:
-    margins = "".join(
-        f"<li>{escape(m.kind)}: <code>{escape(m.consumer)}</code> {escape(m.describe)} ({escape(m.text)})</li>"
-        for m in summary.margins
-    ) or "<li>none to show (every target is exact and no ppm or jitter budget is set)</li>"
-    source = f"<dt>board file</dt><dd><code>{escape(summary.file)}</code></dd>" if summary.file else ""
+    facts = f"<dt>board file</dt><dd><code>{escape(summary.file)}</code></dd>" if summary.file else ""
+    facts += "".join(f"<dt>{escape(label)}</dt><dd>{escape(text)}</dd>" for label, text in summary.facts)
+    margins = "".join(f"<li>{escape(line)}</li>" for line in summary.margin_lines)
     return (
         f"<h1>clockplan {escape(title)}: {escape(summary.board)}</h1>"
         f'<p><span class="verdict {summary.verdict}">{summary.verdict}</span>{escape(summary.counts)}</p>'
-        f'<dl class="summary">{source}'
-        f"<dt>references</dt><dd>{escape('; '.join(summary.references))}</dd>"
-        f"<dt>conditions</dt><dd>{escape(summary.conditions)}</dd>"
-        f"<dt>worst margins</dt><dd><ul>{margins}</ul></dd></dl>"
+        f'<dl class="summary">{facts}<dt>worst margins</dt><dd><ul>{margins}</ul></dd></dl>'
     )
 
 

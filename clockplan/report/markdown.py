@@ -63,16 +63,10 @@ def markdown_summary(summary: Summary, title: str = "audit") -> str:
     """The head of the report: title, verdict line, then the facts as a list."""
     verdict = _MARK[summary.verdict]
     lines = [f"# clockplan {title}: {escape_cell(summary.board)}", "", f"**Verdict:** {verdict} — {summary.counts}", ""]
-    if summary.file:
-        lines.append(f"- **Board file:** `{summary.file}`")
-    lines.append(f"- **References:** {escape_cell('; '.join(summary.references))}")
-    lines.append(f"- **Conditions:** {escape_cell(summary.conditions)}")
-    if summary.margins:
-        lines.append("- **Worst margins:**")
-        for m in summary.margins:
-            lines.append(f"  - {m.kind}: `{m.consumer}` {escape_cell(m.describe)} ({escape_cell(m.text)})")
-    else:
-        lines.append("- **Worst margins:** none to show (every target is exact and no ppm or jitter budget is set)")
+    lines += [f"- **Board file:** `{summary.file}`"] if summary.file else []
+    lines += [f"- **{label.capitalize()}:** {escape_cell(text)}" for label, text in summary.facts]
+    lines.append("- **Worst margins:**")
+    lines += [f"  - {escape_cell(line)}" for line in summary.margin_lines]
     return "\n".join(lines) + "\n"
 
 

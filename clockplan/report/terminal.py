@@ -156,14 +156,14 @@ def print_summary(summary: Summary, console: "Console", title: str = "audit") ->
 
     source = f" ({escape(summary.file)})" if summary.file else ""
     console.print(f"[bold]clockplan {escape(title)}[/]: {escape(summary.board)}{source}")
-    console.print(f"references: {escape('; '.join(summary.references))}")
-    console.print(f"conditions: {escape(summary.conditions)}")
+    for label, text in summary.facts:
+        console.print(f"{label}: {escape(text)}")
     if summary.margins:
         console.print("worst margins:")
-        for margin in summary.margins:
-            console.print(f"  {margin.kind}: {escape(margin.consumer)} {margin.describe} ({escape(margin.text)})")
+        for line in summary.margin_lines:
+            console.print(f"  {escape(line)}")
     else:
-        console.print("worst margins: none to show (every target is exact and no ppm or jitter budget is set)")
+        console.print(f"worst margins: {summary.margin_lines[0]}")
     console.print(f"verdict: {_styled(summary.verdict)} - {summary.counts}")
 
 
