@@ -276,3 +276,39 @@ def test_fail_on_warning_counts_warnings(capsys, monkeypatch):
     monkeypatch.setattr("clockplan.cli._analyze_with_progress", lambda *a, **k: warned)
     assert main(["audit", "boards/industrial-gateway.toml", "--json", "--fail-on", "warning"]) == 1
     assert main(["audit", "boards/industrial-gateway.toml", "--json", "--fail-on", "error"]) == 0
+
+
+# --------------------------------------------------------------------------- upstream problems
+
+
+def _minimal(old: str, new: str):
+    from clockplan.boardfile import parse_board
+
+    from .boards import MINIMAL
+
+    text = MINIMAL.replace(old, new)
+    assert text != MINIMAL
+    return analyze(parse_board(text, "minimal.toml"))
+
+
+def test_a_failing_pll_fails_its_consumers_in_every_report():
+    # 25 MHz x 100 = 2.5 GHz, below a 2.6 GHz VCO range: the PLL cannot run, so neither can its loads,
+    # although their frequencies are on target.
+    analysis = _minimal('vco = ["2.4 GHz", "3.2 GHz"]', 'vco = ["2.6 GHz", "3.2 GHz"]')
+    doc = json.loads(render_report(analysis, "json"))
+    assert [(c["status"], c["chain_status"]) for c in doc["consumers"]] == [("pass", "fail"), ("pass", "fail")]
+    assert all("FAIL" in row[-1] for row in markdown_tables(render_markdown(analysis))[0][1:])
+    rows = list(csv.DictReader(io.StringIO(render_csv(analysis), newline="")))
+    assert [r["chain_status"] for r in rows] == ["fail", "fail"]
+    text = render_report(analysis, "table", width=120)
+    assert "phy0 (consumer) 125 MHz FAIL" in text
+
+
+def test_an_unset_board_renders_in_every_format():
+    analysis = _minimal('settings = { r = 1, n = "100", outputs = { out0 = 20, out1 = 16 } }', "")
+    for fmt in FORMATS:
+        text = render_report(analysis, fmt)
+        assert "phy0" in text
+    assert "unset" in render_report(analysis, "table", width=120)
+    doc = json.loads(render_report(analysis, "json"))
+    assert doc["consumers"][0]["actual_hz"] is None and doc["consumers"][0]["chain_status"] == "fail"

@@ -36,6 +36,7 @@ __all__ = [
     "STATUS_WORDS",
     "NO_MARGINS",
     "status_of",
+    "consumer_status",
     "format_tolerance",
     "consumer_margins",
     "worst_margins",
@@ -159,6 +160,19 @@ def status_of(analysis: Analysis, node: str) -> str:
     return "warn" if Severity.WARNING in severities else "PASS"
 
 
+def consumer_status(analysis: Analysis, consumer_id: str) -> str:
+    """A consumer's status counting its whole chain: a PLL that cannot run fails its consumers too.
+
+    The JSON ``status`` key is the consumer's own findings only (the contract);
+    ``chain_status`` and every human report use this one.
+    """
+    nodes = {consumer_id, *analysis.consumer(consumer_id).chain}
+    severities = {f.severity for f in analysis.findings if f.node in nodes}
+    if Severity.ERROR in severities:
+        return "FAIL"
+    return "warn" if Severity.WARNING in severities else "PASS"
+
+
 def format_tolerance(fraction: Fraction | float) -> str:
     """A symmetric tolerance for people: ``'±2 %'`` from 0.1 % up, else ``'±20 ppm'``.
 
@@ -268,7 +282,7 @@ def consumers_table(analysis: Analysis) -> TextTable:
             format_ppm(result.synthesis_error) if result.synthesis_error is not None else "-",
             *[cells.get(h, "-") for h in extra],
             _margin_cell(consumer_margins(analysis, result)),
-            status_of(analysis, result.id),
+            consumer_status(analysis, result.id),
         ))
     return TextTable("Consumers", tuple(columns), tuple(rows), status_column=len(columns) - 1)
 
@@ -322,7 +336,7 @@ def _node_label(analysis: Analysis, node: str) -> tuple[str, str | None]:
         text += f" {format_frequency(hz)}"
     if role != "consumer":
         return text, None
-    status = status_of(analysis, node)
+    status = consumer_status(analysis, node)
     result = analysis.consumer(node)
     if result.synthesis_error:
         text += f" (target {format_frequency(result.target_hz)})"

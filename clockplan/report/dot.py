@@ -15,7 +15,7 @@ import subprocess
 from clockplan.analysis import Analysis
 from clockplan.errors import ClockplanError
 from clockplan.findings import Severity
-from clockplan.report.content import status_of
+from clockplan.report.content import consumer_status, status_of
 from clockplan.units import format_exact, format_frequency
 
 __all__ = ["INSTALL_HINT", "dot_quote", "render_dot", "dot_available", "render_svg"]
@@ -109,7 +109,7 @@ def render_dot(analysis: Analysis) -> str:
         if role == "divider":
             extra["margin"] = "0.02,0.02"  # a trapezium's default margin makes it twice as wide as its text
         lines = _node_lines(analysis, node, role)
-        status = status_of(analysis, node)
+        status = consumer_status(analysis, node) if role == "consumer" else status_of(analysis, node)
         if status in _STATUS_COLOUR:
             colour, fill = _STATUS_COLOUR[status]
             extra.update(color=colour, penwidth=2.5, fontcolor=colour)

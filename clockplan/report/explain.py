@@ -30,7 +30,7 @@ from typing import TYPE_CHECKING, Any
 from clockplan.analysis import CAVEAT, Analysis, ConsumerResult
 from clockplan.errors import ClockplanError, did_you_mean
 from clockplan.findings import Finding, Severity
-from clockplan.report.content import Column, TextTable, consumer_margins, extra_cells, status_of
+from clockplan.report.content import Column, TextTable, consumer_margins, consumer_status, extra_cells
 from clockplan.units import format_exact, format_frequency, format_ppm, format_time
 
 if TYPE_CHECKING:
@@ -263,7 +263,7 @@ def explain(analysis: Analysis, consumer_id: str) -> Explanation:
     return Explanation(
         analysis=analysis,
         consumer=consumer,
-        status=status_of(analysis, consumer_id),
+        status=consumer_status(analysis, consumer_id),
         stages=tuple(_chain_stages(analysis, consumer)),
         accuracy_rows=tuple(_accuracy_rows(consumer)),
         jitter_rows=tuple(_jitter_rows(consumer)),
@@ -398,7 +398,7 @@ def explanation_document(explanation: Explanation) -> dict[str, Any]:
         "command": "explain",
         "board": {"name": analysis.board.name, "file": analysis.board.source_file},
         "consumer": consumer_doc,
-        "status": consumer_doc["status"],
+        "status": consumer_doc["chain_status"],
         "chain": [
             {"node": s.node, "role": s.role, "operation": s.operation, "frequency_hz": number(s.frequency_hz),
              "frequency_hz_exact": format_exact(s.frequency_hz) if s.frequency_hz is not None else None}

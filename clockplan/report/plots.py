@@ -23,6 +23,7 @@ import io
 import math
 import os
 import secrets
+import textwrap
 from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -182,7 +183,8 @@ def phase_noise_figure(traces: Sequence[PhaseNoiseTrace]) -> "Figure":
         low, high = trace.band_hz
         ax.axvspan(low, high, color="#1565c0", alpha=0.12, label=f"integration band {_format_hz(low)} – {_format_hz(high)}")
         ax.semilogx(trace.offsets_hz, trace.dbc_per_hz, color="#1565c0", linewidth=1.6, label="L(f)")
-        ax.set_title(trace.consumer + (f"\n{trace.note}" if trace.note else ""), fontsize=10)
+        note = "\n".join(textwrap.wrap(trace.note, 70))  # a long note must not run past its panel
+        ax.set_title(trace.consumer + (f"\n{note}" if note else ""), fontsize=10)
         ax.set_xlabel("offset from carrier (Hz)")
         ax.set_ylabel("L(f) (dBc/Hz)")
         ax.grid(True, which="both", alpha=0.3)
