@@ -312,3 +312,16 @@ def test_an_unset_board_renders_in_every_format():
     assert "unset" in render_report(analysis, "table", width=120)
     doc = json.loads(render_report(analysis, "json"))
     assert doc["consumers"][0]["actual_hz"] is None and doc["consumers"][0]["chain_status"] == "fail"
+
+
+def test_a_failing_graphviz_leaves_the_html_tree(monkeypatch):
+    from clockplan.errors import ClockplanError
+    from clockplan.report.html import build_html
+
+    def broken(text, timeout_s=60.0):
+        raise ClockplanError("Graphviz 'dot' failed: simulated")
+
+    monkeypatch.setattr("clockplan.report.dot.dot_available", lambda: True)
+    monkeypatch.setattr("clockplan.report.dot.render_svg", broken)
+    page = build_html(analyze(load_board(BOARDS[0])))
+    assert '<ul class="tree">' in page and "<svg" not in page

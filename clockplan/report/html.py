@@ -15,6 +15,7 @@ from html import escape
 
 from clockplan import __version__
 from clockplan.analysis import CAVEAT, Analysis
+from clockplan.errors import ClockplanError
 from clockplan.report.content import (
     Summary,
     TextTable,
@@ -191,6 +192,11 @@ def build_html(analysis: Analysis, title: str = "audit") -> str:
     """
     from clockplan.report import dot, plots
 
-    svg = dot.render_svg(dot.render_dot(analysis)) if dot.dot_available() else None
+    svg = None
+    if dot.dot_available():
+        try:
+            svg = dot.render_svg(dot.render_dot(analysis))
+        except ClockplanError:
+            svg = None  # a broken Graphviz must not cost the whole report: the HTML list tree stands in
     images = plots.plot_images(plots.collect_plot_data(analysis)) if plots.matplotlib_available() else None
     return render_html(analysis, title, svg, images)
