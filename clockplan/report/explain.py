@@ -236,7 +236,8 @@ def _notes(consumer: ConsumerResult) -> list[str]:
         for attribute in ("notes", "note"):
             value = getattr(budget, attribute, None) if budget is not None else None
             for text in ([value] if isinstance(value, str) else value or ()):
-                if text and text not in notes:
+                # The general caveat closes every report already; repeat only what is specific.
+                if text and text not in notes and not str(text).startswith("Budgets are planning estimates"):
                     notes.append(str(text))
     return notes
 
