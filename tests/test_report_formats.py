@@ -106,12 +106,14 @@ def test_csv_quotes_awkward_values():
 
     class Budget:
         def json_fields(self):
-            return {"note": 'comma, "quote"\nand a new line', "limits_ppm": [-20, 20]}
+            return {"note": 'comma, "quote"\nand a new line', "limits_ppm": [-20, 20],
+                    "jitter": {"rms_s": 2.5e-13, "band_hz": [12e3, 20e6]}}
 
     first = replace(analysis.consumers[0], accuracy=Budget())
     rows = list(csv.DictReader(io.StringIO(render_csv(analysis.with_consumer(first)), newline="")))
     assert rows[0]["note"] == 'comma, "quote"\nand a new line'
     assert json.loads(rows[0]["limits_ppm"]) == [-20, 20]
+    assert float(rows[0]["jitter.rms_s"]) == 2.5e-13 and json.loads(rows[0]["jitter.band_hz"]) == [12e3, 20e6]
     assert rows[1]["note"] == ""
 
 

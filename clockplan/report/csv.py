@@ -3,8 +3,8 @@
 The columns are the keys of ``consumers[]`` in the JSON contract
 (``docs/json-output.md``), in the same order and with the same values, so a
 script can switch between the two; ``source_chain`` is joined with ``" > "``.
-Budget results add their ``json_fields()`` keys as further columns (a list or
-table value is written as JSON text). Written per RFC 4180 by Python's
+Budget results add their ``json_fields()`` keys as further columns: a nested
+table becomes dotted columns (``jitter.rms_s``), a list is written as JSON text. Written per RFC 4180 by Python's
 ``csv`` module: comma separated, quoted where needed, CRLF line ends.
 """
 
@@ -36,6 +36,17 @@ def _cell(value: Any) -> str:
     return str(value)
 
 
+def _flatten(doc: dict[str, Any], prefix: str = "") -> dict[str, Any]:
+    """Nested tables become dotted columns (``jitter.rms_s``), as a spreadsheet wants them."""
+    flat: dict[str, Any] = {}
+    for key, value in doc.items():
+        if isinstance(value, dict) and value:
+            flat.update(_flatten(value, f"{prefix}{key}."))
+        else:
+            flat[f"{prefix}{key}"] = value
+    return flat
+
+
 def consumer_rows(analysis: Analysis) -> tuple[list[str], list[list[str]]]:
     """The header and the rows of the CSV: JSON consumer keys, then any budget keys.
 
@@ -45,7 +56,7 @@ def consumer_rows(analysis: Analysis) -> tuple[list[str], list[list[str]]]:
     >>> header[:3]  # doctest: +SKIP
     ['id', 'source_chain', 'target_hz']
     """
-    consumers = analysis_document(analysis)["consumers"]
+    consumers = [_flatten(doc) for doc in analysis_document(analysis)["consumers"]]
     header: list[str] = []
     for doc in consumers:
         header += [key for key in doc if key not in header]
