@@ -60,7 +60,9 @@ class _Jitter:
 
 @pytest.fixture(scope="module")
 def video():
-    return analyze(load_board("boards/video-converter.toml"))
+    from .test_report_terminal import exact_audit
+
+    return exact_audit("boards/video-converter.toml")
 
 
 def test_the_chain_is_exact(video):
@@ -158,14 +160,20 @@ def test_explain_markdown_tables_parse(video):
 
 
 @pytest.mark.parametrize(("consumer", "status"), [("audio_codec", 1), ("hdmi_tx", 0)])
-def test_explain_exit_status_follows_the_consumer(consumer, status, capsys):
+def test_explain_exit_status_follows_the_consumer(consumer, status, capsys, monkeypatch):
+    from clockplan import analysis as pipeline
+
+    monkeypatch.setattr(pipeline, "STAGES", [])
     assert main(["explain", "boards/video-converter.toml", consumer, "--no-color", "--width", "100"]) == status
     out = capsys.readouterr().out
     assert out.splitlines()[0] == f"clockplan explain: {consumer} on Video format converter (boards/video-converter.toml)"
     assert out.splitlines()[1].startswith("FAIL:" if status else "PASS:")
 
 
-def test_explain_terminal_output_at_fixed_width(capsys):
+def test_explain_terminal_output_at_fixed_width(capsys, monkeypatch):
+    from clockplan import analysis as pipeline
+
+    monkeypatch.setattr(pipeline, "STAGES", [])
     main(["explain", "boards/video-converter.toml", "audio_codec", "--no-color", "--width", "100"])
     lines = capsys.readouterr().out.splitlines()
     assert lines[1] == ("FAIL: 12.285 MHz for a 12.288 MHz target, synthesis error -244.1 ppm; "
