@@ -99,8 +99,15 @@ class Analysis:
 #: A budget stage takes an analysis and returns it enriched.
 Stage = Callable[[Analysis, AnalysisOptions], Analysis]
 
+def _accuracy_stage(analysis: Analysis, options: AnalysisOptions) -> Analysis:
+    # Imported on use: the ppm package brings numpy, which the CLI must not load at start-up.
+    from clockplan.ppm.stage import accuracy_stage
+
+    return accuracy_stage(analysis, options)
+
+
 #: The budget stages run after the exact frequency audit, in order.
-STAGES: list[Stage] = []
+STAGES: list[Stage] = [_accuracy_stage]
 
 
 def _consumer_results(board: Board, graph: "nx.DiGraph", freqs: Frequencies) -> tuple[ConsumerResult, ...]:

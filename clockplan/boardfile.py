@@ -280,14 +280,32 @@ def _read_board_section(doc: dict, ctx: _Context) -> tuple[str, tuple[float, flo
     return name, temperature, lifetime
 
 
+def _located(reader: TableReader, parse: Callable[[], T]) -> T:
+    """Run a budget module's parser; put the file and line on its error (its key path is its own)."""
+    try:
+        return parse()
+    except ClockplanError as err:
+        if err.file:
+            raise
+        raise reader.ctx.error(err.key or reader.key, err.message, err.hint) from None
+
+
 def _read_reference(reader: TableReader) -> Reference:
+    from clockplan.ppm.parse import REFERENCE_KEYS, parse_oscillator_spec
+
     reference = Reference(
         id=reader.get("id", _part_id),
         frequency=reader.get("frequency", parse_frequency),
         kind=reader.get("kind", _kind, "xo"),
     )
     reader.raw("description")
-    return reference
+    accuracy_keys = [name for name in REFERENCE_KEYS if name != "kind" and reader.has(name)]
+    for name in REFERENCE_KEYS:
+        reader.raw(name)
+    if not accuracy_keys:
+        return reference  # no accuracy data: the ppm stage says so (docs/frequency-accuracy.md)
+    spec = _located(reader, lambda: parse_oscillator_spec(reader.table, reader.key, reference.frequency))
+    return dataclasses.replace(reference, oscillator=spec)
 
 
 def _read_outputs(reader: TableReader) -> tuple[PllOutput, ...]:
@@ -299,7 +317,13 @@ def _read_outputs(reader: TableReader) -> tuple[PllOutput, ...]:
         if not ID_PATTERN.match(name):
             raise outputs.error(name, f"invalid output name {name!r}", "use letters, digits, '_' or '-'")
         out = outputs.sub(name)
-        result.append(PllOutput(name=name, divider=out.get("divider", _int_choices)))
+        spread = None
+        if out.has("spread"):
+            from clockplan.ppm.parse import parse_spread
+
+            out.raw("spread")
+            spread = _located(out, lambda: parse_spread(out.table["spread"], out.path("spread")))
+        result.append(PllOutput(name=name, divider=out.get("divider", _int_choices), spread=spread))
         out.raw("description")
         out.finish()
     return tuple(result)
@@ -409,12 +433,7 @@ def _read_consumer(reader: TableReader) -> Consumer:
     reader.raw("description")
     for name in BUDGET_FIELDS:
         reader.raw(name)
-    try:
-        budget = resolve_budget(consumer.standard, reader.table, reader.key)
-    except ClockplanError as err:
-        if err.file:
-            raise
-        raise reader.ctx.error(err.key or reader.key, err.message, err.hint) from None
+    budget = _located(reader, lambda: resolve_budget(consumer.standard, reader.table, reader.key))
     return dataclasses.replace(consumer, budget=budget)
 
 

@@ -46,6 +46,30 @@ def _add_output_options(parser: argparse.ArgumentParser) -> None:
     _add_report_options(parser)
 
 
+def _count(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if value < 0:
+        raise argparse.ArgumentTypeError(f"{value} is negative")
+    return value
+
+
+def _add_budget_options(parser: argparse.ArgumentParser) -> None:
+    """Options of the budget stages, shared by every command that analyses a board."""
+    parser.add_argument("--samples", type=_count, default=0, metavar="N",
+                        help="simulate N boards for the Monte Carlo frequency-error yield (default 0: none)")
+    parser.add_argument("--seed", type=_count, default=0, metavar="S",
+                        help="seed of the Monte Carlo; the same seed gives the same numbers (default 0)")
+
+
+def _analysis_options(args: argparse.Namespace, progress=None):
+    from clockplan.analysis import AnalysisOptions
+
+    return AnalysisOptions(samples=args.samples, seed=args.seed, progress=progress)
+
+
 def _build_parser() -> argparse.ArgumentParser:
     parser = _Parser(
         prog="clockplan",
@@ -65,6 +89,7 @@ def _build_parser() -> argparse.ArgumentParser:
     )
     audit.add_argument("board", help="board file (TOML)")
     _add_output_options(audit)
+    _add_budget_options(audit)
     audit.set_defaults(run=_run_audit)
 
     standards = commands.add_parser(
@@ -103,7 +128,7 @@ def _emit(args: argparse.Namespace, analysis, command: str) -> int:
 def _run_audit(args: argparse.Namespace) -> int:
     from clockplan.boardfile import load_board
 
-    return _emit(args, _analyze_with_progress(load_board(args.board)), "audit")
+    return _emit(args, _analyze_with_progress(load_board(args.board), args), "audit")
 
 
 # --------------------------------------------------------------------------- reports
@@ -159,13 +184,13 @@ def _exit_status(worst, fail_on: str) -> int:
     return EXIT_FINDINGS if worst.rank >= threshold else EXIT_OK
 
 
-def _analyze_with_progress(board, settings=None):
-    """Run the analysis; a long budget stage draws a progress bar on stderr (terminals only)."""
-    from clockplan.analysis import AnalysisOptions, analyze
-    from clockplan.report.progress import ProgressBar
+def _analyze_with_progress(board, args: argparse.Namespace, settings=None):
+    """Run the analysis with the budget options; a long run draws a transient progress bar on stderr."""
+    from clockplan.analysis import analyze
+    from clockplan.report.progress import DelayedProgress
 
-    with ProgressBar("analysing") as progress:
-        return analyze(board, settings, AnalysisOptions(progress=progress))
+    with DelayedProgress("Monte Carlo yield") as progress:
+        return analyze(board, settings, _analysis_options(args, progress))
 
 
 def _add_report_commands(commands) -> None:
@@ -183,6 +208,7 @@ def _add_report_commands(commands) -> None:
     explain.add_argument("--output", "-o", metavar="FILE", default=None, help="write to FILE instead of stdout")
     explain.add_argument("--width", type=int, default=None, help="terminal width for the tables")
     explain.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
+    _add_budget_options(explain)
     explain.set_defaults(run=_run_explain, json=False)
 
     diagram = commands.add_parser(
@@ -204,6 +230,7 @@ def _add_report_commands(commands) -> None:
     )
     plots.add_argument("board", help="board file (TOML)")
     plots.add_argument("--output-dir", "-d", metavar="FOLDER", default=".", help="folder for the PNG files (default: .)")
+    _add_budget_options(plots)
     plots.set_defaults(run=_run_plots)
 
     new = commands.add_parser(
@@ -220,7 +247,7 @@ def _run_explain(args: argparse.Namespace) -> int:
     from clockplan.boardfile import load_board
     from clockplan.report import explain as explainer
 
-    explanation = explainer.explain(_analyze_with_progress(load_board(args.board)), args.consumer)
+    explanation = explainer.explain(_analyze_with_progress(load_board(args.board), args), args.consumer)
     fmt = args.format or "table"
     if fmt == "table" and not args.output:
         explainer.render_explanation(explanation, _console(args))
@@ -256,7 +283,7 @@ def _run_plots(args: argparse.Namespace) -> int:
     from clockplan.boardfile import load_board
     from clockplan.report.plots import collect_plot_data, write_plots
 
-    data = collect_plot_data(_analyze_with_progress(load_board(args.board)))
+    data = collect_plot_data(_analyze_with_progress(load_board(args.board), args))
     if data.empty:
         sys.stdout.write("clockplan: nothing to plot: the board gives no phase-noise or oscillator accuracy data "
                          "(see docs/jitter.md and docs/frequency-accuracy.md)\n")

@@ -17,10 +17,11 @@ from importlib import resources
 
 from clockplan.errors import ClockplanError
 from clockplan.ppm.accuracy import OVEN_NOTE, PLANNING_NOTE, AccuracyResult, consumer_accuracy
+from clockplan.ppm.display import format_limits
 from clockplan.ppm.montecarlo import ConsumerChain
 from clockplan.ppm.oscillator import OscillatorSpec
 from clockplan.ppm.parse import parse_oscillator_spec
-from clockplan.units import format_ppm, format_quantity, format_time
+from clockplan.units import format_quantity, format_time
 
 __all__ = ["DEFAULT_MARGIN", "Grade", "GradeAdvice", "load_grades", "advise_grade"]
 
@@ -42,8 +43,8 @@ class Grade:
         spec = self.spec
         band = spec.temperature
         parts = [
-            f"{self.label}: tolerance {_band_text(spec.initial)}",
-            f"stability {_band_text((band.lo, band.hi))}" if hasattr(band, "lo") else "curve",
+            f"{self.label}: tolerance {format_limits(spec.initial)}",
+            f"stability {format_limits((band.lo, band.hi))}" if hasattr(band, "lo") else "curve",
         ]
         if spec.power is not None:
             power = spec.power
@@ -56,20 +57,6 @@ class Grade:
                 parts.append(f"power {format_quantity(power.steady_w, 'W', 3)}")
             parts.append(f"warm-up {_duration_text(power.warmup_s)}")
         return ", ".join(parts)
-
-
-def _error_text(value: Fraction) -> str:
-    """ppm for small errors, percent from 0.1 % up, as datasheets write them."""
-    if abs(value) >= Fraction(1, 1000):
-        return f"{float(value) * 100:+g} %"
-    return format_ppm(value)
-
-
-def _band_text(limits: tuple[Fraction, Fraction]) -> str:
-    low, high = limits
-    if low == -high:
-        return "±" + _error_text(high).lstrip("+")
-    return f"{_error_text(low)}..{_error_text(high)}"
 
 
 def _duration_text(seconds: float) -> str:

@@ -36,14 +36,30 @@ def _cell(value: Any) -> str:
     return str(value)
 
 
-def _flatten(doc: dict[str, Any], prefix: str = "") -> dict[str, Any]:
-    """Nested tables become dotted columns (``jitter.rms_s``), as a spreadsheet wants them."""
+def _table_paths(value: Any, prefix: str = "") -> set[str]:
+    """Every key path that holds a non-empty table somewhere in ``value``."""
+    paths: set[str] = set()
+    if isinstance(value, dict):
+        for key, item in value.items():
+            if isinstance(item, dict) and item:
+                paths.add(prefix + key)
+                paths |= _table_paths(item, f"{prefix}{key}.")
+    return paths
+
+
+def _flatten(doc: dict[str, Any], tables: set[str], prefix: str = "") -> dict[str, Any]:
+    """Nested tables become dotted columns (``jitter.rms_s``), as a spreadsheet wants them.
+
+    A table that one consumer has and another lacks (null) leaves the other's
+    dotted cells empty, rather than adding a column of its own.
+    """
     flat: dict[str, Any] = {}
     for key, value in doc.items():
+        path = prefix + key
         if isinstance(value, dict) and value:
-            flat.update(_flatten(value, f"{prefix}{key}."))
-        else:
-            flat[f"{prefix}{key}"] = value
+            flat.update(_flatten(value, tables, f"{path}."))
+        elif not (path in tables and value is None):
+            flat[path] = value
     return flat
 
 
@@ -56,7 +72,9 @@ def consumer_rows(analysis: Analysis) -> tuple[list[str], list[list[str]]]:
     >>> header[:3]  # doctest: +SKIP
     ['id', 'source_chain', 'target_hz']
     """
-    consumers = [_flatten(doc) for doc in analysis_document(analysis)["consumers"]]
+    documents = analysis_document(analysis)["consumers"]
+    tables = set().union(*(_table_paths(doc) for doc in documents)) if documents else set()
+    consumers = [_flatten(doc, tables) for doc in documents]
     header: list[str] = []
     for doc in consumers:
         header += [key for key in doc if key not in header]

@@ -5,9 +5,11 @@ Three waterfalls, each in the order the signal travels:
 * **frequency** -- every stage of the exact chain (``graph.chain_to``) with
   what it does (÷R, ×N, ÷D...) and the exact frequency after it, ending with
   the target and the exact synthesis error;
-* **frequency error** -- the reference's error terms, then the synthesis error,
-  with a running worst-case range: ranges add end to end (a worst-case stack-up,
-  common practice) and the synthesis error composes as ``(1+a)(1+b)-1``;
+* **frequency error** -- the terms of the consumer's worst case as the accuracy
+  result lists them (reference terms, the synthesis error, cross terms of the
+  cascade), with a running total: numbers add, ranges add end to end (a
+  worst-case stack-up, common practice); without accuracy data, the exact
+  synthesis error alone;
 * **jitter** -- each contributor's RMS jitter with a running root-sum-square
   (uncorrelated noise sources add in power, common practice) and its share of
   the total variance.
@@ -184,23 +186,22 @@ def _ppm_range(low: Any, high: Any) -> str:
 
 
 def _accuracy_rows(consumer: ConsumerResult) -> list[WaterfallRow]:
+    """The budget result's own rows (they include the synthesis error), or the synthesis error alone."""
+    offered = contribution_rows(consumer.accuracy)
+    if not offered and consumer.synthesis_error is not None:
+        error = consumer.synthesis_error
+        stage = "synthesis: PLLs and dividers" + (f" (exact {format_exact(error)})" if error else " (exact)")
+        offered = [(stage, error)]
     rows = []
     low: Any = Fraction(0)
     high: Any = Fraction(0)
-    for stage, amount in contribution_rows(consumer.accuracy):
+    for stage, amount in offered:
         span = _as_range(amount)
         if span is None:
             rows.append(WaterfallRow(stage, str(amount), "-"))
             continue
         low, high = low + span[0], high + span[1]
         rows.append(WaterfallRow(stage, _ppm_range(*span), _ppm_range(low, high), amount=span, total=(low, high)))
-    error = consumer.synthesis_error
-    if error is not None:
-        # Cascaded stages multiply: f = f0 (1 + a)(1 + b), so the errors compose as a + b + ab.
-        low, high = low + error + low * error, high + error + high * error
-        exact = f" (exact {format_exact(error)})" if error else " (exact)"
-        rows.append(WaterfallRow("synthesis: PLLs and dividers" + exact, format_ppm(error), _ppm_range(low, high),
-                                 amount=(error, error), total=(low, high)))
     return rows
 
 

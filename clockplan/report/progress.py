@@ -1,68 +1,93 @@
-"""A progress bar for long analyses (Monte Carlo, large plans), on stderr only.
+"""A progress bar for long runs that stays out of the way of short ones.
 
-The budget stages report progress through ``AnalysisOptions.progress``, a
-callable taking the fraction done (0..1). :class:`ProgressBar` is such a
-callable: it draws nothing until the first report (a quick analysis shows no
-bar at all), draws on standard error so that piped reports and JSON on
-standard output stay clean, and only when standard error is a terminal.
+The bar appears on stderr only once a run has taken more than a moment, and
+disappears when it ends (transient), so quick runs and piped output are
+untouched. rich is imported only when the bar is actually shown.
 """
 
 from __future__ import annotations
 
-import sys
-from typing import Any, TextIO
+import time
+from collections.abc import Callable
+from typing import Any
 
-__all__ = ["ProgressBar"]
+__all__ = ["DelayedProgress"]
+
+#: Seconds a run may take before the bar is worth showing.
+DEFAULT_DELAY_S = 0.5
 
 
-class ProgressBar:
-    """A lazily started rich progress bar, used as a context manager.
+class DelayedProgress:
+    """A ``progress(fraction)`` callback that shows a transient bar after ``delay_s``.
+
+    Use it as a context manager so the bar is removed however the run ends.
 
     Parameters
     ----------
     description
-        The text before the bar.
-    stream
-        Where to draw (default: standard error).
-    enabled
-        Force on or off; by default on when ``stream`` is a terminal.
+        Text beside the bar.
+    delay_s
+        How long a run may take before the bar appears.
+    console
+        A rich console to draw on; by default one on stderr.
+    clock
+        Source of the time in seconds (for tests).
 
     Examples
     --------
-    >>> with ProgressBar("Monte Carlo") as report:  # doctest: +SKIP
-    ...     analysis = analyze(board, options=AnalysisOptions(progress=report))
+    >>> with DelayedProgress("Monte Carlo") as progress:
+    ...     progress(0.5)
+    ...     progress(1.0)
+    >>> progress.shown
+    False
     """
 
-    def __init__(self, description: str = "working", stream: TextIO | None = None, enabled: bool | None = None) -> None:
+    def __init__(
+        self,
+        description: str,
+        delay_s: float = DEFAULT_DELAY_S,
+        console: Any = None,
+        clock: Callable[[], float] = time.monotonic,
+    ) -> None:
         self.description = description
-        self.stream = stream if stream is not None else sys.stderr
-        self.enabled = enabled if enabled is not None else bool(getattr(self.stream, "isatty", lambda: False)())
-        self._progress: Any = None
+        self.delay_s = delay_s
+        self._console = console
+        self._clock = clock
+        self._start = clock()
+        self._bar: Any = None
         self._task: Any = None
-        self.last = 0.0
 
-    def __enter__(self) -> "ProgressBar":
-        return self
+    @property
+    def shown(self) -> bool:
+        """True once the bar has appeared."""
+        return self._bar is not None
 
     def __call__(self, fraction: float) -> None:
-        self.last = min(max(float(fraction), 0.0), 1.0)
-        if not self.enabled:
-            return
-        if self._progress is None:
-            self._start()
-        self._progress.update(self._task, completed=self.last * 100)
+        if self._bar is None:
+            if fraction >= 1.0 or self._clock() - self._start < self.delay_s:
+                return
+            self._open()
+        self._bar.update(self._task, completed=min(max(fraction, 0.0), 1.0))
 
-    def _start(self) -> None:
+    def _open(self) -> None:
         from rich.console import Console
         from rich.progress import BarColumn, Progress, TaskProgressColumn, TextColumn, TimeRemainingColumn
 
-        console = Console(file=self.stream, force_terminal=self.enabled or None)
-        self._progress = Progress(TextColumn("{task.description}"), BarColumn(), TaskProgressColumn(),
-                                  TimeRemainingColumn(), console=console, transient=True)
-        self._progress.start()
-        self._task = self._progress.add_task(self.description, total=100)
+        console = self._console if self._console is not None else Console(stderr=True)
+        self._bar = Progress(
+            TextColumn("{task.description}"), BarColumn(), TaskProgressColumn(), TimeRemainingColumn(),
+            console=console, transient=True,
+        )
+        self._task = self._bar.add_task(self.description, total=1.0)
+        self._bar.start()
+
+    def close(self) -> None:
+        """Remove the bar if it was shown."""
+        if self._bar is not None:
+            self._bar.stop()
+
+    def __enter__(self) -> "DelayedProgress":
+        return self
 
     def __exit__(self, *exc: object) -> None:
-        if self._progress is not None:
-            self._progress.stop()
-            self._progress = None
+        self.close()

@@ -54,14 +54,15 @@ def _styled(word: str) -> str:
     return f"[{style}]{escape(word)}[/]" if style else escape(word)
 
 
-def _grid(table: TextTable) -> "RenderableType":
+def _grid(table: TextTable, widths: list[int] | None = None) -> "RenderableType":
     from rich.markup import escape
     from rich.table import Table
 
     out = Table(title=table.title, title_justify="left", header_style="bold")
-    for column in table.columns:
+    for index, column in enumerate(table.columns):
         # Fold rather than crop: if a cell must wrap, no character is lost.
-        out.add_column(column.header, justify="right" if column.align == "right" else "left", overflow="fold")
+        out.add_column(column.header, justify="right" if column.align == "right" else "left", overflow="fold",
+                       width=widths[index] if widths else None)
     for row in table.rows:
         out.add_row(*[_styled(cell) if i == table.status_column else escape(cell) for i, cell in enumerate(row)])
     return out
@@ -79,26 +80,54 @@ def _records(table: TextTable) -> "list[RenderableType]":
     return lines
 
 
-def _unbroken_width(table: TextTable) -> int:
-    """The narrowest the grid can be without breaking a word: longest word per column, plus rules."""
-    total = 1
-    for index, column in enumerate(table.columns):
-        words = [w for text in (column.header, *(row[index] for row in table.rows)) for w in text.split()]
-        total += max((len(w) for w in words), default=1) + 3
-    return total
+def _column_texts(table: TextTable, index: int) -> list[str]:
+    return [table.columns[index].header, *(row[index] for row in table.rows)]
+
+
+def _longest_word(table: TextTable, index: int) -> int:
+    return max((len(w) for text in _column_texts(table, index) for w in text.split()), default=1)
+
+
+def _fitted_widths(table: TextTable, max_width: int) -> list[int] | None:
+    """Column widths that never break a word, or None if even that does not fit.
+
+    Each column gets its longest word; then, one row at a time (the cheapest
+    first, the header counting as a row), columns widen so the whole row fits
+    on one line, while the table still fits: as few rows as possible wrap.
+    """
+    rules = 1 + 3 * len(table.columns)  # borders and one space of padding each side
+    widths = [_longest_word(table, i) for i in range(len(table.columns))]
+    if rules + sum(widths) > max_width:
+        return None
+    pending = [tuple(len(cell) for cell in row) for row in (table.headers, *table.rows)]
+    while pending:
+        grown = [[max(w, n) for w, n in zip(widths, lengths)] for lengths in pending]
+        cheapest = min(range(len(pending)), key=lambda k: sum(grown[k]))
+        if rules + sum(grown[cheapest]) > max_width:
+            break
+        widths = grown[cheapest]
+        pending = [lengths for lengths in pending if any(n > w for w, n in zip(widths, lengths))]
+    room = max_width - rules - sum(widths)
+    for index in range(len(widths)):  # what is left shortens the wrapped cells that remain
+        longest = max((lengths[index] for lengths in pending), default=0)
+        grant = min(max(longest - widths[index], 0), room)
+        widths[index] += grant
+        room -= grant
+    return widths
 
 
 class _FittedTable:
-    """A grid where it fits without breaking words, else one block of ``header: value`` lines per row."""
+    """A grid whose words stay whole, else one block of ``header: value`` lines per row."""
 
     def __init__(self, table: TextTable) -> None:
         self.table = table
 
     def __rich_console__(self, console, options):
-        if _unbroken_width(self.table) <= options.max_width:
-            yield _grid(self.table)
-        else:
+        widths = _fitted_widths(self.table, options.max_width)
+        if widths is None:
             yield from _records(self.table)
+        else:
+            yield _grid(self.table, widths)
 
 
 def rich_table(table: TextTable) -> "RenderableType":
@@ -172,6 +201,9 @@ def render_analysis(analysis: Analysis, console: "Console", title: str = "audit"
     print_summary(summarize(analysis), console, title)
     console.print(tree_view(analysis))
     console.print(consumer_table(analysis))
+    for extra in analysis.extras.values():
+        if hasattr(extra, "rich_renderable"):
+            console.print(extra.rich_renderable())
     for renderable in (pll_table(analysis), findings_table(analysis)):
         if renderable is not None:
             console.print(renderable)

@@ -1,0 +1,346 @@
+"""The frequency-accuracy stage of the analysis pipeline: ppm budgets, yield and grade advice.
+
+For every consumer it takes the chain's reference, the exact synthesis error
+and any spread, and computes the worst case over the board's temperature
+range and lifetime (with the temperature where it happens), the statistical
+total (RSS) and the margin to the consumer's budget; with ``samples`` it
+runs the Monte Carlo yield; for every reference it finds the least demanding
+oscillator grade that keeps its consumers inside their budgets. Results go on
+``ConsumerResult.accuracy`` and into ``Analysis.extras`` (``references``,
+``monte_carlo``); problems and notes become findings (codes in
+``docs/json-output.md``).
+
+Budgets are planning estimates: the part datasheet and the governing
+standard decide.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from collections.abc import Sequence
+from fractions import Fraction
+from typing import TYPE_CHECKING
+
+from clockplan.errors import BoardError
+from clockplan.findings import Finding, Severity
+from clockplan.ppm.accuracy import AccuracyResult, ConsumerBudget, consumer_accuracy
+from clockplan.ppm.board import (
+    GRADE_RANK,
+    ConsumerLink,
+    ReferenceModel,
+    board_chains,
+    consumer_links,
+    reference_models,
+)
+from clockplan.ppm.display import format_error, format_limits
+from clockplan.ppm.grades import DEFAULT_MARGIN, Grade, advise_grade, load_grades
+from clockplan.ppm.montecarlo import ConsumerChain, monte_carlo_yield
+from clockplan.ppm.oscillator import OscillatorSpec
+from clockplan.ppm.results import (
+    BASIS_TYPICAL,
+    ConsumerAccuracy,
+    MonteCarloSummary,
+    ReferenceAdvice,
+    ReferenceAdvices,
+)
+from clockplan.ppm.temperature import StabilityBand
+
+if TYPE_CHECKING:
+    from clockplan.analysis import Analysis, AnalysisOptions
+
+__all__ = ["STAGE_NAME", "accuracy_stage"]
+
+STAGE_NAME = "accuracy"
+
+#: Stands in for a missing budget so the error can still be shown: nothing is judged against it.
+_NO_BUDGET = ConsumerBudget((Fraction(-1), Fraction(1)))
+_ROOM_C = 25.0
+_MARGIN_TEXT = f"{float(DEFAULT_MARGIN) * 100:g} %"
+
+
+def _at(celsius: float | None) -> str:
+    return "at a stability-band edge" if celsius is None else f"at {celsius:g} °C"
+
+
+def _room(spec: OscillatorSpec, link: ConsumerLink, budget: ConsumerBudget, lifetime_s: float) -> AccuracyResult | None:
+    """The same consumer at 25 °C, over the same lifetime.
+
+    ``None`` for a stability band (it says where the frequency stays over the
+    range, not where it is at 25 °C) and for a table that does not reach 25 °C.
+    """
+    if isinstance(spec.temperature, StabilityBand):
+        return None
+    try:
+        return consumer_accuracy(spec, link.synthesis_error, link.spread, (_ROOM_C, _ROOM_C), lifetime_s, budget)
+    except BoardError:
+        return None
+
+
+def _accuracy(model: ReferenceModel, link: ConsumerLink, analysis: "Analysis") -> ConsumerAccuracy:
+    board = analysis.board
+    budget = link.budget or _NO_BUDGET
+    result = consumer_accuracy(model.spec, link.synthesis_error, link.spread, board.temperature_c, board.lifetime_s, budget)
+    return ConsumerAccuracy(
+        reference=model.reference.id,
+        basis=model.basis,
+        result=result,
+        at_25c=_room(model.spec, link, budget, board.lifetime_s),
+        budget=link.budget,
+        budget_source=link.budget_source,
+        spread=link.spread,
+        temperature_range=board.temperature_c,
+        lifetime_s=board.lifetime_s,
+        required_margin=DEFAULT_MARGIN * budget.half_width,
+    )
+
+
+def _with_yields(
+    analysis: "Analysis", options: "AnalysisOptions", models: Sequence[ReferenceModel],
+    links: Sequence[ConsumerLink], accuracies: dict[str, ConsumerAccuracy],
+) -> MonteCarloSummary | None:
+    specs, chains = board_chains(models, links)
+    if options.samples <= 0 or not chains:
+        return None
+    board = analysis.board
+    progress = options.progress
+    result = monte_carlo_yield(
+        specs, chains, board.temperature_c, board.lifetime_s, samples=options.samples, seed=options.seed,
+        progress=(lambda done, total: progress(done / total)) if progress is not None else None,
+    )
+    for index, chain in enumerate(chains):
+        accuracies[chain.name] = dataclasses.replace(
+            accuracies[chain.name],
+            yield_fraction=result.yields[index],
+            yield_standard_error=result.standard_error(index),
+        )
+    return MonteCarloSummary(result.samples, result.seed, result.board_yield, len(chains))
+
+
+def _fits(result: AccuracyResult) -> bool:
+    return result.passes and result.margin >= DEFAULT_MARGIN * result.budget.half_width
+
+
+def _advice(
+    model: ReferenceModel, links: Sequence[ConsumerLink], accuracies: dict[str, ConsumerAccuracy],
+    analysis: "Analysis", grades: Sequence[Grade],
+) -> ReferenceAdvice:
+    board = analysis.board
+    ref = model.reference
+    mine = [link for link in links if link.reference == ref.id]
+    judged = [link for link in mine if link.budget is not None and link.synthesis_error is not None]
+    # A consumer that misses its margin even on a perfect reference needs a new plan, not a better oscillator.
+    ideal = OscillatorSpec(ref.kind, (Fraction(0), Fraction(0)))
+    unreachable = tuple(
+        link.id for link in judged
+        if not _fits(consumer_accuracy(ideal, link.synthesis_error, link.spread, board.temperature_c, board.lifetime_s, link.budget))
+    )
+    fixable = [
+        ConsumerChain(0, link.synthesis_error, link.budget, link.spread, name=link.id)
+        for link in judged if link.id not in unreachable
+    ]
+    advice = advise_grade(0, fixable, board.temperature_c, board.lifetime_s, grades=grades) if fixable else None
+    failing = tuple(
+        link.id for link in judged
+        if link.id not in unreachable and link.id in accuracies and not accuracies[link.id].passes
+    )
+    thin = tuple(link.id for link in judged if link.id in accuracies and accuracies[link.id].thin)
+    oven = None
+    if ref.kind == "ocxo" and model.spec is not None:
+        oven = model.spec.power or next((g.spec.power for g in grades if g.name == "ocxo"), None)
+    return ReferenceAdvice(
+        id=ref.id,
+        kind=ref.kind,
+        basis=model.basis,
+        consumers=tuple(link.id for link in mine),
+        failing=failing,
+        thin=thin,
+        advice=advice,
+        grades=tuple(grades),
+        current_rank=GRADE_RANK.get(ref.kind),
+        unreachable=unreachable,
+        oven_power=oven,
+    )
+
+
+# --------------------------------------------------------------------------- findings
+
+
+def _advice_text(advice: ReferenceAdvice) -> str:
+    if advice.advice is None or advice.advice.grade is None:
+        return f"no oscillator grade up to an OCXO keeps every consumer of {advice.id} inside its budget with margin"
+    return (
+        f"use {_grade_text(advice.advice.grade)}: it keeps every consumer of {advice.id} inside its budget "
+        f"with {_MARGIN_TEXT} margin"
+    )
+
+
+def _grade_text(grade: Grade) -> str:
+    """``a TCXO-grade label (typical tolerance ..., power ...)`` from the grade's one-line summary."""
+    figures = grade.summary().split(": ", 1)[-1]
+    return f"a {grade.label} (typical {figures})"
+
+
+def _assumed(accuracy: ConsumerAccuracy) -> str:
+    return " (typical grade figures, assumed: the board gives no accuracy data)" if accuracy.basis == BASIS_TYPICAL else ""
+
+
+def _yield_text(accuracy: ConsumerAccuracy) -> str:
+    if accuracy.yield_fraction is None:
+        return ""
+    return f"; Monte Carlo yield {accuracy.yield_fraction * 100:.2f} %"
+
+
+def _room_text(accuracy: ConsumerAccuracy) -> str:
+    room = accuracy.at_25c
+    if room is None:
+        return ""
+    verdict = "inside the budget" if room.passes else "also outside"
+    return f"; at 25 °C it is {format_error(room.worst_case)}, {verdict}"
+
+
+def _cure(link: ConsumerLink, accuracy: ConsumerAccuracy, advice: ReferenceAdvice) -> str:
+    if link.id in advice.unreachable:
+        cause = "its synthesis error" if accuracy.result.checked == "carrier" else "its synthesis error and spread"
+        return (
+            f"no reference can fix it: {cause} alone ({format_error(accuracy.result.synthesis_error)}) "
+            "leaves no margin in the budget; re-plan the chain"
+        )
+    return "fix: " + _advice_text(advice)
+
+
+def _consumer_findings(link: ConsumerLink, accuracy: ConsumerAccuracy, advice: ReferenceAdvice) -> list[Finding]:
+    r = accuracy.result
+    worst = f"worst case {format_error(r.worst_case)} {_at(r.worst_temperature_c)}{_assumed(accuracy)}"
+    if not accuracy.judged:
+        message = f"no frequency-error budget (no standard, ppm or derived budget): {worst}, shown but not judged"
+        return [Finding(Severity.INFO, "ppm-no-budget", link.id, message)]
+    budget = f"the {format_limits(link.budget.tolerance)} budget ({link.budget_source})"
+    spread = f" (the spread counts as error: {r.spread_note})" if r.spread_ok is False else ""
+    if not r.passes and not r.rss_passes:
+        message = (
+            f"{worst} breaks {budget}{spread}; statistical (RSS) {format_error(r.rss)}"
+            f"{_room_text(accuracy)}{_yield_text(accuracy)}; {_cure(link, accuracy, advice)}"
+        )
+        return [Finding(Severity.ERROR, "ppm-budget", link.id, message)]
+    if not r.passes:
+        message = (
+            f"statistical total (RSS) {format_error(r.rss)} is inside {budget}, but the {worst} breaks it{spread}: "
+            f"a board with every part at its limit fails{_yield_text(accuracy)}; {_cure(link, accuracy, advice)}"
+        )
+        return [Finding(Severity.WARNING, "ppm-worst-case", link.id, message)]
+    if accuracy.thin:
+        message = (
+            f"{worst} is inside {budget} with only {format_error(r.margin)} to spare "
+            f"(less than {_MARGIN_TEXT} of the budget); {_cure(link, accuracy, advice)}"
+        )
+        return [Finding(Severity.WARNING, "ppm-margin", link.id, message)]
+    return []
+
+
+def _reference_findings(model: ReferenceModel, advice: ReferenceAdvice, links: Sequence[ConsumerLink]) -> list[Finding]:
+    ref = model.reference
+    findings = []
+    datasheet_keys = "give tolerance, stability or temperature_curve, and aging from the part's datasheet"
+    judged = any(link.budget is not None for link in links if link.reference == ref.id)
+    if model.basis == BASIS_TYPICAL and judged:
+        message = (
+            f"no accuracy data in the board file: assuming {_grade_text(model.grade)}, not datasheet data; "
+            f"{datasheet_keys}"
+        )
+        findings.append(Finding(Severity.INFO, "ppm-assumed", ref.id, message))
+    elif model.spec is None:
+        message = (
+            f"no accuracy data for reference {ref.id} (and no typical grade for kind '{ref.kind}'): the frequency "
+            f"error of {', '.join(advice.consumers) or 'its consumers'} is not checked; {datasheet_keys}"
+        )
+        findings.append(Finding(Severity.INFO, "ppm-no-data", ref.id, message))
+    if advice.oven_power is not None:
+        power = advice.oven_power
+        message = (
+            f"oven-controlled oscillator: it runs hot and draws {float(power.warmup_w):g} W while warming "
+            f"({power.warmup_s / 60:g} min before it is in tolerance) and {float(power.steady_w):g} W at temperature; "
+            "count its power and heat in the board's budget"
+        )
+        if advice.verdict == "over-specified":
+            message += (
+                f". The ppm budgets downstream need only {_grade_text(advice.advice.grade)}; "
+                "if the oven is there for phase noise, the jitter budget decides"
+            )
+        findings.append(Finding(Severity.WARNING, "ppm-oven", ref.id, message))
+    return findings
+
+
+def _skipped(link: ConsumerLink) -> Finding:
+    return Finding(
+        Severity.INFO, "ppm-skipped", link.id,
+        "frequency error not computed: a setting upstream is missing (give it, or run plan)",
+    )
+
+
+def _spread_note(link: ConsumerLink) -> Finding:
+    return Finding(
+        Severity.INFO, "ppm-spread", link.id,
+        f"more than one spreading output on its chain ({', '.join(link.extra_spreads)} further up): "
+        "only the one nearest to the consumer is modelled",
+    )
+
+
+# --------------------------------------------------------------------------- the stage
+
+
+def accuracy_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysis":
+    """Frequency-error budgets, Monte Carlo yield and reference grade advice for a board.
+
+    Parameters
+    ----------
+    analysis
+        The exact audit's result (frequencies and synthesis errors known).
+    options
+        ``samples`` > 0 runs the Monte Carlo with ``seed``; ``progress(fraction)``
+        is called after each chunk of simulated boards.
+
+    Returns
+    -------
+    Analysis
+        A copy with ``accuracy`` on each consumer whose reference has figures,
+        ``extras["references"]`` (:class:`ReferenceAdvices`), ``extras["monte_carlo"]``
+        when sampled, and the findings.
+
+    Examples
+    --------
+    >>> from clockplan.analysis import analyze  # doctest: +SKIP
+    >>> from clockplan.boardfile import load_board  # doctest: +SKIP
+    >>> analysis = analyze(load_board("boards/ring-vs-crystal.toml"))  # doctest: +SKIP
+    >>> analysis.consumer("uart_ring").accuracy.passes  # doctest: +SKIP
+    False
+    """
+    grades = load_grades()
+    models = reference_models(analysis.board, grades)
+    by_id = {m.reference.id: m for m in models}
+    links = consumer_links(analysis)
+    findings: list[Finding] = []
+    accuracies: dict[str, ConsumerAccuracy] = {}
+    for link in links:
+        if link.extra_spreads:
+            findings.append(_spread_note(link))
+        if by_id[link.reference].spec is None:
+            continue
+        if link.synthesis_error is None:
+            if link.budget is not None:
+                findings.append(_skipped(link))
+            continue
+        accuracies[link.id] = _accuracy(by_id[link.reference], link, analysis)
+    summary = _with_yields(analysis, options, models, links, accuracies)
+    advices = {m.reference.id: _advice(m, links, accuracies, analysis, grades) for m in models}
+    for link in links:
+        if link.id in accuracies:
+            findings += _consumer_findings(link, accuracies[link.id], advices[link.reference])
+    for model in models:
+        findings += _reference_findings(model, advices[model.reference.id], links)
+    consumers = tuple(
+        dataclasses.replace(c, accuracy=accuracies[c.id]) if c.id in accuracies else c for c in analysis.consumers
+    )
+    extras = {**analysis.extras, "references": ReferenceAdvices(tuple(advices.values()))}
+    if summary is not None:
+        extras["monte_carlo"] = summary
+    return dataclasses.replace(analysis, consumers=consumers, extras=extras).with_findings(findings)
