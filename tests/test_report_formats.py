@@ -144,10 +144,10 @@ def test_markdown_tables_have_a_consistent_structure(analysis):
 
 def test_markdown_has_the_tree_in_a_code_block(analysis):
     tokens = MarkdownIt("commonmark").enable("table").parse(render_markdown(analysis))
-    fences = [t for t in tokens if t.type == "fence"]
-    assert fences and fences[0].info == "text"
+    (tree,) = [t for t in tokens if t.type == "fence" and t.content.startswith(analysis.board.name + "\n")]
+    assert tree.info == "text"
     for consumer in analysis.consumers:
-        assert consumer.id in fences[0].content
+        assert consumer.id in tree.content
 
 
 @pytest.mark.parametrize(
@@ -339,3 +339,27 @@ def test_a_failing_graphviz_leaves_the_html_tree(monkeypatch):
     monkeypatch.setattr("clockplan.report.dot.render_svg", broken)
     page = build_html(analyze(load_board(BOARDS[0])))
     assert '<ul class="tree">' in page and "<svg" not in page
+
+
+def test_board_wide_sections_of_the_budget_stages_reach_every_format():
+    class Advice:  # only a terminal view, as a stage may first offer
+        def rich_renderable(self):
+            from rich.text import Text
+
+            return Text("Reference advice: ref_main fits")
+
+    class Yields:  # a plain table for every format
+        def report_table(self):
+            return "Yield", ("consumer", "inside budget"), [("phy0", "99.5 %")]
+
+    from dataclasses import replace
+
+    analysis = analyze(load_board(BOARDS[0]))
+    analysis = replace(analysis, extras={"advice": Advice(), "yields": Yields()})
+    markdown = render_markdown(analysis)
+    assert "```text\nReference advice: ref_main fits\n```" in markdown
+    assert ["consumer", "inside budget"] in [t[0] for t in markdown_tables(markdown)]
+    page = render_html(analysis)
+    assert "Reference advice: ref_main fits</pre>" in page and "<h2>Yield</h2>" in page
+    text = render_report(analysis, "table", width=100)
+    assert "Reference advice: ref_main fits" in text and "99.5 %" in text

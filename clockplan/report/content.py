@@ -47,6 +47,8 @@ __all__ = [
     "clock_tree",
     "tree_text",
     "summarize",
+    "ExtraSection",
+    "extra_sections",
 ]
 
 #: The words a status can be; reports may colour them but never replace them.
@@ -409,3 +411,39 @@ def summarize(analysis: Analysis) -> Summary:
         warnings=warnings,
         consumers=len(analysis.consumers),
     )
+
+
+@dataclass(frozen=True)
+class ExtraSection:
+    """A board-wide section a budget stage adds (``Analysis.extras``): a table, or preformatted text."""
+
+    table: TextTable | None = None
+    text: str | None = None
+
+
+def _rendered_text(renderable: Any, width: int) -> str:
+    import io
+
+    from rich.console import Console
+
+    buffer = io.StringIO()
+    Console(file=buffer, width=width, no_color=True, force_terminal=False, highlight=False).print(renderable)
+    return "\n".join(line.rstrip() for line in buffer.getvalue().rstrip().splitlines())
+
+
+def extra_sections(analysis: Analysis, width: int = 100) -> list[ExtraSection]:
+    """The sections the budget stages put in ``Analysis.extras``, for the Markdown and HTML reports.
+
+    An extra offering ``report_table() -> (title, headers, rows)`` becomes a
+    table; one offering only ``rich_renderable()`` (its terminal view) is kept
+    as preformatted text, so nothing a stage reports is left out.
+    """
+    sections = []
+    for extra in analysis.extras.values():
+        if callable(getattr(extra, "report_table", None)):
+            title, headers, rows = extra.report_table()
+            columns = tuple(Column(str(h)) for h in headers)
+            sections.append(ExtraSection(table=TextTable(str(title), columns, tuple(tuple(map(str, r)) for r in rows))))
+        elif callable(getattr(extra, "rich_renderable", None)):
+            sections.append(ExtraSection(text=_rendered_text(extra.rich_renderable(), width)))
+    return sections

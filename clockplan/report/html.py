@@ -22,6 +22,7 @@ from clockplan.report.content import (
     TreeNode,
     clock_tree,
     consumers_table,
+    extra_sections,
     findings_table,
     settings_table,
     summarize,
@@ -67,6 +68,8 @@ ul.tree .badge { font-weight: 700; padding: 0 .35rem; border-radius: .2rem; }
 ul.tree .badge.PASS { color: var(--pass); background: var(--pass-bg); }
 ul.tree .badge.warn { color: var(--warn); background: var(--warn-bg); }
 ul.tree .badge.FAIL { color: var(--fail); background: var(--fail-bg); }
+pre.extra { font-family: ui-monospace, "SFMono-Regular", Menlo, Consolas, monospace; font-size: .82rem;
+            background: #f6f8fa; border: 1px solid var(--line); border-radius: .3rem; padding: .6rem; overflow-x: auto; }
 figure { margin: 1rem 0; }
 figure img { max-width: 100%; border: 1px solid var(--line); border-radius: .3rem; }
 figcaption, .note { color: var(--muted); font-size: .9rem; }
@@ -166,8 +169,13 @@ def render_html(analysis: Analysis, title: str = "audit", svg: str | None = None
     else:
         tree = (html_tree(clock_tree(analysis)) + '<p class="note">Install Graphviz (the <code>dot</code> program) '
                 "to draw this tree as a diagram.</p>")
-    tables = [t for t in (consumers_table(analysis), settings_table(analysis), findings_table(analysis)) if t]
-    sections = "".join(f"<h2>{escape(t.title)}</h2>{html_table(t)}" for t in tables)
+    sections = f"<h2>Consumers</h2>{html_table(consumers_table(analysis))}"
+    for extra in extra_sections(analysis):
+        sections += (f"<h2>{escape(extra.table.title)}</h2>{html_table(extra.table)}" if extra.table
+                     else f'<pre class="extra">{escape(extra.text or "")}</pre>')
+    for table in (settings_table(analysis), findings_table(analysis)):
+        if table is not None:
+            sections += f"<h2>{escape(table.title)}</h2>{html_table(table)}"
     return (
         '<!DOCTYPE html>\n<html lang="en"><head><meta charset="utf-8">'
         '<meta name="viewport" content="width=device-width, initial-scale=1">'

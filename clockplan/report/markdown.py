@@ -15,6 +15,7 @@ from clockplan.report.content import (
     Summary,
     TextTable,
     consumers_table,
+    extra_sections,
     findings_table,
     settings_table,
     summarize,
@@ -80,6 +81,8 @@ def render_markdown(analysis: Analysis, title: str = "audit") -> str:
     '# clockplan audit: Industrial gateway'
     """
     parts = [markdown_summary(summarize(analysis), title), markdown_table(consumers_table(analysis))]
+    for section in extra_sections(analysis):
+        parts.append(markdown_table(section.table) if section.table else f"```text\n{section.text}\n```\n")
     for table in (settings_table(analysis), findings_table(analysis)):
         if table is not None:
             parts.append(markdown_table(table))

@@ -12,7 +12,7 @@ from typing import TYPE_CHECKING
 
 from clockplan.analysis import CAVEAT, Analysis
 from clockplan.report import content
-from clockplan.report.content import Summary, TextTable, clock_tree, consumers_table, settings_table, summarize
+from clockplan.report.content import Column, Summary, TextTable, clock_tree, consumers_table, settings_table, summarize
 
 if TYPE_CHECKING:
     from rich.console import Console, RenderableType
@@ -204,6 +204,10 @@ def render_analysis(analysis: Analysis, console: "Console", title: str = "audit"
     for extra in analysis.extras.values():
         if hasattr(extra, "rich_renderable"):
             console.print(extra.rich_renderable())
+        elif hasattr(extra, "report_table"):
+            title, headers, rows = extra.report_table()
+            columns = tuple(Column(str(h)) for h in headers)
+            console.print(rich_table(TextTable(str(title), columns, tuple(tuple(map(str, r)) for r in rows))))
     for renderable in (pll_table(analysis), findings_table(analysis)):
         if renderable is not None:
             console.print(renderable)
