@@ -148,3 +148,8 @@ def test_no_value_is_cut_at_any_width(width, capsys, exact_only):
             assert any(cell in line for line in lines), (header, cell)
         for word in " ".join(row).split():
             assert word in out, word
+
+
+def test_summary_names_the_failing_consumers_and_why():
+    analysis = exact_audit("boards/video-converter.toml")
+    assert summarize(analysis).facts[-1] == ("failing", "audio_codec (frequency)")

@@ -131,6 +131,7 @@ class Summary:
     references: tuple[str, ...]
     conditions: str
     margins: tuple[Margin, ...]
+    failing: tuple[str, ...]
     verdict: str
     errors: int
     warnings: int
@@ -144,7 +145,10 @@ class Summary:
     @property
     def facts(self) -> tuple[tuple[str, str], ...]:
         """The summary's ``(label, text)`` lines after the title (which names the board and its file)."""
-        return (("references", "; ".join(self.references)), ("conditions", self.conditions))
+        facts = [("references", "; ".join(self.references)), ("conditions", self.conditions)]
+        if self.failing:
+            facts.append(("failing", "; ".join(self.failing)))
+        return tuple(facts)
 
     @property
     def margin_lines(self) -> tuple[str, ...]:
@@ -400,12 +404,19 @@ def summarize(analysis: Analysis) -> Summary:
     errors = sum(f.severity is Severity.ERROR for f in analysis.findings)
     warnings = sum(f.severity is Severity.WARNING for f in analysis.findings)
     references = tuple(f"{r.id} {format_frequency(r.frequency)} ({r.kind})" for r in analysis.board.references)
+    failing = []
+    for result in analysis.consumers:
+        if consumer_status(analysis, result.id) == "FAIL":
+            nodes = {result.id, *result.chain}
+            codes = sorted({f.code for f in analysis.findings if f.node in nodes and f.severity is Severity.ERROR})
+            failing.append(f"{result.id} ({', '.join(codes)})")
     return Summary(
         board=analysis.board.name,
         file=analysis.board.source_file,
         references=references,
         conditions=_conditions(analysis),
         margins=tuple(worst_margins(analysis)),
+        failing=tuple(failing),
         verdict="FAIL" if errors else "PASS",
         errors=errors,
         warnings=warnings,
@@ -426,7 +437,12 @@ def _rendered_text(renderable: Any, width: int) -> str:
 
     from rich.console import Console
 
-    buffer = io.StringIO()
+    class _AsciiBoxes(io.StringIO):
+        # rich draws tables with ASCII rules for a non-UTF-8 stream; heavy box glyphs are missing
+        # from many monospace fonts and break up in a browser or a code-hosting site.
+        encoding = "ascii"
+
+    buffer = _AsciiBoxes()
     Console(file=buffer, width=width, no_color=True, force_terminal=False, highlight=False).print(renderable)
     return "\n".join(line.rstrip() for line in buffer.getvalue().rstrip().splitlines())
 
