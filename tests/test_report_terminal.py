@@ -153,3 +153,17 @@ def test_no_value_is_cut_at_any_width(width, capsys, exact_only):
 def test_summary_names_the_failing_consumers_and_why():
     analysis = exact_audit("boards/video-converter.toml")
     assert summarize(analysis).facts[-1] == ("failing", "audio_codec (frequency)")
+
+
+def test_a_warning_upstream_stays_on_its_part():
+    # An upstream warning (the oven's power note) does not make every consumer 'warn'; errors do fail them.
+    from clockplan.findings import Finding, Severity
+    from clockplan.report.content import consumer_status, status_codes
+
+    analysis = exact_audit("boards/sampling-receiver.toml")
+    warned = analysis.with_findings([Finding(Severity.WARNING, "note", "ocxo_10m", "upstream note")])
+    assert consumer_status(warned, "link_ref") == "PASS"
+    failed = analysis.with_findings([Finding(Severity.ERROR, "vco-range", "cleaner", "cannot lock")])
+    assert consumer_status(failed, "link_ref") == "FAIL" and status_codes(failed, "link_ref") == ["vco-range"]
+    own = analysis.with_findings([Finding(Severity.WARNING, "thin", "link_ref", "little margin")])
+    assert consumer_status(own, "link_ref") == "warn"

@@ -24,7 +24,7 @@ from fractions import Fraction
 from typing import Any
 
 from clockplan.analysis import Analysis, ConsumerResult
-from clockplan.findings import Severity
+from clockplan.findings import Finding, Severity
 from clockplan.units import format_exact, format_frequency, format_ppm
 
 __all__ = [
@@ -37,6 +37,7 @@ __all__ = [
     "NO_MARGINS",
     "status_of",
     "consumer_status",
+    "status_codes",
     "format_tolerance",
     "consumer_margins",
     "worst_margins",
@@ -166,17 +167,30 @@ def status_of(analysis: Analysis, node: str) -> str:
     return "warn" if Severity.WARNING in severities else "PASS"
 
 
+def _status_findings(analysis: Analysis, consumer_id: str) -> list[Finding]:
+    """The findings that set a consumer's status: errors on it or on any part of its chain
+    (a PLL that cannot run fails its consumers), warnings on the consumer itself."""
+    chain = set(analysis.consumer(consumer_id).chain)
+    return [f for f in analysis.findings
+            if (f.node == consumer_id and f.severity is not Severity.INFO)
+            or (f.node in chain and f.severity is Severity.ERROR)]
+
+
 def consumer_status(analysis: Analysis, consumer_id: str) -> str:
-    """A consumer's status counting its whole chain: a PLL that cannot run fails its consumers too.
+    """``FAIL`` for an error on the consumer or its chain, ``warn`` for a warning on it, else ``PASS``.
 
     The JSON ``status`` key is the consumer's own findings only (the contract);
     ``chain_status`` and every human report use this one.
     """
-    nodes = {consumer_id, *analysis.consumer(consumer_id).chain}
-    severities = {f.severity for f in analysis.findings if f.node in nodes}
+    severities = {f.severity for f in _status_findings(analysis, consumer_id)}
     if Severity.ERROR in severities:
         return "FAIL"
     return "warn" if Severity.WARNING in severities else "PASS"
+
+
+def status_codes(analysis: Analysis, consumer_id: str) -> list[str]:
+    """The codes of the findings behind a consumer's status, e.g. ``['ppm-budget', 'vco-range']``."""
+    return sorted({f.code for f in _status_findings(analysis, consumer_id)})
 
 
 def format_tolerance(fraction: Fraction | float) -> str:
@@ -404,12 +418,8 @@ def summarize(analysis: Analysis) -> Summary:
     errors = sum(f.severity is Severity.ERROR for f in analysis.findings)
     warnings = sum(f.severity is Severity.WARNING for f in analysis.findings)
     references = tuple(f"{r.id} {format_frequency(r.frequency)} ({r.kind})" for r in analysis.board.references)
-    failing = []
-    for result in analysis.consumers:
-        if consumer_status(analysis, result.id) == "FAIL":
-            nodes = {result.id, *result.chain}
-            codes = sorted({f.code for f in analysis.findings if f.node in nodes and f.severity is Severity.ERROR})
-            failing.append(f"{result.id} ({', '.join(codes)})")
+    failing = [f"{r.id} ({', '.join(status_codes(analysis, r.id))})" for r in analysis.consumers
+               if consumer_status(analysis, r.id) == "FAIL"]
     return Summary(
         board=analysis.board.name,
         file=analysis.board.source_file,

@@ -15,7 +15,7 @@ import subprocess
 from clockplan.analysis import Analysis
 from clockplan.errors import ClockplanError
 from clockplan.findings import Severity
-from clockplan.report.content import consumer_status, status_of
+from clockplan.report.content import consumer_status, status_codes, status_of
 from clockplan.units import format_exact, format_frequency
 
 __all__ = ["INSTALL_HINT", "dot_quote", "render_dot", "dot_available", "render_svg"]
@@ -113,7 +113,8 @@ def render_dot(analysis: Analysis) -> str:
         if status in _STATUS_COLOUR:
             colour, fill = _STATUS_COLOUR[status]
             extra.update(color=colour, penwidth=2.5, fontcolor=colour)
-            codes = sorted({f.code for f in analysis.findings if f.node == node and f.severity is not Severity.INFO})
+            codes = (status_codes(analysis, node) if role == "consumer" else
+                     sorted({f.code for f in analysis.findings if f.node == node and f.severity is not Severity.INFO}))
             lines.append(f"{status} ({', '.join(codes)})")
         elif role == "consumer":
             lines.append(status)
