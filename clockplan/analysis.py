@@ -110,6 +110,16 @@ def _accuracy_stage(analysis: Analysis, options: AnalysisOptions) -> Analysis:
 STAGES: list[Stage] = [_accuracy_stage]
 
 
+def _jitter_stage(analysis: Analysis, options: AnalysisOptions) -> Analysis:
+    # Imported on first use: the jitter model needs numpy.
+    from clockplan.jitter.stage import jitter_stage
+
+    return jitter_stage(analysis, options)
+
+
+STAGES.append(_jitter_stage)
+
+
 def _consumer_results(board: Board, graph: "nx.DiGraph", freqs: Frequencies) -> tuple[ConsumerResult, ...]:
     results = []
     for consumer in board.consumers:

@@ -514,8 +514,67 @@ def parse_board(text: str, file: str | None = None) -> Board:
 
 
 def _finished(reader: TableReader, part: T) -> T:
+    part = _with_noise_keys(reader, part)
     reader.finish()
     return part
+
+
+# --------------------------------------------------------------------------- noise keys
+# The jitter model's keys on any part kind (docs/jitter.md, docs/loop-filter.md).
+# Their readers need numpy, so they are imported only when a board uses them.
+
+_NOISE_KEYS: dict[type, tuple[str, ...]] = {
+    Reference: ("phase_noise",),
+    Pll: ("loop", "noise", "loop_filter"),
+    Divider: ("additive_noise",),
+    Buffer: ("additive_jitter", "additive_jitter_band"),
+}
+
+
+def _read_located(reader: TableReader, name: str, parse: Callable[[Any, str], T]) -> T | None:
+    """Parse optional key ``name`` with a reader that takes the key path; locate its errors in the file."""
+    return _located(reader, lambda: reader.get(name, lambda value: parse(value, reader.path(name)), None))
+
+
+def _with_noise_keys(reader: TableReader, part: T) -> T:
+    """``part`` with its phase-noise, loop, loop-filter and additive-noise keys read."""
+    keys = _NOISE_KEYS.get(type(part), ())
+    if not any(reader.has(name) for name in keys):
+        return part
+    from clockplan.jitter import parse as noise
+
+    if isinstance(part, Reference):
+        return dataclasses.replace(part, phase_noise=_read_located(reader, "phase_noise", noise.parse_phase_noise))
+    if isinstance(part, Pll):
+        return _with_pll_noise(reader, part)
+    if isinstance(part, Divider):
+        return dataclasses.replace(part, additive_noise=_read_located(reader, "additive_noise", noise.parse_additive_noise))
+    band = reader.raw("additive_jitter_band")
+    if band is not None and not reader.has("additive_jitter"):
+        raise reader.error("additive_jitter_band", "a band without additive_jitter", 'add additive_jitter = "90 fs", or remove the band')
+
+    def additive(value: Any, key: str) -> Any:
+        return noise.parse_additive_jitter(value, key, band, reader.path("additive_jitter_band"))
+
+    return dataclasses.replace(part, additive_jitter=_read_located(reader, "additive_jitter", additive))
+
+
+def _with_pll_noise(reader: TableReader, pll: Pll) -> Pll:
+    from clockplan.jitter.parse import parse_loop, parse_pll_noise
+    from clockplan.loopfilter.board import parse_loop_filter
+
+    if reader.has("loop") and reader.has("loop_filter"):
+        raise reader.error(
+            "loop_filter",
+            "give either loop or loop_filter, not both",
+            "a loop_filter's own transfer function replaces the bandwidth-and-damping loop: remove loop",
+        )
+    return dataclasses.replace(
+        pll,
+        loop=_read_located(reader, "loop", parse_loop),
+        noise=_read_located(reader, "noise", parse_pll_noise),
+        loop_filter=_read_located(reader, "loop_filter", parse_loop_filter),
+    )
 
 
 def _line_from_message(message: str) -> int | None:

@@ -102,6 +102,7 @@ def _build_parser() -> argparse.ArgumentParser:
     standards.add_argument("--width", type=int, default=None, help="terminal width for the tables")
     standards.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
     standards.set_defaults(run=_run_standards)
+    _add_loop_command(commands)
     _add_report_commands(commands)
     return parser
 
@@ -305,6 +306,45 @@ def _run_standards(args: argparse.Namespace) -> int:
     from clockplan.standards.render import standards_view
 
     _console(args).print(standards_view(args.key))
+    return EXIT_OK
+
+
+# --------------------------------------------------------------------------- loop filters
+
+
+def _add_loop_command(commands) -> None:
+    loop = commands.add_parser(
+        "loop",
+        help="design or check a PLL's loop filter: parts, margins, closed-loop response",
+        description="Design the passive loop filter of PLL from its [pll.loop_filter] table (or analyse the "
+        "parts it gives) at the N and PFD frequency of the board's settings; print the parts, the margins, "
+        "the closed-loop response and the jitter of the clocks the PLL feeds (docs/loop-filter.md).",
+        epilog=_EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    loop.add_argument("board", help="board file (TOML)")
+    loop.add_argument("pll", help="the PLL's id")
+    loop.add_argument("--json", action="store_true", help="write the filter as a JSON document to stdout")
+    loop.add_argument("--width", type=int, default=None, help="terminal width for the tables")
+    loop.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
+    loop.set_defaults(run=_run_loop)
+
+
+def _run_loop(args: argparse.Namespace) -> int:
+    from clockplan.analysis import analyze
+    from clockplan.boardfile import load_board
+    from clockplan.loopfilter.onboard import board_loop_filter, loop_document, loop_view
+
+    analysis = analyze(load_board(args.board))
+    result = board_loop_filter(analysis, args.pll)
+    if args.json:
+        from clockplan.report.json import dumps
+
+        sys.stdout.write(dumps(loop_document(analysis, args.pll, result)))
+    else:
+        console = _console(args)
+        console.print(f"[bold]clockplan loop[/]: {args.pll} on {analysis.board.name} ({args.board})")
+        console.print(loop_view(analysis, args.pll, result))
     return EXIT_OK
 
 

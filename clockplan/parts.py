@@ -155,7 +155,9 @@ class Pll:
 
     ``n`` is the allowed range of the feedback ratio. In ``"integer"`` mode N
     must be whole; in ``"fractional"`` mode its fractional part must satisfy
-    ``denominator``.
+    ``denominator``. ``loop`` (a loop response), ``noise`` (the PLL's own noise
+    figures) and ``loop_filter`` (a passive filter to design or analyse) feed
+    the jitter model; see docs/jitter.md and docs/loop-filter.md.
     """
 
     id: str
@@ -171,6 +173,7 @@ class Pll:
     input_range: FrequencyRange | None = None
     loop: Any = None
     noise: Any = None
+    loop_filter: Any = None
 
     def output(self, name: str) -> PllOutput:
         """Return the output called ``name``."""
@@ -200,12 +203,16 @@ class Divider:
 
 @dataclass(frozen=True)
 class Buffer:
-    """A fanout buffer: copies its input to up to ``outputs`` loads."""
+    """A fanout buffer: copies its input to up to ``outputs`` loads.
+
+    ``additive_jitter`` is the buffer's additive RMS jitter and the band it is
+    specified over (a ``clockplan.jitter.parse.AdditiveJitter``), or None.
+    """
 
     id: str
     input: str
     outputs: int
-    additive_jitter: float | None = None
+    additive_jitter: Any = None
 
 
 @dataclass(frozen=True)

@@ -16,6 +16,9 @@ MODULES = [
     "clockplan.jitter.converter",
     "clockplan.jitter.result",
     "clockplan.jitter.parse",
+    "clockplan.jitter.tree",
+    "clockplan.jitter.consumer",
+    "clockplan.jitter.stage",
 ]
 
 

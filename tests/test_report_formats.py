@@ -284,12 +284,16 @@ def test_fail_on_sets_the_exit_status(board, fail_on, status, capsys, monkeypatc
     assert main(["audit", board, "--format", "json", "--fail-on", fail_on]) == status
 
 
-def test_fail_on_warning_counts_warnings(capsys):
-    board = "boards/sampling-receiver.toml"
-    severities = {f.severity.value for f in analyze(load_board(board)).findings}
-    assert "warning" in severities and "error" not in severities  # the board this test needs
-    assert main(["audit", board, "--json", "--fail-on", "warning"]) == 1
-    assert main(["audit", board, "--json", "--fail-on", "error"]) == 0
+def test_fail_on_warning_counts_warnings(capsys, monkeypatch):
+    from clockplan.findings import Finding, Severity
+
+    from .test_report_terminal import exact_audit
+
+    clean = exact_audit("boards/industrial-gateway.toml")  # the exact audit of this board has no error
+    warned = clean.with_findings([Finding(Severity.WARNING, "test", "phy0", "a warning")])
+    monkeypatch.setattr("clockplan.cli._analyze_with_progress", lambda *a, **k: warned)
+    assert main(["audit", "boards/industrial-gateway.toml", "--json", "--fail-on", "warning"]) == 1
+    assert main(["audit", "boards/industrial-gateway.toml", "--json", "--fail-on", "error"]) == 0
 
 
 # --------------------------------------------------------------------------- upstream problems

@@ -9,7 +9,7 @@ Everything here is a planning estimate: the part datasheets and the governing
 standard decide.
 """
 
-from clockplan.jitter.chain import NoiseChain, add_buffer, combine, divide, log_grid, pll, source_chain
+from clockplan.jitter.chain import NoiseChain, add_buffer, add_noise, combine, divide, log_grid, pll, source_chain
 from clockplan.jitter.converter import jitter_limited_snr_db, max_jitter_for_snr
 from clockplan.jitter.integrate import integrated_power, profile_jitter, rms_jitter, rms_phase
 from clockplan.jitter.loop import LoopResponse, loop_from_open_loop, second_order_loop
@@ -32,6 +32,7 @@ __all__ = [
     "divide",
     "pll",
     "add_buffer",
+    "add_noise",
     "combine",
     "log_grid",
     "jitter_limited_snr_db",

@@ -19,6 +19,8 @@ Every operation returns a new chain:
   low-passed by ``|H|**2``;
 - :func:`add_buffer` -- a fanout buffer's additive jitter, adding in
   root-sum-square;
+- :func:`add_noise` -- any other independent noise already referred to this
+  clock (e.g. a loop filter's resistor noise at the VCO);
 - :func:`combine` -- add independent chains of the same clock.
 
 Between grid points each contributor is read as a power law, the same rule as
@@ -51,6 +53,7 @@ __all__ = [
     "pll_floor_dbc_hz",
     "modulator_density",
     "add_buffer",
+    "add_noise",
     "combine",
 ]
 
@@ -442,6 +445,36 @@ def add_buffer(
     phase_variance = (2.0 * math.pi * chain.carrier_hz * seconds) ** 2
     density = np.full(chain.offsets_hz.size, phase_variance / (2.0 * (high - low)))
     return _with_contributor(chain, name, density)
+
+
+def add_noise(chain: NoiseChain, name: str, density: object) -> NoiseChain:
+    """Add an independent noise, given as linear L(f) on the chain's offset grid.
+
+    Parameters
+    ----------
+    chain
+        The clock's noise so far.
+    name
+        The new contributor's name (an existing one of that name grows by it).
+    density
+        Linear single-sideband density (a ratio per Hz, not dBc) at each of
+        ``chain.offsets_hz``, zero or above.
+
+    Examples
+    --------
+    >>> grid = log_grid(1e3, 1e6, 5)
+    >>> chain = source_chain("ref", PhaseNoiseProfile.flat(-150), 1e8, grid)
+    >>> round(float(add_noise(chain, "extra", np.full(grid.size, 1e-15)).total_dbc()[0]), 2)
+    -146.99
+    """
+    values = np.asarray(density, dtype=float)
+    if values.shape != chain.offsets_hz.shape or not np.all(np.isfinite(values)) or np.any(values < 0):
+        raise ClockplanError(
+            f"noise {name!r} must be {chain.offsets_hz.size} finite densities of zero or above",
+            key="density",
+            hint="give the linear L(f) at each offset of the chain's grid",
+        )
+    return _with_contributor(chain, name, values)
 
 
 def combine(*chains: NoiseChain) -> NoiseChain:

@@ -58,12 +58,18 @@ class JitterBudget:
 
 @dataclass(frozen=True)
 class PllNoise:
-    """A PLL's own noise: in-band figure of merit, flicker figure, VCO, modulator."""
+    """A PLL's own noise: in-band figure of merit, flicker figure, VCO, modulator, output floor.
+
+    ``output_floor_dbc_hz`` is the additive white floor of each output divider
+    and driver, referred to that output (datasheets quote it as the output's
+    far-out noise floor).
+    """
 
     fom_dbc_hz: float | None = None
     flicker_fom_dbc_hz: float | None = None
     vco: PhaseNoiseProfile | None = None
     modulator_order: int | None = None
+    output_floor_dbc_hz: float | None = None
 
 
 def _read(parser: Callable[[object], T], value: object, key: str) -> T:
@@ -227,19 +233,26 @@ def parse_loop(value: object, key: str) -> LoopResponse:
         raise BoardError(err.message, key=f"{key}.{sub}" if sub else key, hint=err.hint) from None
 
 
+_PLL_NOISE_KEYS = ("fom", "flicker_fom", "vco_phase_noise", "modulator_order", "output_floor")
+
+
 def parse_pll_noise(value: object, key: str) -> PllNoise:
-    """Read a PLL's noise table: ``fom``, ``flicker_fom``, ``vco_phase_noise``, ``modulator_order``.
+    """Read a PLL's noise table.
+
+    Keys: ``fom``, ``flicker_fom``, ``vco_phase_noise``, ``modulator_order``,
+    ``output_floor``.
 
     Examples
     --------
     >>> parse_pll_noise({"fom": "-226 dBc/Hz", "modulator_order": 3}, "pll[0].noise").fom_dbc_hz
     -226.0
     """
-    table = _check_table(
-        value, key, ("fom", "flicker_fom", "vco_phase_noise", "modulator_order"), 'fom = "-226 dBc/Hz"'
-    )
-    fom = None if "fom" not in table else _read(parse_dbc, table["fom"], f"{key}.fom")
-    flicker = None if "flicker_fom" not in table else _read(parse_dbc, table["flicker_fom"], f"{key}.flicker_fom")
+    table = _check_table(value, key, _PLL_NOISE_KEYS, 'fom = "-226 dBc/Hz"')
+
+    def level(name: str) -> float | None:
+        return None if name not in table else _read(parse_dbc, table[name], f"{key}.{name}")
+
+    fom, flicker = level("fom"), level("flicker_fom")
     vco = None if "vco_phase_noise" not in table else parse_phase_noise(table["vco_phase_noise"], f"{key}.vco_phase_noise")
     order = table.get("modulator_order")
     if order is not None and (isinstance(order, bool) or not isinstance(order, int) or not 1 <= order <= 6):
@@ -248,7 +261,7 @@ def parse_pll_noise(value: object, key: str) -> PllNoise:
             key=f"{key}.modulator_order",
             hint="a fractional-N modulator's order is usually 2, 3 or 4; leave it out for integer-N",
         )
-    return PllNoise(fom, flicker, vco, order)
+    return PllNoise(fom, flicker, vco, order, level("output_floor"))
 
 
 def parse_additive_noise(value: object, key: str) -> float:

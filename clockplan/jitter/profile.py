@@ -105,18 +105,18 @@ def find_bad_point(offsets: np.ndarray, dbc: np.ndarray) -> tuple[int, str, str]
     if bad_offset[i]:
         return (
             i,
-            f"offset {offsets[i]!r} Hz is not a positive finite frequency",
+            f"offset {float(offsets[i])!r} Hz is not a positive finite frequency",
             "offsets are distances from the carrier in Hz and must be above 0",
         )
     if bad_level[i]:
         return (
             i,
-            f"phase noise {dbc[i]!r} dBc/Hz is not a finite number",
+            f"phase noise {float(dbc[i])!r} dBc/Hz is not a finite number",
             "give each level in dBc/Hz, e.g. -140",
         )
     return (
         i,
-        f"offset {offsets[i]!r} Hz does not rise above the previous one ({offsets[i - 1]!r} Hz)",
+        f"offset {float(offsets[i])!r} Hz does not rise above the previous one ({float(offsets[i - 1])!r} Hz)",
         "list the points in order of increasing offset, each offset once",
     )
 
