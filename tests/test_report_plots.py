@@ -130,7 +130,7 @@ def _with_budgets():
 def test_hooks_feed_the_plots(tmp_path):
     data = collect_plot_data(_with_budgets())
     assert [t.consumer for t in data.phase_noise] == ["phy0"]
-    assert data.phase_noise[0].note == "jitter 0.3 ps"
+    assert data.phase_noise[0].note == "PASS: jitter 0.3 ps, no budget"
     assert [t.consumer for t in data.temperature] == ["phy0"]
     written = write_plots(data, tmp_path)
     assert [p.name for p in written] == ["phase-noise.png", "ppm-temperature.png", "monte-carlo.png"]
@@ -139,8 +139,12 @@ def test_hooks_feed_the_plots(tmp_path):
     assert sorted(p.name for p in tmp_path.iterdir()) == sorted(p.name for p in written)  # no temporaries
 
 
-def test_a_board_without_data_has_nothing_to_plot(tmp_path, capsys):
-    assert collect_plot_data(analyze(load_board("boards/video-converter.toml"))).empty
+def test_a_board_without_data_has_nothing_to_plot(tmp_path, capsys, monkeypatch):
+    from .test_report_terminal import exact_audit
+
+    assert collect_plot_data(exact_audit("boards/video-converter.toml")).empty
+    monkeypatch.setattr("clockplan.cli._analyze_with_progress",
+                        lambda *a, **k: exact_audit("boards/video-converter.toml"))
     assert main(["plots", "boards/video-converter.toml", "--output-dir", str(tmp_path)]) == 0
     assert "nothing to plot" in capsys.readouterr().out
     assert list(tmp_path.iterdir()) == []
@@ -165,3 +169,17 @@ def test_missing_matplotlib_says_how_to_install(monkeypatch, tmp_path, capsys):
     monkeypatch.setattr("clockplan.cli._analyze_with_progress", lambda *a, **k: _with_budgets())
     assert main(["plots", "boards/industrial-gateway.toml", "--output-dir", str(tmp_path)]) == 2
     assert "pip install 'clockplan[plots]'" in capsys.readouterr().err
+
+
+def test_the_jitter_stage_feeds_the_phase_noise_plot(tmp_path):
+    # The jitter stage's own band for each consumer is the one the plot shades.
+    analysis = analyze(load_board("boards/sampling-receiver.toml"))
+    with_noise = [c for c in analysis.consumers if c.jitter is not None]
+    assert with_noise, "the receiver demo board gives phase noise"
+    data = collect_plot_data(analysis)
+    assert [t.consumer for t in data.phase_noise] == [c.id for c in with_noise]
+    for trace, consumer in zip(data.phase_noise, with_noise):
+        assert list(trace.band_hz) == consumer.jitter.json_fields()["jitter_band_hz"]
+        assert trace.note.split(":")[0] in ("PASS", "warn", "FAIL")
+    (path,) = write_plots(data, tmp_path)
+    assert png_facts(path.read_bytes())[2] > 16

@@ -118,6 +118,19 @@ def _hook(obj: Any, name: str) -> Any:
     return method() if obj is not None and callable(method) else None
 
 
+def _jitter_note(analysis: Analysis, result: Any) -> str:
+    """``'FAIL: over by 13.4 % (317 fs of 280 fs RMS)'``, or the first table cell without a budget."""
+    from clockplan.report.content import consumer_margins, consumer_status
+
+    status = consumer_status(analysis, result.id)
+    margin = next((m for m in consumer_margins(analysis, result) if m.kind == "jitter"), None)
+    if margin is not None:
+        return f"{status}: jitter {margin.describe} ({margin.text})"
+    cells = _hook(result.jitter, "table_cells") or {}
+    first = next(iter(cells.items()), None)
+    return f"{status}: {first[0]} {first[1]}, no budget" if first else status
+
+
 def collect_plot_data(analysis: Analysis) -> PlotData:
     """Gather the plot data the budget results offer through their hooks.
 
@@ -131,11 +144,7 @@ def collect_plot_data(analysis: Analysis) -> PlotData:
         curve = _hook(result.jitter, "phase_noise_curve")
         if curve is not None:
             offsets, levels, band = curve
-            note = ""
-            cells = getattr(result.jitter, "table_cells", None)
-            if callable(cells):
-                note = ", ".join(f"{k} {v}" for k, v in cells().items())
-            noise.append(PhaseNoiseTrace(result.id, offsets, levels, tuple(band), note))
+            noise.append(PhaseNoiseTrace(result.id, offsets, levels, tuple(band), _jitter_note(analysis, result)))
         drift = _hook(result.accuracy, "temperature_curve")
         if drift is not None:
             temperature.append(TemperatureTrace(result.id, drift[0], drift[1], tuple(drift[2])))
@@ -184,7 +193,9 @@ def phase_noise_figure(traces: Sequence[PhaseNoiseTrace]) -> "Figure":
         ax.axvspan(low, high, color="#1565c0", alpha=0.12, label=f"integration band {_format_hz(low)} – {_format_hz(high)}")
         ax.semilogx(trace.offsets_hz, trace.dbc_per_hz, color="#1565c0", linewidth=1.6, label="L(f)")
         note = "\n".join(textwrap.wrap(trace.note, 70))  # a long note must not run past its panel
-        ax.set_title(trace.consumer + (f"\n{note}" if note else ""), fontsize=10)
+        failing = trace.note.startswith("FAIL")  # the word says it; the colour only repeats it
+        ax.set_title(trace.consumer + (f"\n{note}" if note else ""), fontsize=10,
+                     color="#b71c1c" if failing else "black")
         ax.set_xlabel("offset from carrier (Hz)")
         ax.set_ylabel("L(f) (dBc/Hz)")
         ax.grid(True, which="both", alpha=0.3)
