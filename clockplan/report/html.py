@@ -48,7 +48,8 @@ dl.summary ul { margin: 0; padding-left: 1.1rem; }
 table { border-collapse: collapse; width: 100%; margin: .3rem 0 1rem; font-size: .92rem; }
 th, td { border: 1px solid var(--line); padding: .3rem .55rem; vertical-align: top; text-align: left; }
 th { background: #eceff1; }
-td.num, th.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+td.num, th.num { text-align: right; font-variant-numeric: tabular-nums; }
+.table-wrap { overflow-x: auto; }
 tbody tr:nth-child(even) { background: #fafbfc; }
 td.word { font-weight: 700; white-space: nowrap; }
 td.PASS { color: var(--pass); background: var(--pass-bg); }
@@ -102,7 +103,8 @@ def html_table(table: TextTable) -> str:
             else:
                 cells.append(f"<td{numeric if column.align == 'right' else ''}>{escape(cell)}</td>")
         body.append("<tr>" + "".join(cells) + "</tr>")
-    return f'<table aria-label="{escape(table.title)}"><thead><tr>{head}</tr></thead><tbody>{"".join(body)}</tbody></table>'
+    return (f'<div class="table-wrap"><table aria-label="{escape(table.title)}"><thead><tr>{head}</tr></thead>'
+            f'<tbody>{"".join(body)}</tbody></table></div>')
 
 
 def html_tree(roots: tuple[TreeNode, ...]) -> str:
