@@ -312,8 +312,10 @@ def settings_table(analysis: Analysis) -> TextTable | None:
     board = analysis.board
     if not board.plls and not board.dividers:
         return None
+    from clockplan.plan.spurs import boundary_spur_offset
+
     columns = (Column("part"), Column("mode"), Column("R", "right"), Column("N", "right"),
-               Column("PFD", "right"), Column("VCO", "right"), Column("output dividers"))
+               Column("PFD", "right"), Column("VCO", "right"), Column("spur offset", "right"), Column("output dividers"))
     rows = []
     for pll in board.plls:
         setting = analysis.settings.plls.get(pll.id)
@@ -325,12 +327,18 @@ def settings_table(analysis: Analysis) -> TextTable | None:
             format_exact(setting.n) if setting else "-",
             format_frequency(point.pfd_hz) if point else "-",
             format_frequency(point.vco_hz) if point else "-",
+            # The integer-boundary spur of a fractional-N setting ("-" for an integer N).
+            _frequency_or_dash(boundary_spur_offset(point.pfd_hz, point.setting.n) if point else None),
             ", ".join(f"{name}=/{d}" for name, d in setting.dividers.items()) if setting else "unset",
         ))
     for divider in board.dividers:
         ratio = analysis.settings.dividers.get(divider.id)
-        rows.append((divider.id, "divider", "-", "-", "-", "-", f"/{ratio}" if ratio else "unset"))
+        rows.append((divider.id, "divider", "-", "-", "-", "-", "-", f"/{ratio}" if ratio else "unset"))
     return TextTable("Settings", columns, tuple(rows))
+
+
+def _frequency_or_dash(hz: Fraction | None) -> str:
+    return format_frequency(hz) if hz is not None else "-"
 
 
 def findings_table(analysis: Analysis) -> TextTable | None:

@@ -68,6 +68,7 @@ def _plls(analysis: Analysis) -> list[dict[str, Any]]:
                 "vco_hz": number(point.vco_hz) if point else None,
                 "vco_hz_exact": format_exact(point.vco_hz) if point else None,
                 "outputs": dict(setting.dividers) if setting else {},
+                "spur_offset_hz": number(_spur_offset(point)) if point else None,
             }
         )
     return plls
@@ -77,6 +78,12 @@ def _chain_status(analysis: Analysis, consumer_id: str) -> str:
     from clockplan.report.content import consumer_status
 
     return {"PASS": "pass", "warn": "warn", "FAIL": "fail"}[consumer_status(analysis, consumer_id)]
+
+
+def _spur_offset(point) -> Fraction | None:
+    from clockplan.plan.spurs import boundary_spur_offset
+
+    return boundary_spur_offset(point.pfd_hz, point.setting.n)
 
 
 def _status(analysis: Analysis, node: str) -> str:
