@@ -351,7 +351,7 @@ def _run_plan(args: argparse.Namespace) -> int:
     from clockplan.analysis import analyze
     from clockplan.boardfile import load_board
     from clockplan.plan.board_planner import PlanOptions, plan_board
-    from clockplan.plan.output import plan_document, plan_findings, render_plan
+    from clockplan.plan.output import plan_findings
     from clockplan.units import parse_frequency
 
     if args.write and args.in_place:
@@ -368,12 +368,7 @@ def _run_plan(args: argparse.Namespace) -> int:
         from clockplan.plan.explain import explain_infeasible
 
         explanation = explain_infeasible(plan)
-    if args.json:
-        from clockplan.report.json import dumps
-
-        sys.stdout.write(dumps(plan_document(analysis, plan, explanation)))
-    else:
-        render_plan(analysis, plan, _console(args), explanation)
+    _emit_plan(args, analysis, plan, explanation)
     if explanation is not None:
         raise InfeasibleError(
             f"{board.name}: no plan puts every consumer inside its allowed synthesis error\n{explanation.text()}",
@@ -387,7 +382,32 @@ def _run_plan(args: argparse.Namespace) -> int:
         write_board_file(args.board, target, board, plan.settings, in_place=args.in_place)
         if not args.json:
             sys.stderr.write(f"clockplan: wrote the planned settings to {target}\n")
-    return EXIT_FINDINGS if analysis.has_errors else EXIT_OK
+    return _exit_status(analysis.worst, args.fail_on)
+
+
+def _emit_plan(args: argparse.Namespace, analysis, plan, explanation) -> None:
+    """The plan report in the chosen --format, to stdout or --output (see _emit)."""
+    from clockplan.plan.output import plan_document, render_plan
+
+    fmt = _report_format(args)
+    if fmt == "json":
+        from clockplan.report.json import dumps
+
+        _deliver(args, dumps(plan_document(analysis, plan, explanation)))
+    elif fmt == "table" and not args.output:
+        render_plan(analysis, plan, _console(args), explanation)
+    elif fmt == "table":
+        import io
+
+        from clockplan.report.terminal import make_console
+
+        buffer = io.StringIO()
+        render_plan(analysis, plan, make_console(width=args.width or 100, color=False, file=buffer), explanation)
+        _deliver(args, buffer.getvalue())
+    else:
+        from clockplan.report.formats import render_report
+
+        _deliver(args, render_report(analysis, fmt, "plan", width=args.width or 100))
 
 def _run_standards(args: argparse.Namespace) -> int:
     from clockplan.standards.render import standards_view

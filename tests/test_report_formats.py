@@ -367,3 +367,20 @@ def test_board_wide_sections_of_the_budget_stages_reach_every_format():
     assert "Reference advice: ref_main fits</pre>" in page and "<h2>Yield</h2>" in page
     text = render_report(analysis, "table", width=100)
     assert "Reference advice: ref_main fits" in text and "99.5 %" in text
+
+
+@pytest.mark.parametrize("fmt", ["markdown", "csv", "html"])
+def test_plan_reports_in_every_format(fmt, tmp_path, capsys):
+    # The planned settings go through the same renderers: the consumers all come back with a frequency.
+    target = tmp_path / f"plan.{fmt}"
+    status = main(["plan", "boards/edge-router.toml", "--format", fmt, "--output", str(target)])
+    analysis_ids = [c.id for c in load_board("boards/edge-router.toml").consumers]
+    text = target.read_bytes().decode("utf-8")
+    if fmt == "csv":
+        rows = list(csv.DictReader(io.StringIO(text, newline="")))
+        assert [r["id"] for r in rows] == analysis_ids and all(r["actual_hz_exact"] for r in rows)
+    elif fmt == "markdown":
+        assert text.startswith("# clockplan plan: ") and [r[0] for r in markdown_tables(text)[0][1:]] == analysis_ids
+    else:
+        assert text.startswith("<!DOCTYPE html>") and all(i in text for i in analysis_ids)
+    assert status in (0, 1)
