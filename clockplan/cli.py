@@ -222,6 +222,17 @@ def _deliver(args: argparse.Namespace, text: str) -> None:
     sys.stderr.write(f"clockplan: wrote {args.output}\n")
 
 
+def _deliver_drawn(args: argparse.Namespace, draw: Callable[..., None]) -> None:
+    """Draw a terminal view on a plain console (no colour, ``--width`` or 100) and deliver the text."""
+    import io
+
+    from clockplan.report.terminal import make_console
+
+    buffer = io.StringIO()
+    draw(make_console(width=args.width or 100, color=False, file=buffer))
+    _deliver(args, buffer.getvalue())
+
+
 def _exit_status(worst, fail_on: str) -> int:
     """1 if the worst finding is at least as serious as ``--fail-on``, else 0."""
     if worst is None:
@@ -298,13 +309,7 @@ def _run_explain(args: argparse.Namespace) -> int:
     if fmt == "table" and not args.output:
         explainer.render_explanation(explanation, _console(args))
     elif fmt == "table":
-        import io
-
-        from clockplan.report.terminal import make_console
-
-        buffer = io.StringIO()
-        explainer.render_explanation(explanation, make_console(width=args.width or 100, color=False, file=buffer))
-        _deliver(args, buffer.getvalue())
+        _deliver_drawn(args, lambda console: explainer.render_explanation(explanation, console))
     elif fmt == "json":
         from clockplan.report.json import dumps
 
@@ -397,13 +402,7 @@ def _emit_plan(args: argparse.Namespace, analysis, plan, explanation) -> None:
     elif fmt == "table" and not args.output:
         render_plan(analysis, plan, _console(args), explanation)
     elif fmt == "table":
-        import io
-
-        from clockplan.report.terminal import make_console
-
-        buffer = io.StringIO()
-        render_plan(analysis, plan, make_console(width=args.width or 100, color=False, file=buffer), explanation)
-        _deliver(args, buffer.getvalue())
+        _deliver_drawn(args, lambda console: render_plan(analysis, plan, console, explanation))
     else:
         from clockplan.report.formats import render_report
 
