@@ -13,7 +13,7 @@ Prints, measured in the same run:
 - the median with the jitter stage left out (the baseline: exact audit and the
   other budget stages);
 - the same board with the designed loop filter replaced by the
-  bandwidth-and-phase-margin approximation (no symbolic work at all).
+  bandwidth-and-phase-margin approximation (no filter to design).
 
     python bench/bench_jitter_stage.py [--repeats R] [--cli-runs C]
 """
