@@ -14,9 +14,10 @@ fundamental loop-filter design equations):
 
 The formulas are derived in :mod:`clockplan.loopfilter.symbolic` and
 evaluated here in their closed forms (:mod:`clockplan.loopfilter.closed_form`,
-checked against the derivation by the tests); this module only solves them.  ``bandwidth`` here is the **open-loop unity-gain
-frequency**, the usual meaning of "loop bandwidth" in this design method; the
-closed-loop -3 dB frequency is somewhat higher
+checked against the derivation by the tests); this module only solves them.
+``bandwidth`` here is the **open-loop unity-gain frequency**, the usual
+meaning of "loop bandwidth" in this design method; the closed-loop -3 dB
+frequency is somewhat higher
 (:func:`clockplan.loopfilter.response.closed_loop_bandwidth_hz`).
 
 The design assumes a continuous-time loop, valid while the bandwidth is well

@@ -2,10 +2,11 @@
 
 Each resistor ``R`` carries a thermal noise voltage of one-sided density
 ``4*k*T*R`` V²/Hz (Johnson-Nyquist).  It reaches the VCO tuning input through
-the filter network (:func:`clockplan.loopfilter.closed_form.resistor_noise_transfer`,
-derived in :func:`clockplan.loopfilter.symbolic.resistor_noise_transfer`; charge pump open), the VCO turns tuning voltage into phase with
-``2*pi*Kvco / s``, and the loop removes what lies inside its bandwidth with
-the error function ``1 / (1 + G)``::
+the filter network, charge pump open
+(:func:`clockplan.loopfilter.closed_form.resistor_noise_transfer`, derived in
+:func:`clockplan.loopfilter.symbolic.resistor_noise_transfer`); the VCO turns
+tuning voltage into phase with ``2*pi*Kvco / s``, and the loop removes what
+lies inside its bandwidth with the error function ``1 / (1 + G)``::
 
     S_phi(f) = 4*k*T*R * |T_R(j*w)|**2 * (Kvco / f)**2 * |E(j*w)|**2    [rad²/Hz, one-sided]
 
