@@ -36,8 +36,8 @@ def check_pll(pll: Pll, settings: Settings, freqs: Frequencies) -> list[Finding]
     if setting is None:
         return [_error("unset", pll.id, f"PLL {pll.id} has no complete settings (r, n and every output divider); give them in the board file or run 'clockplan plan'")]
     findings: list[Finding] = []
-    if setting.r not in pll.r:
-        findings.append(_error("r-range", pll.id, f"R = {setting.r} is not allowed (R: {pll.r.describe()}); choose an allowed R"))
+    if setting.r not in pll.ref_divider:
+        findings.append(_error("r-range", pll.id, f"R = {setting.r} is not allowed (R: {pll.ref_divider.describe()}); choose an allowed R"))
     findings += _check_n(pll, setting.n)
     for out in pll.outputs:
         divider = setting.dividers.get(out.name)
@@ -57,15 +57,15 @@ def check_pll(pll: Pll, settings: Settings, freqs: Frequencies) -> list[Finding]
     return findings
 
 
-def _check_n(pll: Pll, n: Fraction) -> list[Finding]:
+def _check_n(loop: Pll, ratio: Fraction) -> list[Finding]:
     findings = []
-    if not pll.n_min <= n <= pll.n_max:
-        findings.append(_error("n-range", pll.id, f"N = {format_exact(n)} is outside {format_exact(pll.n_min)}..{format_exact(pll.n_max)}"))
-    if n.denominator != 1:
-        if pll.mode == "integer":
-            findings.append(_error("n-fraction", pll.id, f"N = {format_exact(n)} has a fractional part but the PLL is integer-N; use a whole N or a fractional-N part"))
-        elif pll.denominator is not None and not pll.denominator.allows(n):
-            findings.append(_error("denominator", pll.id, f"N = {format_exact(n)} needs denominator {n.denominator}, which the part cannot make ({pll.denominator.describe()})"))
+    if not loop.feedback_min <= ratio <= loop.feedback_max:
+        findings.append(_error("n-range", loop.id, f"N = {format_exact(ratio)} is outside {format_exact(loop.feedback_min)}..{format_exact(loop.feedback_max)}"))
+    if ratio.denominator != 1:
+        if loop.mode == "integer":
+            findings.append(_error("n-fraction", loop.id, f"N = {format_exact(ratio)} has a fractional part but the PLL is integer-N; use a whole N or a fractional-N part"))
+        elif loop.denominator is not None and not loop.denominator.allows(ratio):
+            findings.append(_error("denominator", loop.id, f"N = {format_exact(ratio)} needs denominator {ratio.denominator}, which the part cannot make ({loop.denominator.describe()})"))
     return findings
 
 

@@ -355,9 +355,9 @@ def _read_pll(reader: TableReader) -> Pll:
         input=reader.get("input", _text),
         vco=reader.get("vco", _frequency_range),
         pfd=reader.get("pfd", _frequency_range),
-        r=reader.get("r", _int_choices, IntChoices(1, 1)),
-        n_min=n_lo,
-        n_max=n_hi,
+        ref_divider=reader.get("r", _int_choices, IntChoices(1, 1)),
+        feedback_min=n_lo,
+        feedback_max=n_hi,
         mode=mode,  # type: ignore[arg-type]
         outputs=_read_outputs(reader),
         denominator=_read_denominator(reader, mode),

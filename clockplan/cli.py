@@ -91,6 +91,32 @@ def _build_parser() -> argparse.ArgumentParser:
     _add_budget_options(audit)
     audit.set_defaults(run=_run_audit)
 
+    plan = commands.add_parser(
+        "plan",
+        help="find the settings (R, N, dividers) the board leaves open",
+        description=(
+            "Fill every setting the board file leaves open so that each consumer gets its frequency: exact where "
+            "reachable, else inside its allowed synthesis error with the smallest worst error. Settings the file "
+            "gives stay fixed. The objective is documented in docs/planning.md."
+        ),
+        epilog=_EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    plan.add_argument("board", help="board file (TOML)")
+    plan.add_argument("--alternatives", type=_alternatives, default=0, metavar="K", help="also show K distinct runner-up plans")
+    plan.add_argument("--write", metavar="OUT", help="write the board with its settings filled in to OUT (never over the input without --in-place)")
+    plan.add_argument("--in-place", action="store_true", help="write the filled-in settings back into the input file")
+    plan.add_argument("--time-limit", type=_seconds, default=10.0, metavar="S", help="search time budget in seconds (default 10)")
+    plan.add_argument(
+        "--loop-bandwidth",
+        default=None,
+        metavar="HZ",
+        help="loop bandwidth for the in-band spur flag of PLLs that do not state one (default 200 kHz)",
+    )
+    _add_output_options(plan)
+    _add_budget_options(plan)
+    plan.set_defaults(run=_run_plan)
+
     standards = commands.add_parser(
         "standards",
         help="list interface clock requirements, or show one with its sources",
@@ -103,6 +129,25 @@ def _build_parser() -> argparse.ArgumentParser:
     standards.set_defaults(run=_run_standards)
     _add_loop_command(commands)
     return parser
+
+
+def _bounded(parse, lo: float, hi: float, what: str, lo_open: bool = False):
+    """An argparse type: ``parse(text)`` within ``lo..hi`` (``lo`` excluded if ``lo_open``)."""
+
+    def convert(text: str):
+        try:
+            value = parse(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"expected {what}, got {text!r}") from None
+        if value > hi or value < lo or (lo_open and value == lo):
+            raise argparse.ArgumentTypeError(f"expected {what} {'above' if lo_open else 'from'} {lo} and at most {hi}")
+        return value
+
+    return convert
+
+
+_alternatives = _bounded(int, 0, 100, "a whole number")
+_seconds = _bounded(float, 0, 3600, "a number of seconds", lo_open=True)
 
 
 def _console(args: argparse.Namespace):
@@ -133,6 +178,48 @@ def _run_audit(args: argparse.Namespace) -> int:
         analysis = analyze(board, options=_analysis_options(args, progress))
     return _emit(args, analysis, "audit")
 
+
+def _run_plan(args: argparse.Namespace) -> int:
+    from clockplan.analysis import analyze
+    from clockplan.boardfile import load_board
+    from clockplan.plan.board_planner import PlanOptions, plan_board
+    from clockplan.plan.output import plan_document, plan_findings, render_plan
+    from clockplan.units import parse_frequency
+
+    if args.write and args.in_place:
+        raise ClockplanError("give either --write OUT or --in-place, not both", hint="--in-place writes back into the input file")
+    board = load_board(args.board)
+    options = PlanOptions(alternatives=args.alternatives, time_limit_s=args.time_limit)
+    if args.loop_bandwidth is not None:
+        options = PlanOptions(args.alternatives, args.time_limit, parse_frequency(args.loop_bandwidth))
+    plan = plan_board(board, options)
+    analysis = analyze(board, plan.settings, _analysis_options(args))
+    analysis = analysis.with_findings(plan_findings(plan, analysis))
+    explanation = None
+    if not plan.feasible:
+        from clockplan.plan.explain import explain_infeasible
+
+        explanation = explain_infeasible(plan)
+    if args.json:
+        from clockplan.report.json import dumps
+
+        sys.stdout.write(dumps(plan_document(analysis, plan, explanation)))
+    else:
+        render_plan(analysis, plan, _console(args), explanation)
+    if explanation is not None:
+        raise InfeasibleError(
+            f"{board.name}: no plan puts every consumer inside its allowed synthesis error\n{explanation.text()}",
+            file=board.source_file,
+            hint="relax the blocking constraint named above, or raise max_synthesis_error where the standard allows it",
+        )
+    target = args.board if args.in_place else args.write
+    if target:
+        from clockplan.plan.boardwrite import write_board_file
+
+        write_board_file(args.board, target, board, plan.settings, in_place=args.in_place)
+        if not args.json:
+            sys.stderr.write(f"clockplan: wrote the planned settings to {target}\n")
+    return EXIT_FINDINGS if analysis.has_errors else EXIT_OK
 
 def _run_standards(args: argparse.Namespace) -> int:
     from clockplan.standards.render import standards_view

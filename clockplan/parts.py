@@ -153,7 +153,8 @@ class PllOutput:
 class Pll:
     """A phase-locked loop: f_pfd = f_in / R, f_vco = f_pfd * N, f_out = f_vco / D.
 
-    ``n`` is the allowed range of the feedback ratio. In ``"integer"`` mode N
+    ``ref_divider`` holds the allowed input dividers R, ``feedback_min`` and
+    ``feedback_max`` the range of the feedback ratio N. In ``"integer"`` mode N
     must be whole; in ``"fractional"`` mode its fractional part must satisfy
     ``denominator``. ``loop`` (a loop response), ``noise`` (the PLL's own noise
     figures) and ``loop_filter`` (a passive filter to design or analyse) feed
@@ -164,9 +165,9 @@ class Pll:
     input: str
     vco: FrequencyRange
     pfd: FrequencyRange
-    r: IntChoices
-    n_min: Fraction
-    n_max: Fraction
+    ref_divider: IntChoices
+    feedback_min: Fraction
+    feedback_max: Fraction
     mode: Literal["integer", "fractional"]
     outputs: tuple[PllOutput, ...]
     denominator: Denominator | None = None
@@ -184,7 +185,7 @@ class Pll:
 
     def allows_n(self, n: Fraction) -> bool:
         """True if ``n`` is a feedback ratio this PLL can run (range and mode)."""
-        if not self.n_min <= n <= self.n_max:
+        if not self.feedback_min <= n <= self.feedback_max:
             return False
         if n.denominator == 1:
             return True
@@ -234,7 +235,7 @@ class Consumer:
 
 @dataclass(frozen=True)
 class PllSetting:
-    """The settings of one PLL: R, N (exact) and each output's divider."""
+    """The settings of one loop: input divider ``r``, feedback ratio ``n`` (exact), output dividers."""
 
     r: int
     n: Fraction

@@ -103,10 +103,10 @@ def test_json_contract(capsys):
         assert key in consumer
     assert consumer["source_chain"] == ["ocxo_10m", "cleaner", "cleaner.ref", "conv_synth", "conv_synth.adc"]
     assert consumer["synthesis_error_ppm"] == 0
-    pll = doc["plls"][1]
-    assert (pll["id"], pll["r"], pll["n"]) == ("conv_synth", 1, "18432/625")
-    assert pll["outputs"] == {"adc": 12, "dac": 6, "fpga": 24}
-    assert Fraction(pll["vco_hz_exact"]) == Fraction(2_949_120_000)
+    synth = doc["plls"][1]
+    assert (synth["id"], synth["r"], synth["n"]) == ("conv_synth", 1, "18432/625")
+    assert synth["outputs"] == {"adc": 12, "dac": 6, "fpga": 24}
+    assert Fraction(synth["vco_hz_exact"]) == Fraction(2_949_120_000)
     for finding in doc["findings"]:
         assert set(finding) >= {"severity", "code", "node", "message"}
 

@@ -67,9 +67,16 @@ def _plls(analysis: Analysis) -> list[dict[str, Any]]:
                 "vco_hz": number(point.vco_hz) if point else None,
                 "vco_hz_exact": format_exact(point.vco_hz) if point else None,
                 "outputs": dict(setting.dividers) if setting else {},
+                "spur_offset_hz": number(_spur_offset(point)) if point else None,
             }
         )
     return plls
+
+
+def _spur_offset(point) -> Fraction | None:
+    from clockplan.plan.spurs import boundary_spur_offset
+
+    return boundary_spur_offset(point.pfd_hz, point.setting.n)
 
 
 def _status(analysis: Analysis, node: str) -> str:

@@ -89,8 +89,10 @@ def pll_table(analysis: Analysis) -> "RenderableType | None":
 
     if not analysis.board.plls and not analysis.board.dividers:
         return None
+    from clockplan.plan.spurs import boundary_spur_offset
+
     table = Table(title="Settings", title_justify="left", header_style="bold")
-    for header in ("part", "mode", "R", "N", "PFD", "VCO", "output dividers"):
+    for header in ("part", "mode", "R", "N", "PFD", "VCO", "spur offset", "output dividers"):
         table.add_column(header, justify="left" if header in ("part", "mode", "output dividers") else "right")
     for pll in analysis.board.plls:
         setting = analysis.settings.plls.get(pll.id)
@@ -103,12 +105,18 @@ def pll_table(analysis: Analysis) -> "RenderableType | None":
             format_exact(setting.n) if setting else "-",
             format_frequency(point.pfd_hz) if point else "-",
             format_frequency(point.vco_hz) if point else "-",
+            _spur_text(boundary_spur_offset(point.pfd_hz, point.setting.n) if point else None),
             outputs,
         )
     for divider in analysis.board.dividers:
         ratio = analysis.settings.dividers.get(divider.id)
-        table.add_row(divider.id, "divider", "-", "-", "-", "-", f"/{ratio}" if ratio else "unset")
+        table.add_row(divider.id, "divider", "-", "-", "-", "-", "-", f"/{ratio}" if ratio else "unset")
     return table
+
+
+def _spur_text(offset) -> str:
+    """The integer-boundary spur offset of a fractional-N setting ("-" for integer N)."""
+    return format_frequency(offset) if offset is not None else "-"
 
 
 def findings_table(analysis: Analysis) -> "RenderableType | None":
