@@ -21,8 +21,6 @@ from __future__ import annotations
 
 import io
 import math
-import os
-import secrets
 import textwrap
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -31,6 +29,7 @@ from typing import TYPE_CHECKING, Any
 
 from clockplan.analysis import Analysis
 from clockplan.errors import ClockplanError
+from clockplan.fileio import atomic_write_bytes
 
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
@@ -270,20 +269,6 @@ def figure_png(figure: "Figure", dpi: int = 110) -> bytes:
     return buffer.getvalue()
 
 
-def _write_bytes_atomically(path: Path, data: bytes) -> None:
-    # fileio has only a text writer; the same temp-then-rename rule for bytes, with the usual
-    # 0666-less-umask mode (mkstemp's 0600 would hide the images from a web server or a colleague).
-    temp_name = path.parent / f".{path.name}.{secrets.token_hex(6)}.tmp"
-    handle = os.open(temp_name, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666)
-    try:
-        with os.fdopen(handle, "wb") as stream:
-            stream.write(data)
-        os.replace(temp_name, path)
-    except BaseException:
-        Path(temp_name).unlink(missing_ok=True)
-        raise
-
-
 def plot_images(data: PlotData) -> dict[str, bytes]:
     """PNG bytes for each kind of plot that has data, keyed by file name."""
     makers = (
@@ -314,7 +299,7 @@ def write_plots(data: PlotData, folder: str | Path) -> list[Path]:
     for name, png in plot_images(data).items():
         path = folder / name
         try:
-            _write_bytes_atomically(path, png)
+            atomic_write_bytes(path, png)
         except OSError as err:
             raise ClockplanError(f"cannot write {path}: {err.strerror}", hint="check free space and permissions") from err
         written.append(path)
