@@ -43,6 +43,7 @@ def _add_output_options(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="write the JSON document (docs/json-output.md) to stdout")
     parser.add_argument("--width", type=int, default=None, help="terminal width for the tables")
     parser.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
+    _add_report_options(parser)
 
 
 def _count(text: str) -> int:
@@ -128,6 +129,7 @@ def _build_parser() -> argparse.ArgumentParser:
     standards.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
     standards.set_defaults(run=_run_standards)
     _add_loop_command(commands)
+    _add_report_commands(commands)
     _add_synthesize_command(commands)
     return parser
 
@@ -158,33 +160,204 @@ def _console(args: argparse.Namespace):
 
 
 def _emit(args: argparse.Namespace, analysis, command: str) -> int:
-    if args.json:
-        from clockplan.report.json import analysis_document, dumps
-
-        sys.stdout.write(dumps(analysis_document(analysis, command)))
-    else:
+    fmt = _report_format(args)
+    if fmt == "table" and not args.output:
         from clockplan.report.terminal import render_analysis
 
         render_analysis(analysis, _console(args), title=command)
-    return EXIT_FINDINGS if analysis.has_errors else EXIT_OK
+    else:
+        from clockplan.report.formats import render_report
+
+        _deliver(args, render_report(analysis, fmt, command, width=args.width or 100))
+    return _exit_status(analysis.worst, args.fail_on)
 
 
 def _run_audit(args: argparse.Namespace) -> int:
-    from clockplan.analysis import analyze
     from clockplan.boardfile import load_board
+
+    return _emit(args, _analyze_with_progress(load_board(args.board), args), "audit")
+
+
+# --------------------------------------------------------------------------- reports
+# Output formats, --output, --fail-on, and the explain, diagram, plots and new
+# commands. Kept together so the other commands only call the helpers above.
+
+_FAIL_ON_HELP = "exit with status 1 on findings of this severity or worse (default: error)"
+#: The same as clockplan.report.formats.FORMATS (a test checks), spelled out to keep start-up light.
+_REPORT_FORMATS = ("table", "json", "markdown", "csv", "html")
+
+
+def _add_report_options(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("--format", choices=_REPORT_FORMATS, default=None,
+                        help="report format (default: table; or implied by --output's suffix: .json .md .csv .html .txt)")
+    parser.add_argument("--output", "-o", metavar="FILE", default=None,
+                        help="write the report to FILE (atomically; never over the board file) instead of stdout")
+    parser.add_argument("--fail-on", choices=("warning", "error"), default="error", help=_FAIL_ON_HELP)
+
+
+def _report_format(args: argparse.Namespace) -> str:
+    chosen = args.format
+    if args.json:
+        if chosen not in (None, "json"):
+            raise ClockplanError(f"--json and --format {chosen} disagree", hint="give one of them")
+        return "json"
+    if chosen is None and args.output:
+        from clockplan.report.formats import format_for_path
+
+        chosen = format_for_path(args.output)
+    return chosen or "table"
+
+
+def _deliver(args: argparse.Namespace, text: str) -> None:
+    """Write ``text`` to ``--output`` (atomically, never over an input) or to stdout."""
+    if not args.output:
+        sys.stdout.write(text)
+        return
+    from clockplan.fileio import atomic_write_text, refuse_overwrite
+
+    try:
+        refuse_overwrite(args.output, protected=[p for p in (getattr(args, "board", None),) if p])
+    except ClockplanError as err:
+        raise ClockplanError(err.message, hint="write the report to another file") from None
+    atomic_write_text(args.output, text)
+    sys.stderr.write(f"clockplan: wrote {args.output}\n")
+
+
+def _deliver_drawn(args: argparse.Namespace, draw: Callable[..., None]) -> None:
+    """Draw a terminal view on a plain console (no colour, ``--width`` or 100) and deliver the text."""
+    import io
+
+    from clockplan.report.terminal import make_console
+
+    buffer = io.StringIO()
+    draw(make_console(width=args.width or 100, color=False, file=buffer))
+    _deliver(args, buffer.getvalue())
+
+
+def _exit_status(worst, fail_on: str) -> int:
+    """1 if the worst finding is at least as serious as ``--fail-on``, else 0."""
+    if worst is None:
+        return EXIT_OK
+    threshold = 1 if fail_on == "warning" else 2
+    return EXIT_FINDINGS if worst.rank >= threshold else EXIT_OK
+
+
+def _analyze_with_progress(board, args: argparse.Namespace, settings=None):
+    """Run the analysis with the budget options; a long run draws a transient progress bar on stderr."""
+    from clockplan.analysis import analyze
     from clockplan.report.progress import DelayedProgress
 
-    board = load_board(args.board)
     with DelayedProgress("Monte Carlo yield") as progress:
-        analysis = analyze(board, options=_analysis_options(args, progress))
-    return _emit(args, analysis, "audit")
+        return analyze(board, settings, _analysis_options(args, progress))
+
+
+def _add_report_commands(commands) -> None:
+    explain = commands.add_parser(
+        "explain",
+        help="show why one consumer passes or fails: its chain and every contribution, in order",
+        description="The exact frequency chain from the reference to CONSUMER, then what adds how much to its "
+        "frequency error and jitter, in order, with running totals.",
+        epilog=_EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    explain.add_argument("board", help="board file (TOML)")
+    explain.add_argument("consumer", help="the consumer's id")
+    explain.add_argument("--format", choices=("table", "json", "markdown"), default=None, help="default: table")
+    explain.add_argument("--output", "-o", metavar="FILE", default=None, help="write to FILE instead of stdout")
+    explain.add_argument("--width", type=int, default=None, help="terminal width for the tables")
+    explain.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
+    _add_budget_options(explain)
+    explain.set_defaults(run=_run_explain, json=False)
+
+    diagram = commands.add_parser(
+        "diagram",
+        help="draw the clock tree as Graphviz DOT, or SVG when Graphviz is installed",
+        description="Write the clock tree as Graphviz DOT (frequencies on the nodes, failing parts marked). "
+        "With --format svg (or an --output ending in .svg) Graphviz's 'dot' program draws it.",
+    )
+    diagram.add_argument("board", help="board file (TOML)")
+    diagram.add_argument("--format", choices=("dot", "svg"), default=None, help="default: dot, or svg for a .svg --output")
+    diagram.add_argument("--output", "-o", metavar="FILE", default=None, help="write to FILE instead of stdout")
+    diagram.set_defaults(run=_run_diagram)
+
+    plots = commands.add_parser(
+        "plots",
+        help="draw phase noise, ppm over temperature and the Monte Carlo spread as PNG files",
+        description="Write phase-noise.png, ppm-temperature.png and monte-carlo.png into FOLDER for the data "
+        "the board gives. Needs matplotlib: pip install 'clockplan[plots]'.",
+    )
+    plots.add_argument("board", help="board file (TOML)")
+    plots.add_argument("--output-dir", "-d", metavar="FOLDER", default=".", help="folder for the PNG files (default: .)")
+    _add_budget_options(plots)
+    plots.set_defaults(run=_run_plots)
+
+    new = commands.add_parser(
+        "new",
+        help="write a commented starter board file (never over an existing file)",
+        description="Write a small, commented board file that audits clean, to edit into your own board.",
+    )
+    new.add_argument("file", help="the board file to create (must not exist)")
+    new.add_argument("--name", default="My board", help="the board's name (default: My board)")
+    new.set_defaults(run=_run_new)
+
+
+def _run_explain(args: argparse.Namespace) -> int:
+    from clockplan.boardfile import load_board
+    from clockplan.report import explain as explainer
+
+    explanation = explainer.explain(_analyze_with_progress(load_board(args.board), args), args.consumer)
+    fmt = args.format or "table"
+    if fmt == "table" and not args.output:
+        explainer.render_explanation(explanation, _console(args))
+    elif fmt == "table":
+        _deliver_drawn(args, lambda console: explainer.render_explanation(explanation, console))
+    elif fmt == "json":
+        from clockplan.report.json import dumps
+
+        _deliver(args, dumps(explainer.explanation_document(explanation)))
+    else:
+        _deliver(args, explainer.explanation_markdown(explanation))
+    return EXIT_FINDINGS if explainer.explanation_fails(explanation) else EXIT_OK
+
+
+def _run_diagram(args: argparse.Namespace) -> int:
+    from clockplan.analysis import analyze
+    from clockplan.boardfile import load_board
+    from clockplan.report.dot import render_dot, render_svg
+
+    fmt = args.format or ("svg" if (args.output or "").lower().endswith(".svg") else "dot")
+    text = render_dot(analyze(load_board(args.board)))
+    _deliver(args, render_svg(text) if fmt == "svg" else text)
+    return EXIT_OK
+
+
+def _run_plots(args: argparse.Namespace) -> int:
+    from clockplan.boardfile import load_board
+    from clockplan.report.plots import collect_plot_data, write_plots
+
+    data = collect_plot_data(_analyze_with_progress(load_board(args.board), args))
+    if data.empty:
+        sys.stdout.write("clockplan: nothing to plot: the board gives no phase-noise or oscillator accuracy data "
+                         "(see docs/jitter.md and docs/frequency-accuracy.md)\n")
+        return EXIT_OK
+    for path in write_plots(data, args.output_dir):
+        sys.stdout.write(f"clockplan: wrote {path}\n")
+    return EXIT_OK
+
+
+def _run_new(args: argparse.Namespace) -> int:
+    from clockplan.starter import write_starter
+
+    path = write_starter(args.file, args.name)
+    sys.stdout.write(f"clockplan: wrote {path}; check it with: clockplan audit {path}\n")
+    return EXIT_OK
 
 
 def _run_plan(args: argparse.Namespace) -> int:
     from clockplan.analysis import analyze
     from clockplan.boardfile import load_board
     from clockplan.plan.board_planner import PlanOptions, plan_board
-    from clockplan.plan.output import plan_document, plan_findings, render_plan
+    from clockplan.plan.output import plan_findings
     from clockplan.units import parse_frequency
 
     if args.write and args.in_place:
@@ -201,12 +374,7 @@ def _run_plan(args: argparse.Namespace) -> int:
         from clockplan.plan.explain import explain_infeasible
 
         explanation = explain_infeasible(plan)
-    if args.json:
-        from clockplan.report.json import dumps
-
-        sys.stdout.write(dumps(plan_document(analysis, plan, explanation)))
-    else:
-        render_plan(analysis, plan, _console(args), explanation)
+    _emit_plan(args, analysis, plan, explanation)
     if explanation is not None:
         raise InfeasibleError(
             f"{board.name}: no plan puts every consumer inside its allowed synthesis error\n{explanation.text()}",
@@ -220,7 +388,26 @@ def _run_plan(args: argparse.Namespace) -> int:
         write_board_file(args.board, target, board, plan.settings, in_place=args.in_place)
         if not args.json:
             sys.stderr.write(f"clockplan: wrote the planned settings to {target}\n")
-    return EXIT_FINDINGS if analysis.has_errors else EXIT_OK
+    return _exit_status(analysis.worst, args.fail_on)
+
+
+def _emit_plan(args: argparse.Namespace, analysis, plan, explanation) -> None:
+    """The plan report in the chosen --format, to stdout or --output (see _emit)."""
+    from clockplan.plan.output import plan_document, render_plan
+
+    fmt = _report_format(args)
+    if fmt == "json":
+        from clockplan.report.json import dumps
+
+        _deliver(args, dumps(plan_document(analysis, plan, explanation)))
+    elif fmt == "table" and not args.output:
+        render_plan(analysis, plan, _console(args), explanation)
+    elif fmt == "table":
+        _deliver_drawn(args, lambda console: render_plan(analysis, plan, console, explanation))
+    else:
+        from clockplan.report.formats import render_report
+
+        _deliver(args, render_report(analysis, fmt, "plan", width=args.width or 100))
 
 def _run_standards(args: argparse.Namespace) -> int:
     from clockplan.standards.render import standards_view

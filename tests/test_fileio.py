@@ -49,3 +49,22 @@ def test_input_is_protected(tmp_path: Path):
     with pytest.raises(ClockplanError, match="--in-place"):
         refuse_overwrite(board, protected=[board])
     refuse_overwrite(board, protected=[board], allow=True)
+
+
+def test_new_file_gets_the_usual_mode(tmp_path: Path):
+    # An ordinary open() creates 0666 less the umask (POSIX open(2)); an atomic write must match it.
+    import os
+
+    ordinary = tmp_path / "ordinary.txt"
+    ordinary.write_text("x")
+    atomic = tmp_path / "atomic.txt"
+    atomic_write_text(atomic, "x")
+    assert os.stat(atomic).st_mode & 0o777 == os.stat(ordinary).st_mode & 0o777
+
+
+def test_bytes_round_trip(tmp_path: Path):
+    from clockplan.fileio import atomic_write_bytes
+
+    target = tmp_path / "plot.png"
+    atomic_write_bytes(target, b"\x89PNG\r\n")
+    assert target.read_bytes() == b"\x89PNG\r\n"

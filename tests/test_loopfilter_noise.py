@@ -15,6 +15,7 @@ import pytest
 from scipy import integrate
 
 from clockplan.errors import ClockplanError
+from clockplan.loopfilter.closed_form import resistor_noise_transfer
 from clockplan.loopfilter.design import FilterDesign, LoopSpec, design_filter
 from clockplan.loopfilter.noise import (
     BOLTZMANN,
@@ -22,7 +23,6 @@ from clockplan.loopfilter.noise import (
     loop_filter_phase_noise_dbc,
     resistor_phase_noise,
 )
-from clockplan.loopfilter.symbolic import numeric_resistor_noise_transfer
 
 SPEC = LoopSpec(2.5e-3, 30e6, 100, 25e6)  # invented demo loop
 DESIGNS = [
@@ -47,7 +47,7 @@ def test_integrated_tuning_noise_obeys_equipartition(design: FilterDesign) -> No
         f = math.exp(log_f)
         total = 0.0
         for name in (k for k in parts if k.startswith("r")):
-            transfer = numeric_resistor_noise_transfer(design.order, name)(2j * math.pi * f, *parts.values())
+            transfer = resistor_noise_transfer(design.order, name, 2j * math.pi * f, *parts.values())
             total += 4 * BOLTZMANN * temperature * parts[name] * abs(transfer) ** 2
         return total * f  # df = f d(ln f)
 

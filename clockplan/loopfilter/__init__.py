@@ -3,6 +3,7 @@
 Submodules:
 
 - :mod:`~clockplan.loopfilter.symbolic` -- sympy derivation of Z(s), G(s) and the design equations;
+- :mod:`~clockplan.loopfilter.closed_form` -- the derived results as plain formulas (what runs);
 - :mod:`~clockplan.loopfilter.design` -- :class:`LoopSpec`, :class:`FilterDesign`, design and snapping;
 - :mod:`~clockplan.loopfilter.response` -- open/closed-loop polynomials in s, margins, lock time;
 - :mod:`~clockplan.loopfilter.noise` -- resistor thermal noise at the output;
@@ -10,8 +11,9 @@ Submodules:
 - :mod:`~clockplan.loopfilter.evaluate` -- design, snap and measure in one step;
 - :mod:`~clockplan.loopfilter.render` -- rich tables for the CLI.
 
-Importing this package is cheap: numpy, sympy and rich load only when a
-function that needs them is first used.
+Importing this package is cheap: numpy and rich load only when a function
+that needs them is first used; sympy only for the derivation itself, never on
+the design, analysis or CLI path.
 """
 
 from __future__ import annotations

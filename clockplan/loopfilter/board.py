@@ -26,7 +26,7 @@ from fractions import Fraction
 from clockplan.errors import BoardError, ClockplanError, UnitError, did_you_mean
 from clockplan.eseries import SERIES_NAMES
 from clockplan.loopfilter.design import DEFAULT_POLE_RATIO, FilterDesign, LoopSpec
-from clockplan.loopfilter.symbolic import COMPONENT_NAMES
+from clockplan.loopfilter.closed_form import COMPONENT_NAMES
 from clockplan.units import parse_frequency, parse_number, parse_quantity
 
 __all__ = ["LOOP_FILTER_KEYS", "LoopFilterConfig", "parse_loop_filter"]

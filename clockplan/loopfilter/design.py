@@ -12,10 +12,12 @@ fundamental loop-filter design equations):
 3. the crossover condition ``|G(j*wc)| = 1`` gives the total capacitance A0;
 4. the component values follow from the inverse coefficient map.
 
-The formulas come from :mod:`clockplan.loopfilter.symbolic`; this module
-only solves them.  ``bandwidth`` here is the **open-loop unity-gain
-frequency**, the usual meaning of "loop bandwidth" in this design method; the
-closed-loop -3 dB frequency is somewhat higher
+The formulas are derived in :mod:`clockplan.loopfilter.symbolic` and
+evaluated here in their closed forms (:mod:`clockplan.loopfilter.closed_form`,
+checked against the derivation by the tests); this module only solves them.
+``bandwidth`` here is the **open-loop unity-gain frequency**, the usual
+meaning of "loop bandwidth" in this design method; the closed-loop -3 dB
+frequency is somewhat higher
 (:func:`clockplan.loopfilter.response.closed_loop_bandwidth_hz`).
 
 The design assumes a continuous-time loop, valid while the bandwidth is well
@@ -32,12 +34,13 @@ from fractions import Fraction
 from clockplan.errors import ClockplanError, InfeasibleError
 from clockplan.eseries import snap
 from clockplan.loopfilter._numeric import geometric_bisection
-from clockplan.loopfilter.symbolic import (
+from clockplan.loopfilter.closed_form import (
     COMPONENT_NAMES,
-    numeric_coefficients,
-    numeric_components,
-    numeric_phase_margin,
-    numeric_total_capacitance,
+    component_values,
+    impedance_coefficients,
+    peak_zero_time_constant,
+    phase_margin,
+    total_capacitance,
 )
 
 __all__ = [
@@ -154,7 +157,7 @@ class FilterDesign:
 
     def coefficients(self) -> tuple[float, float, float, float]:
         """Return ``(A0, A1, A2, Tz)`` of ``Z(s) = (1 + s*Tz) / (s*(A2*s**2 + A1*s + A0))``."""
-        return numeric_coefficients(self.order)(*self.components().values())
+        return impedance_coefficients(self.order, *self.components().values())
 
     @classmethod
     def from_components(cls, order: int, values: Mapping[str, float]) -> "FilterDesign":
@@ -181,15 +184,17 @@ def _check_targets(bandwidth_hz: float, phase_margin_deg: float, gamma: float) -
     return wc, math.radians(margin), ratio
 
 
+def _zero_time_constant(wc: float, t1: float, t3: float, gamma: float) -> float:
+    """``Tz = gamma / (wc**2 * (T1 + T3))``: the second-order peak condition, the book's rule for order 3."""
+    return gamma * peak_zero_time_constant(wc, t1 + t3)
+
+
 def _solve_pole_time_constant(order: int, wc: float, margin_rad: float, pole_ratio: float, gamma: float) -> float:
     """Solve the phase-margin equation for ``T1`` by bisection on ``log(T1)``."""
-    phase_margin = numeric_phase_margin(order)
 
     def excess(t1: float) -> float:
         t3 = pole_ratio * t1
-        tz = gamma / (wc**2 * (t1 + t3))
-        extra = (t3,) if order == 3 else ()
-        return phase_margin(wc, tz, t1, *extra) - margin_rad
+        return phase_margin(wc, _zero_time_constant(wc, t1, t3, gamma), t1, t3) - margin_rad
 
     # As T1 -> 0 the margin tends to 90° (> target); it falls steadily as T1
     # grows, so widen the upper end until it is below the target.
@@ -240,15 +245,12 @@ def design_filter(
     ratio = _positive_float(pole_ratio, "pole_ratio", "T3/T1 between 0 and 1, e.g. 0.5") if order == 3 else 0.0
     t1 = _solve_pole_time_constant(order, wc, margin_rad, ratio, gamma_value)
     t3 = ratio * t1
-    tz = gamma_value / (wc**2 * (t1 + t3))
-    extra = (t3,) if order == 3 else ()
-    a0 = numeric_total_capacitance(order)(
-        float(spec.charge_pump_a), float(spec.kvco_hz_per_v), float(spec.n), wc, tz, t1, *extra
-    )
+    tz = _zero_time_constant(wc, t1, t3, gamma_value)
+    a0 = total_capacitance(float(spec.charge_pump_a), float(spec.kvco_hz_per_v), float(spec.n), wc, tz, t1, t3)
     # A0 * (1 + s*T1) * (1 + s*T3) expanded.
     a1, a2 = a0 * (t1 + t3), a0 * t1 * t3
     try:
-        values = numeric_components(order)(a0, a1, a2, tz)
+        values = component_values(order, a0, a1, a2, tz)
     except (ValueError, ZeroDivisionError):  # pragma: no cover - defensive, see below
         values = {}
     # A positive margin implies Tz > T1, T3, which keeps every part positive

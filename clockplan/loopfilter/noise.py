@@ -2,10 +2,11 @@
 
 Each resistor ``R`` carries a thermal noise voltage of one-sided density
 ``4*k*T*R`` V²/Hz (Johnson-Nyquist).  It reaches the VCO tuning input through
-the filter network (:func:`clockplan.loopfilter.symbolic.resistor_noise_transfer`,
-charge pump open), the VCO turns tuning voltage into phase with
-``2*pi*Kvco / s``, and the loop removes what lies inside its bandwidth with
-the error function ``1 / (1 + G)``::
+the filter network, charge pump open
+(:func:`clockplan.loopfilter.closed_form.resistor_noise_transfer`, derived in
+:func:`clockplan.loopfilter.symbolic.resistor_noise_transfer`); the VCO turns
+tuning voltage into phase with ``2*pi*Kvco / s``, and the loop removes what
+lies inside its bandwidth with the error function ``1 / (1 + G)``::
 
     S_phi(f) = 4*k*T*R * |T_R(j*w)|**2 * (Kvco / f)**2 * |E(j*w)|**2    [rad²/Hz, one-sided]
 
@@ -22,9 +23,9 @@ import math
 import numpy as np
 
 from clockplan.errors import ClockplanError
+from clockplan.loopfilter.closed_form import resistor_noise_transfer
 from clockplan.loopfilter.design import FilterDesign, LoopSpec
 from clockplan.loopfilter.response import error_polynomials, frequency_response
-from clockplan.loopfilter.symbolic import numeric_resistor_noise_transfer
 
 __all__ = [
     "BOLTZMANN",
@@ -91,7 +92,7 @@ def resistor_phase_noise(
         )
     offsets = _offsets(offsets_hz)
     s = 2j * np.pi * offsets
-    to_tune = numeric_resistor_noise_transfer(design.order, resistor)(s, *design.components().values())
+    to_tune = resistor_noise_transfer(design.order, resistor, s, *design.components().values())
     error = frequency_response(*error_polynomials(design, spec), offsets)
     density = 4 * BOLTZMANN * _kelvin(temperature_c) * getattr(design, resistor)
     return density * np.abs(to_tune) ** 2 * (float(spec.kvco_hz_per_v) / offsets) ** 2 * np.abs(error) ** 2

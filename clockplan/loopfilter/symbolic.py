@@ -1,7 +1,12 @@
 """Symbolic derivation of the passive loop filter and the open-loop gain (sympy).
 
-Everything numeric in :mod:`clockplan.loopfilter` rests on the formulas derived
-here once per process (cached) and turned into plain-Python functions.
+This is the source of truth for every loop-filter formula.  The run-time code
+does not call it: the results are written out as plain closed forms in
+:mod:`clockplan.loopfilter.closed_form`, and
+``tests/test_loopfilter_closed_form.py`` checks each one against the
+derivation here (symbolically, and numerically at random points).  sympy is
+imported only inside the functions; each derivation runs once per process
+(cached).
 
 The networks (charge pump on the left, VCO tuning input on the right)::
 
@@ -40,13 +45,16 @@ Derivation, step by step:
    (``C2``) is chosen to make ``C3`` as large as possible, so the VCO's own
    input capacitance disturbs the filter least.  ``dC3/dC2 = 0`` is solved
    symbolically (:func:`component_formulas`).
+6. A noise voltage in series with a resistor reaches the tuning input through
+   :func:`resistor_noise_transfer` (charge pump open).
 """
 
 from __future__ import annotations
 
-from collections.abc import Callable
 from functools import lru_cache
 from typing import Any
+
+from clockplan.loopfilter.closed_form import COMPONENT_NAMES
 
 __all__ = [
     "COMPONENT_NAMES",
@@ -57,18 +65,8 @@ __all__ = [
     "total_capacitance",
     "peak_zero_time_constant",
     "component_formulas",
-    "numeric_coefficients",
-    "numeric_phase_margin",
-    "numeric_total_capacitance",
-    "numeric_components",
     "resistor_noise_transfer",
-    "numeric_resistor_noise_transfer",
 ]
-
-COMPONENT_NAMES: dict[int, tuple[str, ...]] = {
-    2: ("r1", "c1", "c2"),
-    3: ("r1", "c1", "c2", "r3", "c3"),
-}
 
 
 def _check_order(order: int) -> int:
@@ -309,91 +307,3 @@ def component_formulas(order: int) -> dict[str, Any]:
     formulas = {str(k): sp.simplify(v.subs(sym["c2"], best_c2)) for k, v in solution.items()}
     formulas["c2"] = sp.simplify(best_c2)
     return formulas
-
-
-def _lambdify(arguments: tuple[str, ...], expression) -> Callable[..., float]:
-    import sympy as sp
-
-    sym = _symbols()
-    return sp.lambdify([sym[a] for a in arguments], expression, modules="math")
-
-
-@lru_cache(maxsize=None)
-def numeric_coefficients(order: int) -> Callable[..., tuple[float, float, float, float]]:
-    """Return ``f(*components) -> (a0, a1, a2, tz)`` as floats (components in COMPONENT_NAMES order).
-
-    Examples
-    --------
-    >>> a0, a1, a2, tz = numeric_coefficients(2)(1e3, 1e-9, 1e-10)
-    >>> round(a0 * 1e9, 9), a2, round(tz * 1e6, 9)
-    (1.1, 0.0, 1.0)
-    """
-    coefficients = impedance_coefficients(order)
-    parts = [_lambdify(COMPONENT_NAMES[order], coefficients[k]) for k in ("a0", "a1", "a2", "tz")]
-
-    def evaluate(*components: float) -> tuple[float, float, float, float]:
-        a0, a1, a2, tz = (float(p(*components)) for p in parts)
-        return a0, a1, a2, tz
-
-    return evaluate
-
-
-@lru_cache(maxsize=None)
-def numeric_phase_margin(order: int) -> Callable[..., float]:
-    """Return ``f(w, tz, t1[, t3]) -> phase margin in radians``.
-
-    Examples
-    --------
-    >>> round(numeric_phase_margin(2)(1.0, 1.0, 1.0), 12)
-    0.0
-    """
-    arguments = ("w", "tz", "t1") + (("t3",) if order == 3 else ())
-    return _lambdify(arguments, phase_margin_expression(order))
-
-
-@lru_cache(maxsize=None)
-def numeric_total_capacitance(order: int) -> Callable[..., float]:
-    """Return ``f(icp, kvco, n, w, tz, t1[, t3]) -> A0`` in farads.
-
-    Examples
-    --------
-    >>> numeric_total_capacitance(2)(1.0, 1.0, 1.0, 1.0, 0.0, 0.0)
-    1.0
-    """
-    arguments = ("icp", "kvco", "n", "w", "tz", "t1") + (("t3",) if order == 3 else ())
-    return _lambdify(arguments, total_capacitance(order))
-
-
-@lru_cache(maxsize=None)
-def numeric_components(order: int) -> Callable[..., dict[str, float]]:
-    """Return ``f(a0, a1, a2, tz) -> {component: value}`` (``a2`` ignored for order 2).
-
-    Examples
-    --------
-    >>> numeric_components(2)(1.1e-9, 1e-16, 0.0, 1e-6)["r1"]
-    1000.0000000000001
-    """
-    formulas = component_formulas(order)
-    names = COMPONENT_NAMES[order]
-    functions = {k: _lambdify(("a0", "a1", "a2", "tz"), formulas[k]) for k in names}
-
-    def evaluate(a0: float, a1: float, a2: float, tz: float) -> dict[str, float]:
-        return {k: float(functions[k](a0, a1, a2, tz)) for k in names}
-
-    return evaluate
-
-
-@lru_cache(maxsize=None)
-def numeric_resistor_noise_transfer(order: int, resistor: str) -> Callable[..., Any]:
-    """Return ``f(s, *components) -> Vtune/Vn`` evaluated with numpy (``s`` may be an array).
-
-    Examples
-    --------
-    >>> complex(numeric_resistor_noise_transfer(2, "r1")(0.0, 1e3, 1e-9, 1e-9))
-    (0.5+0j)
-    """
-    import sympy as sp
-
-    sym = _symbols()
-    arguments = [sym["s"]] + [sym[a] for a in COMPONENT_NAMES[order]]
-    return sp.lambdify(arguments, resistor_noise_transfer(order, resistor), modules="numpy")

@@ -84,7 +84,6 @@ def plan_document(analysis: "Analysis", plan: "BoardPlan", explanation: "Explana
     doc["plan"] = {
         "objective": _objective(plan.best),
         "notes": list(plan.notes),
-        "elapsed_s": round(plan.elapsed_s, 3),
         "loop_bandwidth_hz": {k: _number(v) for k, v in sorted(plan.bandwidths.items())},
     }
     if plan.alternatives:

@@ -34,7 +34,7 @@ def _ppm(error: Fraction | None) -> int | float | None:
     return number(error * 10**6)
 
 
-def _consumer(result: ConsumerResult, status: str) -> dict[str, Any]:
+def _consumer(result: ConsumerResult, status: str, chain_status: str) -> dict[str, Any]:
     doc: dict[str, Any] = {
         "id": result.id,
         "source_chain": list(result.chain),
@@ -45,6 +45,7 @@ def _consumer(result: ConsumerResult, status: str) -> dict[str, Any]:
         "synthesis_error_ppm": _ppm(result.synthesis_error),
         "synthesis_error_exact": format_exact(result.synthesis_error) if result.synthesis_error is not None else None,
         "status": status,
+        "chain_status": chain_status,
     }
     for extra in (result.accuracy, result.jitter):
         if extra is not None and hasattr(extra, "json_fields"):
@@ -73,6 +74,12 @@ def _plls(analysis: Analysis) -> list[dict[str, Any]]:
     return plls
 
 
+def _chain_status(analysis: Analysis, consumer_id: str) -> str:
+    from clockplan.report.content import consumer_status
+
+    return {"PASS": "pass", "warn": "warn", "FAIL": "fail"}[consumer_status(analysis, consumer_id)]
+
+
 def _spur_offset(point) -> Fraction | None:
     from clockplan.plan.spurs import boundary_spur_offset
 
@@ -99,7 +106,7 @@ def analysis_document(analysis: Analysis, command: str = "audit") -> dict[str, A
         "command": command,
         "board": {"name": board.name, "file": board.source_file},
         "verdict": "fail" if analysis.has_errors else "pass",
-        "consumers": [_consumer(c, _status(analysis, c.id)) for c in analysis.consumers],
+        "consumers": [_consumer(c, _status(analysis, c.id), _chain_status(analysis, c.id)) for c in analysis.consumers],
         "plls": _plls(analysis),
         "dividers": [
             {"id": d.id, "ratio": analysis.settings.dividers.get(d.id), "output_hz": number(analysis.frequencies.nodes.get(d.id))}

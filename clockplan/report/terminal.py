@@ -2,24 +2,41 @@
 
 Meaning never rests on colour alone: every status is also a word (``PASS``,
 ``FAIL``, ``warn``), so the text reads right with ``NO_COLOR`` or when piped.
-Budget results may add columns by providing ``table_cells() -> dict[str, str]``.
+The content comes from :mod:`clockplan.report.content`; this module only
+lays it out and colours the status words.
 """
 
 from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
-from clockplan.analysis import CAVEAT, Analysis, ConsumerResult
-from clockplan.findings import Severity
-from clockplan.units import format_exact, format_frequency, format_ppm
+from clockplan.analysis import CAVEAT, Analysis
+from clockplan.report import content
+from clockplan.report.content import Column, Summary, TextTable, clock_tree, consumers_table, settings_table, summarize
 
 if TYPE_CHECKING:
     from rich.console import Console, RenderableType
 
-__all__ = ["make_console", "render_analysis", "consumer_table", "pll_table", "findings_table", "tree_view"]
+__all__ = [
+    "make_console",
+    "render_analysis",
+    "render_text",
+    "rich_table",
+    "print_summary",
+    "consumer_table",
+    "pll_table",
+    "findings_table",
+    "tree_view",
+]
 
-_STATUS_STYLE = {"PASS": "green", "warn": "yellow", "FAIL": "bold red"}
-_SEVERITY_STYLE = {Severity.ERROR: "bold red", Severity.WARNING: "yellow", Severity.INFO: "cyan"}
+_WORD_STYLE = {
+    "PASS": "green",
+    "warn": "yellow",
+    "FAIL": "bold red",
+    "error": "bold red",
+    "warning": "yellow",
+    "info": "cyan",
+}
 
 
 def make_console(width: int | None = None, color: bool | None = None, file=None) -> "Console":
@@ -30,152 +47,182 @@ def make_console(width: int | None = None, color: bool | None = None, file=None)
                    force_terminal=False if color is False else None)
 
 
-def _status(analysis: Analysis, node: str) -> str:
-    severities = {f.severity for f in analysis.findings if f.node == node}
-    return "FAIL" if Severity.ERROR in severities else "warn" if Severity.WARNING in severities else "PASS"
+def _styled(word: str) -> str:
+    from rich.markup import escape
+
+    style = _WORD_STYLE.get(word)
+    return f"[{style}]{escape(word)}[/]" if style else escape(word)
 
 
-def _styled(text: str) -> str:
-    style = _STATUS_STYLE.get(text)
-    return f"[{style}]{text}[/]" if style else text
+def _grid(table: TextTable, widths: list[int] | None = None) -> "RenderableType":
+    from rich.markup import escape
+    from rich.table import Table
+
+    out = Table(title=table.title, title_justify="left", header_style="bold")
+    for index, column in enumerate(table.columns):
+        # Fold rather than crop: if a cell must wrap, no character is lost.
+        out.add_column(column.header, justify="right" if column.align == "right" else "left", overflow="fold",
+                       width=widths[index] if widths else None)
+    for row in table.rows:
+        out.add_row(*[_styled(cell) if i == table.status_column else escape(cell) for i, cell in enumerate(row)])
+    return out
+
+
+def _records(table: TextTable) -> "list[RenderableType]":
+    from rich.markup import escape
+
+    lines = [f"[bold]{escape(table.title)}[/]"]
+    for row in table.rows:
+        lines.append(f"[bold]{escape(row[0])}[/]")
+        for index, (header, cell) in enumerate(zip(table.headers[1:], row[1:]), 1):
+            value = _styled(cell) if index == table.status_column else escape(cell)
+            lines.append(f"  {escape(header)}: {value}")
+    return lines
+
+
+def _column_texts(table: TextTable, index: int) -> list[str]:
+    return [table.columns[index].header, *(row[index] for row in table.rows)]
+
+
+def _longest_word(table: TextTable, index: int) -> int:
+    return max((len(w) for text in _column_texts(table, index) for w in text.split()), default=1)
+
+
+def _fitted_widths(table: TextTable, max_width: int) -> list[int] | None:
+    """Column widths that never break a word, or None if even that does not fit.
+
+    Each column gets its longest word; then, one row at a time (the cheapest
+    first, the header counting as a row), columns widen so the whole row fits
+    on one line, while the table still fits: as few rows as possible wrap.
+    """
+    rules = 1 + 3 * len(table.columns)  # borders and one space of padding each side
+    widths = [_longest_word(table, i) for i in range(len(table.columns))]
+    if rules + sum(widths) > max_width:
+        return None
+    pending = [tuple(len(cell) for cell in row) for row in (table.headers, *table.rows)]
+    while pending:
+        grown = [[max(w, n) for w, n in zip(widths, lengths)] for lengths in pending]
+        cheapest = min(range(len(pending)), key=lambda k: sum(grown[k]))
+        if rules + sum(grown[cheapest]) > max_width:
+            break
+        widths = grown[cheapest]
+        pending = [lengths for lengths in pending if any(n > w for w, n in zip(widths, lengths))]
+    room = max_width - rules - sum(widths)
+    for index in range(len(widths)):  # what is left shortens the wrapped cells that remain
+        longest = max((lengths[index] for lengths in pending), default=0)
+        grant = min(max(longest - widths[index], 0), room)
+        widths[index] += grant
+        room -= grant
+    return widths
+
+
+class _FittedTable:
+    """A grid whose words stay whole, else one block of ``header: value`` lines per row."""
+
+    def __init__(self, table: TextTable) -> None:
+        self.table = table
+
+    def __rich_console__(self, console, options):
+        widths = _fitted_widths(self.table, options.max_width)
+        if widths is None:
+            yield from _records(self.table)
+        else:
+            yield _grid(self.table, widths)
+
+
+def rich_table(table: TextTable) -> "RenderableType":
+    """A rich table from plain cells; the status column's words are coloured, never replaced.
+
+    On a terminal too narrow for the grid without breaking words, each row is
+    printed as its own block of ``header: value`` lines instead, so that no
+    value is cut or split.
+
+    Examples
+    --------
+    >>> make_console(width=80, color=False).print(rich_table(consumers_table(result)))  # doctest: +SKIP
+    """
+    return _FittedTable(table)
 
 
 def consumer_table(analysis: Analysis) -> "RenderableType":
-    """One row per consumer: target, achieved, synthesis error, budget cells, status."""
-    from rich.table import Table
-
-    table = Table(title="Consumers", title_justify="left", header_style="bold")
-    table.add_column("consumer")
-    table.add_column("source")
-    table.add_column("target", justify="right")
-    table.add_column("achieved", justify="right")
-    table.add_column("synthesis error", justify="right")
-    extra_headers: list[str] = []
-    for result in analysis.consumers:
-        for header in _extra_cells(result):
-            if header not in extra_headers:
-                extra_headers.append(header)
-    for header in extra_headers:
-        table.add_column(header, justify="right")
-    table.add_column("status")
-    for result in analysis.consumers:
-        consumer = analysis.board.part(result.id)
-        achieved = format_frequency(result.actual_hz) if result.actual_hz is not None else "unset"
-        error = format_ppm(result.synthesis_error) if result.synthesis_error is not None else "-"
-        cells = _extra_cells(result)
-        table.add_row(
-            result.id,
-            consumer.source,
-            format_frequency(result.target_hz),
-            achieved,
-            error,
-            *[cells.get(h, "-") for h in extra_headers],
-            _styled(_status(analysis, result.id)),
-        )
-    return table
-
-
-def _extra_cells(result: ConsumerResult) -> dict[str, str]:
-    cells: dict[str, str] = {}
-    for extra in (result.accuracy, result.jitter):
-        if extra is not None and hasattr(extra, "table_cells"):
-            cells.update(extra.table_cells())
-    return cells
+    """One row per consumer: target, achieved, synthesis error, budget cells, margin, status."""
+    return rich_table(consumers_table(analysis))
 
 
 def pll_table(analysis: Analysis) -> "RenderableType | None":
     """The settings of every PLL and plain divider."""
-    from rich.table import Table
-
-    if not analysis.board.plls and not analysis.board.dividers:
-        return None
-    from clockplan.plan.spurs import boundary_spur_offset
-
-    table = Table(title="Settings", title_justify="left", header_style="bold")
-    for header in ("part", "mode", "R", "N", "PFD", "VCO", "spur offset", "output dividers"):
-        table.add_column(header, justify="left" if header in ("part", "mode", "output dividers") else "right")
-    for pll in analysis.board.plls:
-        setting = analysis.settings.plls.get(pll.id)
-        point = analysis.frequencies.plls.get(pll.id)
-        outputs = ", ".join(f"{name}=/{d}" for name, d in setting.dividers.items()) if setting else "unset"
-        table.add_row(
-            pll.id,
-            "frac-N" if pll.mode == "fractional" else "int-N",
-            str(setting.r) if setting else "-",
-            format_exact(setting.n) if setting else "-",
-            format_frequency(point.pfd_hz) if point else "-",
-            format_frequency(point.vco_hz) if point else "-",
-            _spur_text(boundary_spur_offset(point.pfd_hz, point.setting.n) if point else None),
-            outputs,
-        )
-    for divider in analysis.board.dividers:
-        ratio = analysis.settings.dividers.get(divider.id)
-        table.add_row(divider.id, "divider", "-", "-", "-", "-", "-", f"/{ratio}" if ratio else "unset")
-    return table
-
-
-def _spur_text(offset) -> str:
-    """The integer-boundary spur offset of a fractional-N setting ("-" for integer N)."""
-    return format_frequency(offset) if offset is not None else "-"
+    table = settings_table(analysis)
+    return rich_table(table) if table else None
 
 
 def findings_table(analysis: Analysis) -> "RenderableType | None":
     """Every finding, most serious first."""
-    from rich.table import Table
-
-    if not analysis.findings:
-        return None
-    table = Table(title="Findings", title_justify="left", header_style="bold")
-    for header in ("severity", "code", "part", "message"):
-        table.add_column(header, overflow="fold")
-    for finding in sorted(analysis.findings, key=lambda f: -f.severity.rank):
-        style = _SEVERITY_STYLE[finding.severity]
-        table.add_row(f"[{style}]{finding.severity.value}[/]", finding.code, finding.node, finding.message)
-    return table
+    table = content.findings_table(analysis)
+    return rich_table(table) if table else None
 
 
 def tree_view(analysis: Analysis) -> "RenderableType":
     """The clock tree from each reference down to its consumers, with frequencies."""
+    from rich.markup import escape
     from rich.tree import Tree
 
-    graph = analysis.graph
-    root = Tree(f"[bold]{analysis.board.name}[/]")
+    root = Tree(f"[bold]{escape(analysis.board.name)}[/]")
 
-    def label(node: str) -> str:
-        hz = analysis.frequencies.nodes.get(node)
-        role = graph.nodes[node]["role"]
-        text = f"{node} ({role.replace('_', ' ')})"
-        if role == "pll" and hz is not None:
-            text += f" VCO {format_frequency(hz)}"
-        elif hz is not None:
-            text += f" {format_frequency(hz)}"
-        if role == "consumer":
-            text += f" {_styled(_status(analysis, node))}"
-        return text
+    def grow(branch, node) -> None:
+        label = escape(node.label) + (f" {_styled(node.status)}" if node.status else "")
+        twig = branch.add(label)
+        for child in node.children:
+            grow(twig, child)
 
-    def grow(branch, node: str) -> None:
-        for child in sorted(graph.successors(node)):
-            grow(branch.add(label(child)), child)
-
-    for ref in analysis.board.references:
-        grow(root.add(label(ref.id)), ref.id)
+    for node in clock_tree(analysis):
+        grow(root, node)
     return root
+
+
+def print_summary(summary: Summary, console: "Console", title: str = "audit") -> None:
+    """The head of the report: board, references, conditions, worst margins, verdict."""
+    from rich.markup import escape
+
+    source = f" ({escape(summary.file)})" if summary.file else ""
+    console.print(f"[bold]clockplan {escape(title)}[/]: {escape(summary.board)}{source}")
+    for label, text in summary.facts:
+        console.print(f"{label}: {escape(text)}")
+    if summary.margins:
+        console.print("worst margins:")
+        for line in summary.margin_lines:
+            console.print(f"  {escape(line)}")
+    else:
+        console.print(f"worst margins: {summary.margin_lines[0]}")
+    console.print(f"verdict: {_styled(summary.verdict)} - {summary.counts}")
 
 
 def render_analysis(analysis: Analysis, console: "Console", title: str = "audit") -> None:
     """Print the full terminal report: summary, tree, consumers, settings, findings."""
-    errors = sum(f.severity is Severity.ERROR for f in analysis.findings)
-    warnings = sum(f.severity is Severity.WARNING for f in analysis.findings)
-    verdict = "[bold red]FAIL[/]" if errors else "[green]PASS[/]"
-    source = f" ({analysis.board.source_file})" if analysis.board.source_file else ""
-    console.print(f"[bold]clockplan {title}[/]: {analysis.board.name}{source}")
-    console.print(f"verdict: {verdict} - {errors} error(s), {warnings} warning(s), {len(analysis.consumers)} consumer(s)")
+    print_summary(summarize(analysis), console, title)
     console.print(tree_view(analysis))
     console.print(consumer_table(analysis))
     for extra in analysis.extras.values():
         if hasattr(extra, "rich_renderable"):
             console.print(extra.rich_renderable())
+        elif hasattr(extra, "report_table"):
+            title, headers, rows = extra.report_table()
+            columns = tuple(Column(str(h)) for h in headers)
+            console.print(rich_table(TextTable(str(title), columns, tuple(tuple(map(str, r)) for r in rows))))
     for renderable in (pll_table(analysis), findings_table(analysis)):
         if renderable is not None:
             console.print(renderable)
     console.print(f"[dim]{CAVEAT}[/]")
+
+
+def render_text(analysis: Analysis, title: str = "audit", width: int = 100) -> str:
+    """The terminal report as plain text (no colour), e.g. for ``--output report.txt``.
+
+    Examples
+    --------
+    >>> print(render_text(result, width=100))  # doctest: +SKIP
+    """
+    import io
+
+    buffer = io.StringIO()
+    render_analysis(analysis, make_console(width=width, color=False, file=buffer), title)
+    return buffer.getvalue()

@@ -1,0 +1,483 @@
+"""What every report says, as plain text cells: the one source for all formats.
+
+The terminal, Markdown, HTML and CSV renderers draw the same tables, the
+same summary and the same tree from here, so a number reads the same in each.
+Nothing in this module styles anything: status is always a word (``PASS``,
+``warn``, ``FAIL``), so meaning never depends on colour.
+
+Budget results (``ConsumerResult.accuracy`` and ``.jitter``) join in through
+small optional hooks, documented in ``DEVELOPERS.md``:
+
+``table_cells() -> dict[str, str]``
+    extra columns for the consumer table;
+``budget_margin() -> tuple[float, str] | None``
+    the fraction of the budget left (``0.38`` = 38 % left, negative = over)
+    and a short text such as ``"+62 ppm of ±100 ppm"``.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable
+from dataclasses import dataclass
+from fractions import Fraction
+from typing import Any
+
+from clockplan.analysis import Analysis, ConsumerResult
+from clockplan.findings import Finding, Severity
+from clockplan.units import format_exact, format_frequency, format_ppm
+
+__all__ = [
+    "Column",
+    "TextTable",
+    "Margin",
+    "TreeNode",
+    "Summary",
+    "STATUS_WORDS",
+    "NO_MARGINS",
+    "status_of",
+    "consumer_status",
+    "status_codes",
+    "format_tolerance",
+    "consumer_margins",
+    "worst_margins",
+    "extra_cells",
+    "consumers_table",
+    "settings_table",
+    "findings_table",
+    "clock_tree",
+    "tree_text",
+    "summarize",
+    "ExtraSection",
+    "extra_sections",
+]
+
+#: The words a status can be; reports may colour them but never replace them.
+STATUS_WORDS = ("PASS", "warn", "FAIL")
+
+#: What the summary says when no consumer has a margin to show.
+NO_MARGINS = "none to show (every target is exact and no ppm or jitter budget is set)"
+
+_SECONDS_PER_YEAR = 365.25 * 86400
+
+
+@dataclass(frozen=True)
+class Column:
+    """A table column: its header and whether numbers in it align right."""
+
+    header: str
+    align: str = "left"
+
+
+@dataclass(frozen=True)
+class TextTable:
+    """A titled table of plain text cells.
+
+    ``status_column`` is the index of a column holding a status or severity
+    word, which renderers may colour (the word itself stays).
+    """
+
+    title: str
+    columns: tuple[Column, ...]
+    rows: tuple[tuple[str, ...], ...]
+    status_column: int | None = None
+
+    @property
+    def headers(self) -> tuple[str, ...]:
+        """The column headers in order."""
+        return tuple(c.header for c in self.columns)
+
+
+@dataclass(frozen=True)
+class Margin:
+    """How much of one budget a consumer has left.
+
+    ``headroom`` is the fraction of the budget still free: ``0.25`` means a
+    quarter left, ``0`` exactly at the limit, negative over it; ``-inf``
+    marks an exact target that is missed (there is no budget to be inside).
+    """
+
+    kind: str
+    consumer: str
+    headroom: float
+    text: str
+
+    @property
+    def describe(self) -> str:
+        """``'38 % left'``, ``'over by 12 %'`` or ``'exact target missed'``."""
+        if math.isinf(self.headroom):
+            return "exact target missed"
+        if self.headroom < 0:
+            return f"over by {-self.headroom * 100:.3g} %"
+        return f"{self.headroom * 100:.3g} % left"
+
+
+@dataclass(frozen=True)
+class TreeNode:
+    """One node of the clock tree as reports draw it."""
+
+    id: str
+    role: str
+    label: str
+    status: str | None
+    children: tuple["TreeNode", ...]
+
+
+@dataclass(frozen=True)
+class Summary:
+    """The head of a report: what board, what conditions, how it went."""
+
+    board: str
+    file: str | None
+    references: tuple[str, ...]
+    conditions: str
+    margins: tuple[Margin, ...]
+    failing: tuple[str, ...]
+    verdict: str
+    errors: int
+    warnings: int
+    consumers: int
+
+    @property
+    def counts(self) -> str:
+        """``'1 error(s), 0 warning(s), 6 consumer(s)'``."""
+        return f"{self.errors} error(s), {self.warnings} warning(s), {self.consumers} consumer(s)"
+
+    @property
+    def facts(self) -> tuple[tuple[str, str], ...]:
+        """The summary's ``(label, text)`` lines after the title (which names the board and its file)."""
+        facts = [("references", "; ".join(self.references)), ("conditions", self.conditions)]
+        if self.failing:
+            facts.append(("failing", "; ".join(self.failing)))
+        return tuple(facts)
+
+    @property
+    def margin_lines(self) -> tuple[str, ...]:
+        """One line per worst margin, e.g. ``'synthesis: uart_clk 32.1 % left (-1.357 % of ±2 %)'``."""
+        if not self.margins:
+            return (NO_MARGINS,)
+        return tuple(f"{m.kind}: {m.consumer} {m.describe} ({m.text})" for m in self.margins)
+
+
+def status_of(analysis: Analysis, node: str) -> str:
+    """``FAIL`` if an error finding is on ``node``, ``warn`` for a warning, else ``PASS``."""
+    severities = {f.severity for f in analysis.findings if f.node == node}
+    if Severity.ERROR in severities:
+        return "FAIL"
+    return "warn" if Severity.WARNING in severities else "PASS"
+
+
+def _status_findings(analysis: Analysis, consumer_id: str) -> list[Finding]:
+    """The findings that set a consumer's status: errors on it or on any part of its chain
+    (a PLL that cannot run fails its consumers), warnings on the consumer itself."""
+    chain = set(analysis.consumer(consumer_id).chain)
+    return [f for f in analysis.findings
+            if (f.node == consumer_id and f.severity is not Severity.INFO)
+            or (f.node in chain and f.severity is Severity.ERROR)]
+
+
+def consumer_status(analysis: Analysis, consumer_id: str) -> str:
+    """``FAIL`` for an error on the consumer or its chain, ``warn`` for a warning on it, else ``PASS``.
+
+    The JSON ``status`` key is the consumer's own findings only (the contract);
+    ``chain_status`` and every human report use this one.
+    """
+    severities = {f.severity for f in _status_findings(analysis, consumer_id)}
+    if Severity.ERROR in severities:
+        return "FAIL"
+    return "warn" if Severity.WARNING in severities else "PASS"
+
+
+def status_codes(analysis: Analysis, consumer_id: str) -> list[str]:
+    """The codes of the findings behind a consumer's status, e.g. ``['ppm-budget', 'vco-range']``."""
+    return sorted({f.code for f in _status_findings(analysis, consumer_id)})
+
+
+def format_tolerance(fraction: Fraction | float) -> str:
+    """A symmetric tolerance for people: ``'±2 %'`` from 0.1 % up, else ``'±20 ppm'``.
+
+    Examples
+    --------
+    >>> format_tolerance(Fraction(1, 50))
+    '±2 %'
+    >>> format_tolerance(Fraction(1, 50000))
+    '±20 ppm'
+    """
+    if fraction == 0:
+        return "exact"
+    magnitude = abs(float(fraction))
+    if magnitude >= 1e-3:
+        return f"±{magnitude * 100:.4g} %"
+    return f"±{magnitude * 1e6:.4g} ppm"
+
+
+def _synthesis_margin(analysis: Analysis, result: ConsumerResult) -> Margin | None:
+    error = result.synthesis_error
+    if error is None:
+        return None
+    allowed = analysis.board.part(result.id).max_synthesis_error
+    if allowed == 0:
+        if error == 0:
+            return None  # an exact target met exactly: there is no budget to measure room in
+        return Margin("synthesis", result.id, -math.inf, f"{format_ppm(error)} off an exact target")
+    headroom = float(1 - abs(error) / allowed)
+    shown = f"{float(error) * 100:+.4g} %" if abs(allowed) >= Fraction(1, 1000) else format_ppm(error)
+    return Margin("synthesis", result.id, headroom, f"{shown} of {format_tolerance(allowed)}")
+
+
+def _hook_margin(kind: str, consumer: str, budget: Any) -> Margin | None:
+    hook = getattr(budget, "budget_margin", None)
+    if budget is None or not callable(hook):
+        return None
+    answer = hook()
+    if answer is None:
+        return None
+    headroom, text = answer
+    return Margin(kind, consumer, float(headroom), str(text))
+
+
+def consumer_margins(analysis: Analysis, result: ConsumerResult) -> list[Margin]:
+    """Every margin known for one consumer: synthesis, then ppm and jitter via their hooks."""
+    found = [
+        _synthesis_margin(analysis, result),
+        _hook_margin("ppm", result.id, result.accuracy),
+        _hook_margin("jitter", result.id, result.jitter),
+    ]
+    return [m for m in found if m is not None]
+
+
+def worst_margins(analysis: Analysis) -> list[Margin]:
+    """For each kind of budget, the consumer with the least room, in a fixed kind order."""
+    worst: dict[str, Margin] = {}
+    for result in analysis.consumers:
+        for margin in consumer_margins(analysis, result):
+            if margin.kind not in worst or margin.headroom < worst[margin.kind].headroom:
+                worst[margin.kind] = margin
+    return [worst[k] for k in ("synthesis", "ppm", "jitter") if k in worst]
+
+
+def extra_cells(result: ConsumerResult) -> dict[str, str]:
+    """The budget columns the accuracy and jitter results offer (``table_cells()``)."""
+    cells: dict[str, str] = {}
+    for extra in (result.accuracy, result.jitter):
+        if extra is not None and hasattr(extra, "table_cells"):
+            cells.update({str(k): str(v) for k, v in extra.table_cells().items()})
+    return cells
+
+
+def _extra_headers(results: Iterable[ConsumerResult]) -> list[str]:
+    headers: list[str] = []
+    for result in results:
+        for header in extra_cells(result):
+            if header not in headers:
+                headers.append(header)
+    return headers
+
+
+def _margin_cell(margins: list[Margin]) -> str:
+    if not margins:
+        return "-"
+    least = min(margins, key=lambda m: m.headroom)
+    return f"{least.kind}: {least.describe}"
+
+
+def consumers_table(analysis: Analysis) -> TextTable:
+    """One row per consumer: target, achieved, synthesis error, budget cells, margin, status.
+
+    Where each consumer's clock comes from is the tree's job (and the JSON's
+    ``source_chain``); leaving it out keeps the table readable at 100 columns.
+    """
+    extra = _extra_headers(analysis.consumers)
+    columns = [Column("consumer"), Column("target", "right"), Column("achieved", "right"),
+               Column("synthesis error", "right")]
+    columns += [Column(h, "right") for h in extra]
+    columns += [Column("margin"), Column("status")]
+    rows = []
+    for result in analysis.consumers:
+        cells = extra_cells(result)
+        rows.append((
+            result.id,
+            format_frequency(result.target_hz),
+            format_frequency(result.actual_hz) if result.actual_hz is not None else "unset",
+            format_ppm(result.synthesis_error) if result.synthesis_error is not None else "-",
+            *[cells.get(h, "-") for h in extra],
+            _margin_cell(consumer_margins(analysis, result)),
+            consumer_status(analysis, result.id),
+        ))
+    return TextTable("Consumers", tuple(columns), tuple(rows), status_column=len(columns) - 1)
+
+
+def settings_table(analysis: Analysis) -> TextTable | None:
+    """The settings of every PLL and plain divider, or None if the board has neither."""
+    board = analysis.board
+    if not board.plls and not board.dividers:
+        return None
+    from clockplan.plan.spurs import boundary_spur_offset
+
+    columns = (Column("part"), Column("mode"), Column("R", "right"), Column("N", "right"),
+               Column("PFD", "right"), Column("VCO", "right"), Column("spur offset", "right"), Column("output dividers"))
+    rows = []
+    for pll in board.plls:
+        setting = analysis.settings.plls.get(pll.id)
+        point = analysis.frequencies.plls.get(pll.id)
+        rows.append((
+            pll.id,
+            "frac-N" if pll.mode == "fractional" else "int-N",
+            str(setting.r) if setting else "-",
+            format_exact(setting.n) if setting else "-",
+            format_frequency(point.pfd_hz) if point else "-",
+            format_frequency(point.vco_hz) if point else "-",
+            # The integer-boundary spur of a fractional-N setting ("-" for an integer N).
+            _frequency_or_dash(boundary_spur_offset(point.pfd_hz, point.setting.n) if point else None),
+            ", ".join(f"{name}=/{d}" for name, d in setting.dividers.items()) if setting else "unset",
+        ))
+    for divider in board.dividers:
+        ratio = analysis.settings.dividers.get(divider.id)
+        rows.append((divider.id, "divider", "-", "-", "-", "-", "-", f"/{ratio}" if ratio else "unset"))
+    return TextTable("Settings", columns, tuple(rows))
+
+
+def _frequency_or_dash(hz: Fraction | None) -> str:
+    return format_frequency(hz) if hz is not None else "-"
+
+
+def findings_table(analysis: Analysis) -> TextTable | None:
+    """Every finding, most serious first (board order within a severity), or None."""
+    if not analysis.findings:
+        return None
+    ordered = sorted(analysis.findings, key=lambda f: -f.severity.rank)
+    rows = tuple((f.severity.value, f.code, f.node, f.message) for f in ordered)
+    columns = (Column("severity"), Column("code"), Column("part"), Column("message"))
+    return TextTable("Findings", columns, rows, status_column=0)
+
+
+def _node_label(analysis: Analysis, node: str) -> tuple[str, str | None]:
+    graph = analysis.graph
+    role = graph.nodes[node]["role"]
+    hz = analysis.frequencies.nodes.get(node)
+    text = f"{node} ({role.replace('_', ' ')})"
+    if hz is None:
+        text += " unset"
+    elif role == "pll":
+        text += f" VCO {format_frequency(hz)}"
+    else:
+        text += f" {format_frequency(hz)}"
+    if role != "consumer":
+        return text, None
+    status = consumer_status(analysis, node)
+    result = analysis.consumer(node)
+    if result.synthesis_error:
+        text += f" (target {format_frequency(result.target_hz)})"
+    return text, status
+
+
+def clock_tree(analysis: Analysis) -> tuple[TreeNode, ...]:
+    """The tree from each reference down to its consumers, children in name order."""
+    graph = analysis.graph
+
+    def grow(node: str) -> TreeNode:
+        label, status = _node_label(analysis, node)
+        children = tuple(grow(child) for child in sorted(graph.successors(node)))
+        return TreeNode(node, graph.nodes[node]["role"], label, status, children)
+
+    return tuple(grow(ref.id) for ref in analysis.board.references)
+
+
+def tree_text(analysis: Analysis) -> str:
+    """The clock tree as plain text with box-drawing branches (for code blocks and logs).
+
+    Examples
+    --------
+    >>> print(tree_text(result))  # doctest: +SKIP
+    Video format converter
+    └── ref_27m (reference) 27 MHz
+        ├── audio_pll (pll) VCO 491.4 MHz
+    """
+    lines = [analysis.board.name]
+
+    def draw(node: TreeNode, prefix: str, last: bool) -> None:
+        status = f" {node.status}" if node.status else ""
+        lines.append(f"{prefix}{'└── ' if last else '├── '}{node.label}{status}")
+        inner = prefix + ("    " if last else "│   ")
+        for index, child in enumerate(node.children):
+            draw(child, inner, index == len(node.children) - 1)
+
+    roots = clock_tree(analysis)
+    for index, root in enumerate(roots):
+        draw(root, "", index == len(roots) - 1)
+    return "\n".join(lines)
+
+
+def _conditions(analysis: Analysis) -> str:
+    cold, hot = analysis.board.temperature_c
+    years = analysis.board.lifetime_s / _SECONDS_PER_YEAR
+    life = f", {years:.3g} year(s) of aging" if years else ""
+    return f"{cold:g} °C to {hot:g} °C{life}"
+
+
+def summarize(analysis: Analysis) -> Summary:
+    """The summary every report starts with.
+
+    Examples
+    --------
+    >>> summarize(result).verdict  # doctest: +SKIP
+    'FAIL'
+    """
+    errors = sum(f.severity is Severity.ERROR for f in analysis.findings)
+    warnings = sum(f.severity is Severity.WARNING for f in analysis.findings)
+    references = tuple(f"{r.id} {format_frequency(r.frequency)} ({r.kind})" for r in analysis.board.references)
+    failing = [f"{r.id} ({', '.join(status_codes(analysis, r.id))})" for r in analysis.consumers
+               if consumer_status(analysis, r.id) == "FAIL"]
+    return Summary(
+        board=analysis.board.name,
+        file=analysis.board.source_file,
+        references=references,
+        conditions=_conditions(analysis),
+        margins=tuple(worst_margins(analysis)),
+        failing=tuple(failing),
+        verdict="FAIL" if errors else "PASS",
+        errors=errors,
+        warnings=warnings,
+        consumers=len(analysis.consumers),
+    )
+
+
+@dataclass(frozen=True)
+class ExtraSection:
+    """A board-wide section a budget stage adds (``Analysis.extras``): a table, or preformatted text."""
+
+    table: TextTable | None = None
+    text: str | None = None
+
+
+def _rendered_text(renderable: Any, width: int) -> str:
+    import io
+
+    from rich.console import Console
+
+    class _AsciiBoxes(io.StringIO):
+        # rich draws tables with ASCII rules for a non-UTF-8 stream; heavy box glyphs are missing
+        # from many monospace fonts and break up in a browser or a code-hosting site.
+        encoding = "ascii"
+
+    buffer = _AsciiBoxes()
+    Console(file=buffer, width=width, no_color=True, force_terminal=False, highlight=False).print(renderable)
+    return "\n".join(line.rstrip() for line in buffer.getvalue().rstrip().splitlines())
+
+
+def extra_sections(analysis: Analysis, width: int = 100) -> list[ExtraSection]:
+    """The sections the budget stages put in ``Analysis.extras``, for the Markdown and HTML reports.
+
+    An extra offering ``report_table() -> (title, headers, rows)`` becomes a
+    table; one offering only ``rich_renderable()`` (its terminal view) is kept
+    as preformatted text, so nothing a stage reports is left out.
+    """
+    sections = []
+    for extra in analysis.extras.values():
+        if callable(getattr(extra, "report_table", None)):
+            title, headers, rows = extra.report_table()
+            columns = tuple(Column(str(h)) for h in headers)
+            sections.append(ExtraSection(table=TextTable(str(title), columns, tuple(tuple(map(str, r)) for r in rows))))
+        elif callable(getattr(extra, "rich_renderable", None)):
+            sections.append(ExtraSection(text=_rendered_text(extra.rich_renderable(), width)))
+    return sections
