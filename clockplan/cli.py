@@ -476,7 +476,9 @@ def _add_synthesize_command(commands) -> None:
     synthesize.add_argument("--library", metavar="FILE", help="a parts library file added to the shipped templates")
     synthesize.add_argument("--time-limit", type=_seconds, default=None, metavar="S",
                             help="search budget in seconds (default: the board's [synthesis] time_limit, else 30)")
-    _add_output_options(synthesize)
+    synthesize.add_argument("--json", action="store_true", help="write the synthesis JSON document (docs/synthesis.md) to stdout")
+    synthesize.add_argument("--width", type=int, default=None, help="terminal width for the tables")
+    synthesize.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
     synthesize.set_defaults(run=_run_synthesize)
 
 
