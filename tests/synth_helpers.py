@@ -34,3 +34,13 @@ def consumer_list(
         if budget:
             lines.append(budget)
     return parse_consumer_list("\n".join(lines) + "\n", "test-list.toml")
+
+
+def pll_template(name: str, mode: str, vco: tuple[str, str], pfd: tuple[str, str], r_max: int, n: tuple[int, int], divider: tuple[int, int], power: str = "0.1 W") -> str:
+    """A test part: a PLL template's library text (invented figures, for tests only)."""
+    rule = "denominator = 8\n" if mode == "fractional" else ""
+    return (
+        f'[[pll]]\nname = "{name}"\nlabel = "test part"\nmode = "{mode}"\n{rule}vco = ["{vco[0]}", "{vco[1]}"]\n'
+        f'pfd = ["{pfd[0]}", "{pfd[1]}"]\nr = [1, {r_max}]\nn = [{n[0]}, {n[1]}]\noutputs = 4\n'
+        f'output_divider = [{divider[0]}, {divider[1]}]\npower = "{power}"\ncost = 1\n'
+    )

@@ -13,6 +13,7 @@ from hypothesis import strategies as st
 from clockplan.synth.classes import ConsumerClass
 from clockplan.synth.compat import VcoCompat, low_ratio, needs_low_divider
 from clockplan.synth.library import default_library, parse_library
+from tests.synth_helpers import pll_template
 
 MHZ = Fraction(10**6)
 
@@ -119,32 +120,10 @@ def test_sharing_is_hereditary(frequencies):
                     assert compat.check(template, subset).ok
 
 
-_SMALL = """
-[[pll]]
-name = "small-int"
-mode = "integer"
-vco = ["400 MHz", "800 MHz"]
-pfd = ["1 MHz", "10 MHz"]
-r = [1, 10]
-n = [10, 800]
-outputs = 4
-output_divider = [1, 64]
-power = "0.1 W"
-cost = 1
-
-[[pll]]
-name = "small-frac"
-mode = "fractional"
-denominator = 8
-vco = ["400 MHz", "800 MHz"]
-pfd = ["1 MHz", "10 MHz"]
-r = [1, 10]
-n = [10, 800]
-outputs = 4
-output_divider = [1, 64]
-power = "0.1 W"
-cost = 1
-"""
+_SMALL = "\n".join(
+    pll_template(name, mode, ("400 MHz", "800 MHz"), ("1 MHz", "10 MHz"), 10, (10, 800), (1, 64))
+    for name, mode in (("small-int", "integer"), ("small-frac", "fractional"))
+)
 
 
 def _brute_force_exact(template, input_hz, frequencies) -> bool:

@@ -15,7 +15,7 @@ from clockplan.synth.evaluate import Evaluator
 from clockplan.synth.grouping import BranchAndBound, LeafJudge, SearchStats, TopTrees, enumerate_groupings, exhaustive_search
 from clockplan.synth.synthesize import SynthesisOptions, library_for, synthesize
 from clockplan.synth.tree import Problem
-from tests.synth_helpers import consumer_list
+from tests.synth_helpers import consumer_list, pll_template
 
 # Interface clocks with their budgets (the standards table names the source of each).
 POOL = [
@@ -102,20 +102,7 @@ def test_the_48_khz_audio_family_shares_one_vco():
     assert (point.vco_hz / Fraction(49_152_000)).denominator == 1
 
 
-_INTEGER_ONLY_ABOVE_5_MHZ = """
-[[pll]]
-name = "int-synth-hi-pfd"
-label = "test part: integer-N, PFD 5 MHz and up"
-mode = "integer"
-vco = ["2.4 GHz", "3.2 GHz"]
-pfd = ["5 MHz", "100 MHz"]
-r = [1, 255]
-n = [16, 4095]
-outputs = 4
-output_divider = [4, 511]
-power = "0.3 W"
-cost = 3
-"""
+_INTEGER_ONLY_ABOVE_5_MHZ = pll_template("int-synth-hi-pfd", "integer", ("2.4 GHz", "3.2 GHz"), ("5 MHz", "100 MHz"), 255, (16, 4095), (4, 511), "0.3 W")
 
 
 def test_the_two_frame_rate_families_need_two_vcos_and_a_fractional_path(tmp_path):

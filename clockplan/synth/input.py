@@ -11,7 +11,6 @@ keeps refusing such a file: it needs sources and a reference.
 
 from __future__ import annotations
 
-import tomllib
 from dataclasses import dataclass
 from fractions import Fraction
 from pathlib import Path
@@ -21,15 +20,15 @@ from clockplan.boardfile import (  # the board reader's own table readers, share
     TableReader,
     _Context,
     _finished,
-    _LineIndex,
     _read_board_section,
     _read_consumer,
     _read_reference,
     _text,
     _whole,
 )
-from clockplan.errors import BoardError, did_you_mean
+from clockplan.errors import BoardError
 from clockplan.parts import Consumer, Reference
+from clockplan.synth.reading import read_document, read_text_file
 from clockplan.units import parse_frequency, parse_ratio
 
 __all__ = ["SynthesisSettings", "ConsumerList", "parse_consumer_list", "load_consumer_list", "PENDING_SOURCE"]
@@ -170,17 +169,12 @@ def parse_consumer_list(text: str, file: str | None = None) -> ConsumerList:
     >>> spec.consumers[0].id, spec.consumers[0].budget.key
     ('phy', '1000base-x')
     """
-    try:
-        doc = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as err:
-        raise BoardError(f"not valid TOML: {err}", file=file, hint="check quoting, brackets and '=' on that line") from None
-    ctx = _Context(file, _LineIndex(text))
-    for section in doc:
-        if section not in _SECTIONS:
-            hint = did_you_mean(section, _SECTIONS) or "sections of a consumer list: " + ", ".join(_SECTIONS)
-            if section in ("pll", "divider", "buffer"):
-                hint = "synthesis chooses PLLs, dividers and buffers; offer your own parts in a library file ([synthesis] library)"
-            raise ctx.error(section, f"unknown section '{section}'", hint)
+    def hint_for(section: str) -> str | None:
+        if section in ("pll", "divider", "buffer"):
+            return "synthesis chooses PLLs, dividers and buffers; offer your own parts in a library file ([synthesis] library)"
+        return None
+
+    doc, ctx = read_document(text, file, _SECTIONS, hint_for)
     name, temperature, lifetime = _read_board_section(doc, ctx)
     consumers, raws = _read_consumers(doc, ctx)
     reference, raw_reference = _read_fixed_reference(doc, ctx)
@@ -202,15 +196,4 @@ def parse_consumer_list(text: str, file: str | None = None) -> ConsumerList:
 
 def load_consumer_list(path: str | Path) -> ConsumerList:
     """Read a consumer-list board file (see :func:`parse_consumer_list`)."""
-    path = Path(path)
-    try:
-        text = path.read_bytes().decode("utf-8")
-    except FileNotFoundError:
-        raise BoardError("file not found", file=str(path), hint="check the path") from None
-    except IsADirectoryError:
-        raise BoardError("is a folder, not a board file", file=str(path), hint="name a .toml file") from None
-    except UnicodeDecodeError as err:
-        raise BoardError(f"not UTF-8 text (byte {err.start})", file=str(path), hint="save the board file as UTF-8 TOML") from None
-    except OSError as err:
-        raise BoardError(f"cannot read the file: {err.strerror}", file=str(path)) from None
-    return parse_consumer_list(text, str(path))
+    return parse_consumer_list(read_text_file(path, "board file"), str(path))

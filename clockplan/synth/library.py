@@ -27,10 +27,8 @@ from typing import Any
 from clockplan.boardfile import (  # the board reader's located value parsers, shared on purpose
     ID_PATTERN,
     TableReader,
-    _Context,
     _frequency_range,
     _int_choices,
-    _LineIndex,
     _located,
     _mode,
     _pair,
@@ -40,6 +38,7 @@ from clockplan.boardfile import (  # the board reader's located value parsers, s
 )
 from clockplan.errors import BoardError, did_you_mean
 from clockplan.parts import Buffer, Denominator, Divider, FrequencyRange, IntChoices, Pll, PllOutput, Reference
+from clockplan.synth.reading import read_document, read_text_file
 from clockplan.units import parse_dbc, parse_frequency, parse_quantity, parse_ratio
 
 __all__ = [
@@ -474,14 +473,7 @@ def parse_library(text: str, file: str | None = None) -> PartsLibrary:
     >>> lib.buffers[0].outputs
     4
     """
-    try:
-        doc = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as err:
-        raise BoardError(f"not valid TOML: {err}", file=file, hint="check quoting, brackets and '=' on that line") from None
-    ctx = _Context(file, _LineIndex(text))
-    for section in doc:
-        if section not in _SECTIONS:
-            raise ctx.error(section, f"unknown section '{section}'", did_you_mean(section, _SECTIONS) or "sections: " + ", ".join(_SECTIONS))
+    doc, ctx = read_document(text, file, _SECTIONS)
     groups = []
     for section in _SECTIONS:
         entries = doc.get(section, [])
@@ -513,13 +505,7 @@ def load_library(path: str | Path) -> PartsLibrary:
     --------
     >>> default_library().merged(load_library("my-parts.toml"))  # doctest: +SKIP
     """
-    path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise BoardError("library file not found", file=str(path), hint="check the path of --library or [synthesis] library") from None
-    except (OSError, UnicodeDecodeError) as err:
-        raise BoardError(f"cannot read the library file: {err}", file=str(path)) from None
+    text = read_text_file(path, "library file")
     return parse_library(text, str(path))
 
 
