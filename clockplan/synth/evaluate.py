@@ -151,7 +151,8 @@ class Evaluator:
                     f"no setting of {block.kind.name} makes {labels} exactly from {reference.label()}: "
                     "no common VCO multiple is reachable with an allowed R, PFD and N"
                 )
-                return self._cache.setdefault(key, Check(False, (Failure(block.kind.name, "no-plan", message),)))
+                node = self.problem.classes[block.own[0]].consumers[0]
+                return self._cache.setdefault(key, Check(False, (Failure(node, "no-plan", message),)))
             exact_own = tuple(c for c in block.own if self.problem.classes[c].exact)
             if key not in self._cache and exact_own and len(exact_own) < len(block.own):
                 # A setting that serves the whole block serves its exact part: if the exact part has no plan,

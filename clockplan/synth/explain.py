@@ -114,7 +114,7 @@ def _pair_reason(judge: LeafJudge, reference: MainReference | None, templates: l
         for b in second.own:
             verdicts = [problem.compat.check(t, (a, b)) for t in templates]
             if verdicts and not any(v.ok for v in verdicts):
-                return Reason("no-common-vco", _consumers(judge, (a, b)), verdicts[-1].reason)
+                return Reason("no-common-vco", _consumers(judge, (a, b)), f"no allowed PLL puts them on one VCO: {verdicts[-1].reason}")
     own = tuple(sorted(first.own + second.own))
     attached = tuple(sorted(first.attached + second.attached))
     verdicts = [(t, problem.compat.check(t, own)) for t in templates]
@@ -226,6 +226,8 @@ def _next_tree(best: Candidate, runner_up: Candidate | None) -> str | None:
     margin = ""
     if runner_up.margin is not None and best.margin is not None:
         margin = f", worst margin {runner_up.margin:.0%} against {best.margin:.0%}"
+    if (parts, power, cost) == (0, 0, 0):
+        return f"The next tree costs the same ({best.cost.parts} parts){margin}."
     return (
         f"The next tree costs {parts:+d} part(s), {float(power) * 1000:+.1f} mW and {float(cost):+.2f} in relative cost{margin}."
     )
