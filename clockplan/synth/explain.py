@@ -9,6 +9,7 @@ ppm budget missed on a cheaper part, no feasible plan).
 
 from __future__ import annotations
 
+import time
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from fractions import Fraction
@@ -236,6 +237,10 @@ def _next_tree(best: Candidate, runner_up: Candidate | None) -> str | None:
 # --------------------------------------------------------------------------- no passing tree
 
 
+#: Time the explanation of a board without a passing tree may take to try each clock alone.
+EXPLAIN_SECONDS = 15.0
+
+
 def _blocking(judge: LeafJudge, stopped: bool) -> list[Reason]:
     """What keeps every tree from meeting its budgets: classes no part serves, or no shared reference."""
     problem = judge.problem
@@ -243,7 +248,11 @@ def _blocking(judge: LeafJudge, stopped: bool) -> list[Reason]:
     if stopped:
         reasons.append(Reason("time-limit", (), "the search stopped at its time limit before it found a passing tree; raise --time-limit"))
     served_by: dict[int, set[Fraction | None]] = {}
+    deadline = time.monotonic() + EXPLAIN_SECONDS
     for klass in problem.classes:
+        if time.monotonic() > deadline:
+            reasons.append(Reason("time-limit", (), f"the explanation tried the clocks alone for {EXPLAIN_SECONDS:g} s and stopped; not every clock was examined"))
+            return reasons[:MAX_REASONS]
         found, why = _serve_alone(judge, klass.index)
         served_by[klass.index] = found
         if not found:
@@ -272,10 +281,12 @@ def _serve_alone(judge: LeafJudge, cls: int) -> tuple[set[Fraction | None], str]
         else:
             why = f"{kind.name}: {check.reasons()[0] if check.reasons() else 'fails'}"
     for hz, references in judge.references.items():
-        for reference in references:
-            if not problem.fits(reference, cls):
-                why = f"on a {reference.name} at {format_frequency(hz)} its ppm budget breaks even with exact synthesis"
-                continue
+        fitting = [r for r in references if problem.fits(r, cls)]
+        if not fitting:
+            why = f"at {format_frequency(hz)} its ppm budget breaks on every allowed grade ({', '.join(r.name for r in references)}) even with exact synthesis"
+        # Only the dearest grade that fits (usually the most accurate and quietest) is tried, to keep the
+        # explanation quick: a clock that fails there may, rarely, pass on another grade.
+        for reference in fitting[-1:]:
             for kind in judge.kinds(hz, (cls,), ()):
                 if not isinstance(kind, PllTemplate):
                     continue
