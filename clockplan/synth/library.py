@@ -65,7 +65,7 @@ _ACCURACY_KEYS = (
     "supply_sensitivity", "load_sensitivity", "distribution", "trim", "power",
 )
 #: Keys of a PLL template that are the board file's own [[pll]] keys, written as they are.
-PLL_PART_KEYS = ("mode", "vco", "pfd", "r", "n", "denominator", "max_denominator", "input_range", "loop", "noise")
+_PLL_PART_KEYS = ("mode", "vco", "pfd", "r", "n", "denominator", "max_denominator", "input_range", "loop", "noise")
 
 
 # --------------------------------------------------------------------------- templates
@@ -413,7 +413,7 @@ def _read_pll(reader: TableReader) -> PllTemplate:
         noise=_located(reader, lambda: parse_pll_noise(noise, reader.path("noise"))) if noise is not None else None,
         power_w=reader.get("power", _power),
         cost=reader.get("cost", _cost),
-        raw={k: reader.table[k] for k in PLL_PART_KEYS if k in reader.table},
+        raw={k: reader.table[k] for k in _PLL_PART_KEYS if k in reader.table},
     )
     return template
 
