@@ -135,3 +135,22 @@ def test_every_proposed_tree_passes_plan_and_audit_unchanged(picks):
         assert all(r.synthesis_error is not None for r in analysis.consumers)
         # The planner keeps the written settings: the file is already planned.
         assert plan_board(board).settings == board.given_settings()
+
+
+def test_a_fixed_reference_is_the_root_of_every_tree():
+    # CTA-861 pixel clocks from the board's own 27 MHz oscillator: 148.5 MHz = 27 MHz x 55 / 10.
+    text = (
+        '[board]\nname = "fixed"\n[synthesis]\nallow = ["int-synth-2", "int-synth-4", "fanout-2", "divider"]\n'
+        '[[reference]]\nid = "main"\nfrequency = "27 MHz"\nkind = "tcxo"\n'
+        '[[consumer]]\nid = "pix"\nfrequency = "148.5 MHz"\nstandard = "CTA-861"\n'
+        '[[consumer]]\nid = "half"\nfrequency = "74.25 MHz"\nstandard = "CTA-861"\n'
+    )
+    from clockplan.synth.input import parse_consumer_list
+
+    result = synthesize(parse_consumer_list(text, "fixed.toml"), options=SynthesisOptions(alternatives=1, time_limit_s=20))
+    for proposed in result.trees:
+        assert proposed.candidate.tree.reference.fixed.id == "main"
+        board = parse_board(proposed.verified.text)
+        assert [r.id for r in board.references] == ["main"] and board.references[0].kind == "tcxo"
+        (point,) = proposed.verified.analysis.frequencies.plls.values()
+        assert point.input_hz == 27_000_000 and point.vco_hz % Fraction(148_500_000) == 0
