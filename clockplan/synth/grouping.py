@@ -20,15 +20,21 @@ Two searches share that judge:
   all: the reference the tests hold the search to on small cases.
 * :class:`BranchAndBound` walks the same groupings depth first, cheapest
   option first, and cuts a branch when (a) a block can no longer share one
-  VCO on any template (:mod:`clockplan.synth.compat`; hereditary, so no
-  completion could repair it), or (b) its lower bound already exceeds the
-  K-th best tree found. The lower bound is the cost of the parts already
+  VCO on any template (:mod:`clockplan.synth.compat`), or no main reference
+  keeps every exact class on it inside its ppm budget (both hereditary, so
+  no completion could repair them), or (b) its lower bound already exceeds
+  the K-th best tree found. The lower bound is the cost of the parts already
   placed -- every block at its cheapest still-possible template with its
-  current layout, the direct classes, and the main reference with the fan-out
-  its certain loads need -- which never decreases as classes are added
-  (:mod:`clockplan.synth.layout`), so the cut is safe: run to the end, the
+  current layout, the direct classes, and the cheapest fitting main reference
+  with the fan-out its certain loads need -- which never decreases as classes
+  are added (:mod:`clockplan.synth.layout`), plus one cheapest part for each
+  class of a greedy set still to place that must add a part (see
+  :meth:`BranchAndBound._homeless`). The cut is safe: run to the end, the
   search returns the same best trees as the enumeration. With a time limit it
   returns the best found and says that it stopped.
+
+Leaves are judged with the K-th best tree's cost as a ceiling: templates that
+would price the tree above it are not checked.
 """
 
 from __future__ import annotations

@@ -3,8 +3,9 @@
 1. Group the consumers by frequency (:mod:`clockplan.synth.classes`).
 2. For every main-reference frequency the library offers (the board may
    restrict them), search the groupings (:mod:`clockplan.synth.grouping`):
-   most promising frequencies first, all runs sharing one list of the best
-   trees and one time limit.
+   a short probe of each frequency first (its first few groupings, to set a
+   bound), then a full run of each, best probes first, every run sharing one
+   list of the best trees and the time left.
 3. Verify the best trees through their written board files
    (:func:`clockplan.synth.evaluate.verify_tree`): only a tree that passes is
    proposed as passing.
