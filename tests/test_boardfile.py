@@ -42,6 +42,7 @@ BAD_BOARDS = [
     pytest.param(_replace('input = "ref"', 'input = "pll_a.out0"'), r"loop", id="loop"),
     pytest.param(_replace('denominator = "2^24"\n', ""), r"fractional PLL needs its denominator", id="missing-denominator"),
     pytest.param(_replace('[[reference]]', '[[refrence]]'), r"unknown section 'refrence'.*did you mean 'reference'", id="unknown-section"),
+    pytest.param(MINIMAL + '\n[synthesis]\nalternatives = 2\n', r"unknown section 'synthesis'.*clockplan synthesize", id="consumer-list-section"),
     pytest.param(_replace('id = "phy0"\n', ""), r"consumer\[0\].*missing key 'id'", id="missing-key"),
     pytest.param(_replace('outputs = { out0 = 20, out1 = 16 }', 'outputs = { out0 = 20, out7 = 16 }'), r"no output 'out7'", id="settings-unknown-output"),
     pytest.param(_replace('out0 = 20,', 'out0 = 20.5,'), r"not a whole number", id="fractional-divider"),
@@ -71,6 +72,14 @@ def test_error_carries_the_line_number(tmp_path: Path):
     line = text.splitlines().index('source = "pll_a.out2"') + 1
     assert caught.value.line == line
     assert caught.value.key == "consumer[1].source"
+
+
+def test_toml_syntax_error_carries_the_line_number():
+    # tomllib reports the line of a syntax error; the board reader passes it on.
+    text = MINIMAL + "\n[[consumer]]\nid = \"broken\n"
+    with pytest.raises(BoardError, match="not valid TOML") as caught:
+        parse_board(text, "x.toml")
+    assert caught.value.line == len(text.splitlines())
 
 
 @pytest.mark.parametrize(

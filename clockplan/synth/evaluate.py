@@ -27,7 +27,6 @@ from clockplan.synth.tree import Block, DirectClass, MainReference, Problem, Tre
 
 if TYPE_CHECKING:
     from clockplan.analysis import Analysis
-    from clockplan.parts import Board
     from clockplan.plan.board_planner import BoardPlan
 
 __all__ = ["Failure", "Check", "check_analysis", "Evaluator", "Verified", "verify_tree"]

@@ -42,7 +42,7 @@ from __future__ import annotations
 import itertools
 import time
 from collections.abc import Iterator, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from fractions import Fraction
 from typing import Any
 

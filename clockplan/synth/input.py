@@ -16,19 +16,22 @@ from fractions import Fraction
 from pathlib import Path
 from typing import Any
 
-from clockplan.boardfile import (  # the board reader's own table readers, shared on purpose
-    TableReader,
-    _Context,
-    _finished,
-    _read_board_section,
-    _read_consumer,
-    _read_reference,
-    _text,
-    _whole,
+from clockplan.boardfile import (
+    finish_part,
+    read_board_section,
+    read_consumer,
+    read_reference,
 )
 from clockplan.errors import BoardError
 from clockplan.parts import Consumer, Reference
-from clockplan.synth.reading import read_document, read_text_file
+from clockplan.tomlread import (
+    Locator,
+    TableReader,
+    nonempty_text,
+    read_document,
+    read_text_file,
+    whole_number,
+)
 from clockplan.units import parse_frequency, parse_ratio
 
 __all__ = ["SynthesisSettings", "ConsumerList", "parse_consumer_list", "load_consumer_list", "PENDING_SOURCE"]
@@ -95,15 +98,15 @@ def _seconds(value: Any) -> float:
     return float(seconds)
 
 
-def _read_settings(doc: dict[str, Any], ctx: _Context) -> SynthesisSettings:
+def _read_settings(doc: dict[str, Any], ctx: Locator) -> SynthesisSettings:
     if "synthesis" not in doc:
         return SynthesisSettings()
     reader = TableReader(doc["synthesis"], "synthesis", ctx)
     settings = SynthesisSettings(
-        library=reader.get("library", _text, None),
+        library=reader.get("library", nonempty_text, None),
         allow=reader.get("allow", _strings, None),
         reference_frequencies=reader.get("reference_frequencies", _frequencies, None),
-        alternatives=reader.get("alternatives", lambda v: _whole(v, 0), None),
+        alternatives=reader.get("alternatives", lambda v: whole_number(v, 0), None),
         time_limit_s=reader.get("time_limit", _seconds, None),
     )
     reader.raw("description")
@@ -111,7 +114,7 @@ def _read_settings(doc: dict[str, Any], ctx: _Context) -> SynthesisSettings:
     return settings
 
 
-def _read_consumers(doc: dict[str, Any], ctx: _Context) -> tuple[tuple[Consumer, ...], tuple[dict[str, Any], ...]]:
+def _read_consumers(doc: dict[str, Any], ctx: Locator) -> tuple[tuple[Consumer, ...], tuple[dict[str, Any], ...]]:
     entries = doc.get("consumer", [])
     if not isinstance(entries, list):
         raise ctx.error("consumer", "'consumer' must be an array of tables", "write each one under [[consumer]]")
@@ -126,7 +129,7 @@ def _read_consumers(doc: dict[str, Any], ctx: _Context) -> tuple[tuple[Consumer,
                 "remove 'source' here; a board whose tree is drawn is for 'clockplan plan' or 'clockplan audit'",
             )
         reader = TableReader({**table, "source": PENDING_SOURCE} if isinstance(table, dict) else table, key, ctx)
-        consumer = _finished(reader, _read_consumer(reader))
+        consumer = finish_part(reader, read_consumer(reader))
         if consumer.id in seen:
             raise ctx.error(f"{key}.id", f"duplicate id {consumer.id!r} (already used by {seen[consumer.id]})", "give every consumer its own id")
         seen[consumer.id] = f"{key}.id"
@@ -137,7 +140,7 @@ def _read_consumers(doc: dict[str, Any], ctx: _Context) -> tuple[tuple[Consumer,
     return tuple(consumers), tuple(raws)
 
 
-def _read_fixed_reference(doc: dict[str, Any], ctx: _Context) -> tuple[Reference | None, dict[str, Any] | None]:
+def _read_fixed_reference(doc: dict[str, Any], ctx: Locator) -> tuple[Reference | None, dict[str, Any] | None]:
     entries = doc.get("reference", [])
     if not isinstance(entries, list):
         raise ctx.error("reference", "'reference' must be an array of tables", "write it under [[reference]]")
@@ -150,7 +153,7 @@ def _read_fixed_reference(doc: dict[str, Any], ctx: _Context) -> tuple[Reference
     if not entries:
         return None, None
     reader = TableReader(entries[0], "reference[0]", ctx)
-    return _finished(reader, _read_reference(reader)), dict(entries[0])
+    return finish_part(reader, read_reference(reader)), dict(entries[0])
 
 
 def parse_consumer_list(text: str, file: str | None = None) -> ConsumerList:
@@ -175,7 +178,7 @@ def parse_consumer_list(text: str, file: str | None = None) -> ConsumerList:
         return None
 
     doc, ctx = read_document(text, file, _SECTIONS, hint_for)
-    name, temperature, lifetime = _read_board_section(doc, ctx)
+    name, temperature, lifetime = read_board_section(doc, ctx)
     consumers, raws = _read_consumers(doc, ctx)
     reference, raw_reference = _read_fixed_reference(doc, ctx)
     if reference is not None and reference.id in {c.id for c in consumers}:

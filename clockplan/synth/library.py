@@ -24,21 +24,30 @@ from importlib import resources
 from pathlib import Path
 from typing import Any
 
-from clockplan.boardfile import (  # the board reader's located value parsers, shared on purpose
+from clockplan.boardfile import pll_mode, read_denominator
+from clockplan.errors import BoardError, did_you_mean
+from clockplan.parts import (
+    Buffer,
+    Denominator,
+    Divider,
+    FrequencyRange,
+    IntChoices,
+    Pll,
+    PllOutput,
+    Reference,
+)
+from clockplan.tomlread import (
     ID_PATTERN,
     TableReader,
-    _frequency_range,
-    _int_choices,
-    _located,
-    _mode,
-    _pair,
-    _read_denominator,
-    _text,
-    _whole,
+    frequency_range,
+    int_choices,
+    located,
+    min_max_pair,
+    nonempty_text,
+    read_document,
+    read_text_file,
+    whole_number,
 )
-from clockplan.errors import BoardError, did_you_mean
-from clockplan.parts import Buffer, Denominator, Divider, FrequencyRange, IntChoices, Pll, PllOutput, Reference
-from clockplan.synth.reading import read_document, read_text_file
 from clockplan.units import parse_dbc, parse_frequency, parse_quantity, parse_ratio
 
 __all__ = [
@@ -315,7 +324,7 @@ def _power(value: Any) -> Fraction:
 
 
 def _name(value: Any) -> str:
-    text = _text(value)
+    text = nonempty_text(value)
     if not ID_PATTERN.match(text):
         raise BoardError(f"invalid template name {text!r}", hint="start with a letter; use letters, digits, '_' or '-'")
     return text
@@ -329,7 +338,7 @@ def _frequencies(value: Any) -> tuple[Fraction, ...]:
 
 def _common(reader: TableReader) -> tuple[str, str]:
     name = reader.get("name", _name)
-    label = reader.get("label", _text, name)
+    label = reader.get("label", nonempty_text, name)
     reader.raw("description")
     return name, label
 
@@ -344,7 +353,7 @@ def _read_oscillator(reader: TableReader) -> OscillatorTemplate:
     from clockplan.ppm.parse import parse_oscillator_spec
 
     name, label = _common(reader)
-    grade = reader.get("grade", _text, None)
+    grade = reader.get("grade", nonempty_text, None)
     given = [k for k in _ACCURACY_KEYS if reader.has(k)]
     if grade is not None and given:
         raise reader.error(given[0], f"'{given[0]}' and 'grade' are both given", "take the grade's typical figures, or write them all here")
@@ -357,13 +366,13 @@ def _read_oscillator(reader: TableReader) -> OscillatorTemplate:
         accuracy = {k: reader.raw(k) for k in given}
     for key in _ACCURACY_KEYS:
         reader.raw(key)
-    spec = _located(reader, lambda: parse_oscillator_spec(accuracy, reader.key))
+    spec = located(reader, lambda: parse_oscillator_spec(accuracy, reader.key))
     if spec.power is None:
         raise reader.error(None, "an oscillator template needs its power", 'add power = { warmup = "20 mW", steady = "20 mW", warmup_time = "10 ms" }')
     phase_noise = reader.raw("phase_noise")
     points = None
     if phase_noise is not None:
-        _located(reader, lambda: parse_phase_noise(phase_noise, reader.path("phase_noise")))
+        located(reader, lambda: parse_phase_noise(phase_noise, reader.path("phase_noise")))
         if not isinstance(phase_noise, list):
             raise reader.error("phase_noise", "a template's phase noise is a list of [offset, level] points", 'write phase_noise = [["1 kHz", -135], ...]')
         points = tuple((p[0], parse_dbc(p[1])) for p in phase_noise)
@@ -377,7 +386,7 @@ def _read_oscillator(reader: TableReader) -> OscillatorTemplate:
         frequencies=reader.get("frequencies", _frequencies),
         accuracy=accuracy,
         spec=spec,
-        outputs=reader.get("outputs", _whole, 1),
+        outputs=reader.get("outputs", whole_number, 1),
         power_w=Fraction(spec.power.steady_w),
         cost=reader.get("cost", _cost),
         phase_noise=points,
@@ -390,8 +399,8 @@ def _read_pll(reader: TableReader) -> PllTemplate:
     from clockplan.jitter.parse import parse_loop, parse_pll_noise
 
     name, label = _common(reader)
-    mode = reader.get("mode", _mode, "integer")
-    n_lo, n_hi = reader.get("n", lambda v: tuple(parse_ratio(x) for x in _pair(v, "[16, 4095]")))
+    mode = reader.get("mode", pll_mode, "integer")
+    n_lo, n_hi = reader.get("n", lambda v: tuple(parse_ratio(x) for x in min_max_pair(v, "[16, 4095]")))
     if not 0 < n_lo <= n_hi:
         raise reader.error("n", f"N range {n_lo}..{n_hi} must be positive and ascending")
     loop = reader.raw("loop")
@@ -400,17 +409,17 @@ def _read_pll(reader: TableReader) -> PllTemplate:
         name=name,
         label=label,
         mode=mode,
-        vco=reader.get("vco", _frequency_range),
-        pfd=reader.get("pfd", _frequency_range),
-        ref_divider=reader.get("r", _int_choices, IntChoices(1, 1)),
+        vco=reader.get("vco", frequency_range),
+        pfd=reader.get("pfd", frequency_range),
+        ref_divider=reader.get("r", int_choices, IntChoices(1, 1)),
         feedback_min=n_lo,
         feedback_max=n_hi,
-        denominator=_read_denominator(reader, mode),
-        input_range=reader.get("input_range", _frequency_range, None),
-        outputs=reader.get("outputs", _whole),
-        output_divider=reader.get("output_divider", _int_choices),
-        loop=_located(reader, lambda: parse_loop(loop, reader.path("loop"))) if loop is not None else None,
-        noise=_located(reader, lambda: parse_pll_noise(noise, reader.path("noise"))) if noise is not None else None,
+        denominator=read_denominator(reader, mode),
+        input_range=reader.get("input_range", frequency_range, None),
+        outputs=reader.get("outputs", whole_number),
+        output_divider=reader.get("output_divider", int_choices),
+        loop=located(reader, lambda: parse_loop(loop, reader.path("loop"))) if loop is not None else None,
+        noise=located(reader, lambda: parse_pll_noise(noise, reader.path("noise"))) if noise is not None else None,
         power_w=reader.get("power", _power),
         cost=reader.get("cost", _cost),
         raw={k: reader.table[k] for k in _PLL_PART_KEYS if k in reader.table},
@@ -426,8 +435,8 @@ def _read_divider(reader: TableReader) -> DividerTemplate:
     return DividerTemplate(
         name=name,
         label=label,
-        ratio=reader.get("ratio", _int_choices),
-        additive_noise=_located(reader, lambda: parse_additive_noise(noise, reader.path("additive_noise"))) if noise is not None else None,
+        ratio=reader.get("ratio", int_choices),
+        additive_noise=located(reader, lambda: parse_additive_noise(noise, reader.path("additive_noise"))) if noise is not None else None,
         power_w=reader.get("power", _power),
         cost=reader.get("cost", _cost),
         raw={k: reader.table[k] for k in ("additive_noise",) if k in reader.table},
@@ -442,8 +451,8 @@ def _read_buffer(reader: TableReader) -> BufferTemplate:
     band = reader.raw("additive_jitter_band")
     additive = None
     if jitter is not None:
-        additive = _located(reader, lambda: parse_additive_jitter(jitter, reader.path("additive_jitter"), band, reader.path("additive_jitter_band")))
-    outputs = reader.get("outputs", lambda v: _whole(v, 2))
+        additive = located(reader, lambda: parse_additive_jitter(jitter, reader.path("additive_jitter"), band, reader.path("additive_jitter_band")))
+    outputs = reader.get("outputs", lambda v: whole_number(v, 2))
     return BufferTemplate(
         name=name,
         label=label,
