@@ -507,6 +507,9 @@ def _oven_text(power: OscillatorPower) -> str:
     )
 
 
+_ADVICE_HEADERS = ("reference", "kind", "figures", "verdict", "least demanding grade", "its typical figures", "note")
+
+
 def _reference_note(ref: ReferenceAdvice) -> str:
     notes = []
     if ref.beats_its_grade:
@@ -525,25 +528,32 @@ class ReferenceAdvices:
     def json_fields(self) -> list[dict[str, Any]]:
         return [r.json_fields() for r in self.references]
 
-    def rich_renderable(self) -> "RenderableType":
-        """The terminal's "Reference advice" table."""
-        from rich.table import Table
-
-        table = Table(title="Reference advice", title_justify="left", header_style="bold")
-        for header in ("reference", "kind", "figures", "verdict", "least demanding grade", "its typical figures", "note"):
-            table.add_column(header, overflow="fold")
+    def report_table(self) -> tuple[str, tuple[str, ...], list[tuple[str, ...]]]:
+        """The "Reference advice" table as ``(title, headers, rows)`` of text (Markdown and HTML reports)."""
+        rows = []
         for ref in self.references:
             grade = ref.advice.grade if ref.advice is not None else None
-            typical = grade.summary().split(": ", 1)[-1] if grade is not None else "-"
-            table.add_row(
+            rows.append((
                 ref.id,
                 ref.kind,
                 {BASIS_BOARD: "board", BASIS_TYPICAL: "typical (assumed)", BASIS_NONE: "none"}[ref.basis],
                 ref.verdict + (f"; re-plan {', '.join(ref.unreachable)}" if ref.unreachable and ref.advice else ""),
                 grade.label if grade is not None else "-",
-                typical,
+                grade.summary().split(": ", 1)[-1] if grade is not None else "-",
                 _reference_note(ref),
-            )
+            ))
+        return "Reference advice", _ADVICE_HEADERS, rows
+
+    def rich_renderable(self) -> "RenderableType":
+        """The terminal's "Reference advice" table."""
+        from rich.table import Table
+
+        title, headers, rows = self.report_table()
+        table = Table(title=title, title_justify="left", header_style="bold")
+        for header in headers:
+            table.add_column(header, overflow="fold")
+        for row in rows:
+            table.add_row(*row)
         return table
 
 
