@@ -187,3 +187,17 @@ def test_the_jitter_stage_feeds_the_phase_noise_plot(tmp_path):
     # The oven's figures give the ppm curve too; without --samples there is no Monte Carlo plot.
     assert sorted(written) == ["phase-noise.png", "ppm-temperature.png"]
     assert png_facts(written["phase-noise.png"].read_bytes())[2] > 16
+
+
+def test_the_envelope_is_shaded_and_labelled_with_its_range():
+    low = [e - 20e-6 for e in PARABOLA]
+    high = [e + 20e-6 for e in PARABOLA]
+    trace = TemperatureTrace("rtc", TEMPERATURES, [float("nan")] * len(TEMPERATURES), (-200e-6, 200e-6),
+                             (low, high), "stability band")
+    ax = temperature_figure([trace]).axes[0]
+    # No line for an all-NaN curve; the envelope's label gives its extremes in ppm:
+    # -0.034 x 65² - 20 = -163.65 ppm at -40 °C, +20 ppm at 25 °C (tuning-fork parabola, common practice).
+    assert not [l for l in ax.get_lines() if l.get_label() == "frequency error"]
+    (band,) = [c for c in ax.collections if c.get_label().startswith("worst case")]
+    assert band.get_label().startswith("worst case -164..+20 ppm")
+    assert ax.get_title() == "rtc\nstability band"

@@ -243,8 +243,10 @@ def temperature_figure(traces: Sequence[TemperatureTrace]) -> "Figure":
         ppm = [float(e) * 1e6 for e in trace.errors]
         if trace.envelope is not None:
             low, high = ([float(e) * 1e6 for e in side] for side in trace.envelope)
-            ax.fill_between(trace.temperatures_c, low, high, color="#2e7d32", alpha=0.18, linewidth=0,
-                            label="worst case (other terms at their limits)")
+            # The range in the label: against a wide budget a ppm-class envelope is only a hairline.
+            ax.fill_between(trace.temperatures_c, low, high, color="#2e7d32", alpha=0.25, linewidth=0.8,
+                            edgecolor="#2e7d32",
+                            label=f"worst case {min(low):+.3g}..{max(high):+.3g} ppm (other terms at their limits)")
         if any(not math.isnan(value) for value in ppm):
             ax.plot(trace.temperatures_c, ppm, color="#2e7d32", linewidth=1.6, label="frequency error")
         _budget_lines(ax, trace.budget, horizontal=True)
