@@ -36,7 +36,8 @@ def test_json_contract(capsys):
     assert plls["cleaner"]["spur_offset_hz"] is None
     assert len(doc["alternatives"]) == 2 and doc["alternatives"][0]["rank"] == 2
     assert doc["plan"]["objective"]["feasible"] is True
-    assert doc["plan"]["loop_bandwidth_hz"]["audio_pll"] == 200000
+    # The board states the audio PLL's loop (100 kHz, natural-frequency model): that is the one the flag uses.
+    assert abs(doc["plan"]["loop_bandwidth_hz"]["audio_pll"] - 100_000) < 1e-6
 
 
 def test_json_infeasible(capsys):
@@ -52,14 +53,58 @@ def test_usage_errors_exit_2(capsys):
     assert main(["plan", "boards/edge-router.toml", "--loop-bandwidth", "fast"]) == 2
 
 
-def test_loop_bandwidth_option_feeds_the_spur_flag(capsys):
+def test_loop_bandwidth_option_feeds_the_spur_flag(capsys, tmp_path):
+    # The option is for PLLs that state no loop of their own: take the audio PLL's loop out of the demo.
+    from pathlib import Path
+
+    text = Path("boards/edge-router.toml").read_text(encoding="utf-8")
+    loop = 'loop = { bandwidth = "100 kHz", damping = 0.707 }\n'
+    assert loop in text
+    board = tmp_path / "no-audio-loop.toml"
+    board.write_text(text.replace(loop, ""), encoding="utf-8")
     # audio_pll's integer-boundary spur sits 6.336 MHz out; a 10 MHz loop would pass it.
-    assert main(["plan", "boards/edge-router.toml", "--json", "--loop-bandwidth", "10 MHz"]) == 0
+    assert main(["plan", str(board), "--json", "--loop-bandwidth", "10 MHz"]) == 0
     doc = json.loads(capsys.readouterr().out)
     assert any(f["code"] == "spur-in-band" and f["node"] == "audio_pll" for f in doc["findings"])
+    assert doc["plan"]["loop_bandwidth_hz"]["audio_pll"] == 10_000_000
 
 
 def test_help_does_not_import_the_planner():
     code = "import sys, clockplan.cli as c; c.main(['--help']); print('clockplan.plan.board_planner' in sys.modules)"
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip().endswith("False")
+
+
+def test_the_readme_demo_is_a_showcase(capsys):
+    # README's main command: every budget kind is checked on real (invented, datasheet-style) figures.
+    assert main(["plan", "boards/edge-router.toml", "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    codes = {(f["severity"], f["code"]) for f in doc["findings"]}
+    assert not {c for s, c in codes if s == "warning"}, codes
+    assert ("info", "ppm-assumed") not in codes and not {c for _, c in codes if c == "jitter-data"}
+    consumers = {c["id"]: c for c in doc["consumers"]}
+    # The TCXO's figures add linearly over 10 years (datasheet convention, common practice):
+    # ±1 tolerance, ±0.5 band, aging ±1 the first year then ±0.5 for 9 more, ±0.1 supply, ±0.1 load = 7.2 ppm.
+    tcxo = 1 + 0.5 + (1 + 0.5 * 9) + 0.1 + 0.1
+    assert abs(consumers["pcie_root"]["ppm_worst_case"] - tcxo) < 1e-9
+    for name in ("pcie_root", "pcie_nvme", "sfp_a", "sfp_b", "sgmii_phy", "codec_48k", "codec_44k1"):
+        consumer = consumers[name]
+        assert consumer["jitter_budget_s"] is not None and consumer["jitter"]["passes"] is True, name
+        assert consumer["ppm_pass"] is True, name
+    # PCI Express Gen3 refclk: 1.0 ps RMS over the 10 kHz-50 MHz approximation (standards table).
+    assert consumers["pcie_root"]["jitter_budget_s"] == 1e-12
+    assert consumers["pcie_root"]["jitter_band_hz"] == [1e4, 5e7]
+    # Converter clock: SNR = -20 log10(2 pi f_in sigma), 110 dB at 20 kHz allows about 25.2 ps (handbook formula).
+    import math
+
+    assert abs(consumers["codec_48k"]["jitter_budget_s"] - 10 ** (-110 / 20) / (2 * math.pi * 20e3)) < 1e-18
+    assert [f for f in doc["findings"] if f["code"] == "search-bound"][0]["severity"] == "info"
+
+
+def test_the_demo_summary_shows_every_kind_of_margin(capsys):
+    assert main(["plan", "boards/edge-router.toml", "--no-color", "--width", "160"]) == 0
+    out = capsys.readouterr().out
+    lines = out[out.index("worst margins:"):out.index("verdict:")].splitlines()[1:]
+    assert [line.split(":")[0].strip() for line in lines] == ["synthesis", "ppm", "jitter"]
+    # The tightest ppm budget is ±50 ppm (the PTP clock and the audio clocks): (50 - 7.2) / 50 = 85.6 % left.
+    assert "85.6 % left (+7.2 ppm of ±50 ppm)" in lines[1]

@@ -131,7 +131,9 @@ def test_hooks_feed_the_plots(tmp_path):
     data = collect_plot_data(_with_budgets())
     assert [t.consumer for t in data.phase_noise] == ["phy0"]
     assert data.phase_noise[0].note == "PASS: jitter 0.3 ps, no budget"
-    assert [t.consumer for t in data.temperature] == ["phy0"]
+    # phy0 carries the stand-in hooks; the accuracy stage's own curves follow for the other consumers.
+    assert data.temperature[0].consumer == "phy0" and list(data.temperature[0].errors) == PARABOLA
+    assert [t.consumer for t in data.distributions] == ["phy0"]  # no --samples: only the stand-in has samples
     written = write_plots(data, tmp_path)
     assert [p.name for p in written] == ["phase-noise.png", "ppm-temperature.png", "monte-carlo.png"]
     for path in written:
@@ -181,5 +183,21 @@ def test_the_jitter_stage_feeds_the_phase_noise_plot(tmp_path):
     for trace, consumer in zip(data.phase_noise, with_noise):
         assert list(trace.band_hz) == consumer.jitter.json_fields()["jitter_band_hz"]
         assert trace.note.split(":")[0] in ("PASS", "warn", "FAIL")
-    (path,) = write_plots(data, tmp_path)
-    assert png_facts(path.read_bytes())[2] > 16
+    written = {p.name: p for p in write_plots(data, tmp_path)}
+    # The oven's figures give the ppm curve too; without --samples there is no Monte Carlo plot.
+    assert sorted(written) == ["phase-noise.png", "ppm-temperature.png"]
+    assert png_facts(written["phase-noise.png"].read_bytes())[2] > 16
+
+
+def test_the_envelope_is_shaded_and_labelled_with_its_range():
+    low = [e - 20e-6 for e in PARABOLA]
+    high = [e + 20e-6 for e in PARABOLA]
+    trace = TemperatureTrace("rtc", TEMPERATURES, [float("nan")] * len(TEMPERATURES), (-200e-6, 200e-6),
+                             (low, high), "stability band")
+    ax = temperature_figure([trace]).axes[0]
+    # No line for an all-NaN curve; the envelope's label gives its extremes in ppm:
+    # -0.034 x 65² - 20 = -163.65 ppm at -40 °C, +20 ppm at 25 °C (tuning-fork parabola, common practice).
+    assert not [l for l in ax.get_lines() if l.get_label() == "frequency error"]
+    (band,) = [c for c in ax.collections if c.get_label().startswith("worst case")]
+    assert band.get_label().startswith("worst case -164..+20 ppm")
+    assert ax.get_title() == "rtc\nstability band"

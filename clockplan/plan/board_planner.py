@@ -116,8 +116,11 @@ class BoardPlan:
     """The planner's answer for a board.
 
     ``best`` is the chosen plan, ``alternatives`` the distinct runners-up (best
-    first), ``notes`` what bounded the search, ``bandwidths`` the loop
-    bandwidth each PLL's spur flag used.
+    first), ``notes`` the bounds that may have cut a better plan off,
+    ``proven_notes`` the bounds that were hit where the plans found are
+    provably best on the objective's leading criteria (see
+    :func:`_proven_criteria`), ``bandwidths`` the loop bandwidth each PLL's
+    spur flag used.
     """
 
     board: Board
@@ -126,6 +129,7 @@ class BoardPlan:
     notes: list[str]
     bandwidths: dict[str, Fraction | float | None]
     elapsed_s: float = 0.0
+    proven_notes: list[str] = field(default_factory=list)
 
     @property
     def feasible(self) -> bool:
@@ -195,6 +199,7 @@ class _Planner:
         self.keep = max(1, options.alternatives + 1)
         self.deadline = time.monotonic() + options.time_limit_s
         self.notes: list[str] = []
+        self.proven_notes: list[str] = []
         self.bandwidths: dict[str, Fraction | float | None] = {
             pll.id: loop_bandwidth_of(pll, options.loop_bandwidth_hz) for pll in board.plls
         }
@@ -475,10 +480,11 @@ class _Planner:
                 dividers[out.name] = d
                 branches.append(self._output_branch(node, d, candidate.vco_hz))
             else:
-                options = [pinned[out.name]] if out.name in pinned else self._free_dividers(pll, out, candidate.vco_hz)
+                options, total = ([pinned[out.name]], 1) if out.name in pinned else self._free_dividers(pll, out, candidate.vco_hz)
                 ranked: list[SubPlan] = []
-                best_key, stale = None, 0
+                best_key, stale, tried = None, 0, 0
                 for d in options:
+                    tried += 1
                     ranked += self._output_branch(node, d, candidate.vco_hz)
                     if time.monotonic() > self.deadline or _settled(ranked, self.keep):
                         break
@@ -489,6 +495,8 @@ class _Planner:
                     if stale >= self.options.cascade_patience:
                         break
                 branches.append(_ranked(ranked, self.keep))
+                if total > tried:
+                    self._cascade_note(node, tried, total, branches[-1])
         plans = []
         for combo in _k_best(branches, self.keep):
             prefix = f"{pll.id}."
@@ -505,8 +513,28 @@ class _Planner:
             for sub in self.plan_node(node, vco / d)
         ]
 
-    def _free_dividers(self, pll: Pll, out: Any, vco: Fraction) -> list[int]:
-        """Dividers to try on an output without targets of its own, most promising first.
+    def _cascade_note(self, node: str, tried: int, total: int, found: list[SubPlan]) -> None:
+        """Say that the trial of a cascade output stopped early, and how much of the plan is still proven best."""
+        trial = f"{node}: {tried} of {total} output dividers were tried for the parts it feeds"
+        proven = _proven_criteria(found, self.keep, self.board)
+        if proven == 0:
+            self._note(
+                f"{trial} (those giving the frequencies they prefer first, then the highest frequencies); "
+                "an untried one may give a better plan"
+            )
+            return
+        later = "fewer and smaller dividers" if proven == 5 else "PFD frequency, spurs, fewer and smaller dividers"
+        text = (
+            f"{trial}; the plans found below it are exact and integer-N"
+            + (" with every PLL at its highest PFD frequency" if proven == 5 else "")
+            + f", which no other divider can better on criteria 1-{proven} of the objective; "
+            f"only the later ones ({later}) are not proven best"
+        )
+        if text not in self.proven_notes:
+            self.proven_notes.append(text)
+
+    def _free_dividers(self, pll: Pll, out: Any, vco: Fraction) -> tuple[list[int], int]:
+        """Dividers to try on an output without targets of its own, most promising first, and how many there were.
 
         For an output feeding another PLL: first the dividers that hit a
         frequency the downstream PLL wishes for, then the rest from the highest
@@ -515,33 +543,58 @@ class _Planner:
         node = f"{pll.id}.{out.name}"
         lift = self._lift(node)
         if not lift.plls and not lift.open_dividers and not lift.targets:
-            return [out.divider.lo]  # an unused output: the smallest allowed divider
+            return [out.divider.lo], 1  # an unused output: the smallest allowed divider
         options: set[int] = set()
         for downstream, factor in lift.plls:
             options |= set(self._ratios_feeding(out.divider, vco, downstream, factor))
         if lift.open_dividers:
             options.add(out.divider.lo)
         if not options:
-            return [out.divider.lo]
+            return [out.divider.lo], 1
         wished = []
         for hz in self._wishes(node):
             d = vco / hz
             if d.denominator == 1 and int(d) in options and int(d) not in wished:
                 wished.append(int(d))
         ordered = wished + [d for d in sorted(options) if d not in wished]
-        cap = self.options.max_cascade_solves
-        if len(ordered) > cap:
-            self._note(
-                f"{node}: {cap} of {len(ordered)} output dividers were tried for the parts it feeds "
-                "(those giving the frequencies they prefer first, then the highest frequencies)"
-            )
-            ordered = ordered[:cap]
-        return ordered
+        return ordered[: self.options.max_cascade_solves], len(ordered)
 
     def _wishes(self, node: str) -> list[Fraction]:
         if node not in self._wish_cache:
             self._wish_cache[node] = self._input_wishes(node)
         return self._wish_cache[node]
+
+
+def _ideal(plan: SubPlan) -> bool:
+    """Feasible, exact and integer-N throughout: the floor of the objective's criteria 1-3."""
+    return plan.score.feasible and plan.score.worst_error == 0 and plan.score.fractional == 0 and not plan.blocked
+
+
+def _proven_criteria(found: list[SubPlan], keep: int, board: Board) -> int:
+    """How many leading criteria of the objective the plans ``found`` below a cut-short trial provably win.
+
+    Criteria 1-3 (violations, worst synthesis error, fractional-N PLLs) are
+    counts and magnitudes whose least possible value is 0; plans at 0 on all
+    three cannot be beaten there by any other choice. Scores of independent
+    parts combine by sum, maximum and product, all monotonic, so no choice
+    elsewhere can undo that. When in addition every PLL of each plan runs at
+    the highest PFD frequency its part allows, criterion 4 (the product of
+    PFD frequencies, larger first) is at its ceiling too, and criterion 5
+    (fractional-N spurs in band) is 0 because no PLL runs a fractional N.
+
+    Returns 5, 3, or 0 when the ``keep`` best plans found do not all reach the
+    floor (an untried choice may then give a better plan).
+    """
+    best = found[:keep]
+    if len(best) < keep or not all(_ideal(p) for p in best):
+        return 0
+    for plan in best:
+        ceiling = Fraction(1)
+        for pll_id in plan.plls:
+            ceiling *= board.part(pll_id).pfd.hi
+        if plan.score.pfd_product != ceiling:
+            return 3
+    return 5
 
 
 def _settled(plans: list[SubPlan], keep: int) -> bool:
@@ -551,8 +604,7 @@ def _settled(plans: list[SubPlan], keep: int) -> bool:
     wished-for inputs, highest PFD first), so the search of a cascade output
     stops at the first such plans.
     """
-    ideal = [p for p in plans if p.score.feasible and p.score.worst_error == 0 and p.score.fractional == 0 and not p.blocked]
-    return len(ideal) >= keep
+    return sum(_ideal(p) for p in plans) >= keep
 
 
 def _cannot_run(pll: Pll, hz: Fraction, problem: PllProblem) -> str:
@@ -643,4 +695,5 @@ def plan_board(board: Board, options: PlanOptions | None = None) -> BoardPlan:
     planner = _Planner(board, graph, options)
     branches = [planner.plan_node(ref.id, ref.frequency) for ref in board.references]
     ranked = _k_best(branches, planner.keep)
-    return BoardPlan(board, ranked[0], ranked[1:], planner.notes, planner.bandwidths, time.monotonic() - started)
+    return BoardPlan(board, ranked[0], ranked[1:], planner.notes, planner.bandwidths, time.monotonic() - started,
+                     planner.proven_notes)

@@ -33,7 +33,11 @@ def _number(value: Fraction | float | None) -> int | float | None:
 
 
 def plan_findings(plan: "BoardPlan", analysis: "Analysis") -> list[Finding]:
-    """Findings the plan adds: spurs inside the loop bandwidth, and search bounds that were hit."""
+    """Findings the plan adds: spurs inside the loop bandwidth, and search bounds that were hit.
+
+    A bound that may have cut a better plan off is a warning; one hit where the
+    plan found is provably best on the objective's leading criteria is info.
+    """
     findings = []
     for pll_id, point in analysis.frequencies.plls.items():
         offset = boundary_spur_offset(point.pfd_hz, point.setting.n)
@@ -51,6 +55,9 @@ def plan_findings(plan: "BoardPlan", analysis: "Analysis") -> list[Finding]:
             )
     for note in plan.notes:
         findings.append(Finding(Severity.WARNING, "search-bound", plan.board.name, note))
+    # A bound hit where the plan found is provably best on the leading criteria: worth knowing, not a warning.
+    for note in plan.proven_notes:
+        findings.append(Finding(Severity.INFO, "search-bound", plan.board.name, note))
     return findings
 
 
@@ -84,6 +91,7 @@ def plan_document(analysis: "Analysis", plan: "BoardPlan", explanation: "Explana
     doc["plan"] = {
         "objective": _objective(plan.best),
         "notes": list(plan.notes),
+        "proven_notes": list(plan.proven_notes),
         "loop_bandwidth_hz": {k: _number(v) for k, v in sorted(plan.bandwidths.items())},
     }
     if plan.alternatives:

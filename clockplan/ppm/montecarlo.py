@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from fractions import Fraction
 
 import numpy as np
@@ -55,13 +55,19 @@ class ConsumerChain:
 
 @dataclass(frozen=True)
 class MonteCarloResult:
-    """Fraction of boards inside budget, per consumer and for the whole board."""
+    """Fraction of boards inside budget, per consumer and for the whole board.
+
+    ``reference_errors`` holds, per reference, the sampled fractional error of
+    the first ``kept`` boards (empty unless ``keep_errors`` was asked for), so
+    a report can draw the distribution the yields were counted on.
+    """
 
     samples: int
     seed: int | None
     yields: tuple[float, ...]
     board_yield: float
     names: tuple[str, ...]
+    reference_errors: tuple[np.ndarray, ...] = field(default=(), compare=False, repr=False)
 
     def standard_error(self, index: int) -> float:
         """Binomial standard error of one consumer's yield."""
@@ -152,6 +158,7 @@ def monte_carlo_yield(
     seed: int | None = None,
     progress: ProgressCallback | None = None,
     chunk: int = _DEFAULT_CHUNK,
+    keep_errors: int = 0,
 ) -> MonteCarloResult:
     """Fraction of simulated boards on which each consumer stays inside its budget.
 
@@ -172,6 +179,10 @@ def monte_carlo_yield(
         command line can show a progress bar on long runs.
     chunk
         Boards simulated per vectorized step (bounds memory).
+    keep_errors
+        Keep each reference's sampled error for the first ``keep_errors``
+        boards (``MonteCarloResult.reference_errors``), for histograms. The
+        draws are the same with or without it.
 
     Examples
     --------
@@ -201,11 +212,17 @@ def monte_carlo_yield(
     passed = np.zeros(len(distinct), dtype=np.int64)
     board_passed = 0
     rng = np.random.default_rng(seed)
+    kept = min(max(0, keep_errors), samples)
+    stored = [np.empty(kept) for _ in references]
     done = 0
     while done < samples:
         size = min(chunk, samples - done)
         temps = rng.uniform(t_lo, t_hi, size) if t_hi > t_lo else np.full(size, float(t_lo))
         errors = [sample_reference_errors(spec, temps, lifetime_s, rng) for spec in references]
+        if done < kept:
+            take = min(size, kept - done)
+            for store, values in zip(stored, errors):
+                store[done:done + take] = values[:take]
         board_ok = np.ones(size, dtype=bool)
         for i, (ref, (lo, hi)) in enumerate(distinct):
             ok = (errors[ref] >= lo) & (errors[ref] <= hi)
@@ -222,4 +239,5 @@ def monte_carlo_yield(
         yields=yields,
         board_yield=board_passed / samples,
         names=tuple(c.name for c in consumers),
+        reference_errors=tuple(stored) if kept else (),
     )

@@ -2,8 +2,11 @@
 
 Each object offers the hooks the reports read (see ``DEVELOPERS.md``):
 ``json_fields()`` for the JSON contract (``docs/json-output.md``),
-``table_cells()`` for the terminal's consumer table, ``contributions()`` for
-an explanation waterfall and ``rich_renderable()`` for a table of its own.
+``table_cells()`` for the terminal's consumer table, ``budget_margin()`` for
+the margin column and the summary's worst margins, ``contributions()`` and
+``notes`` for an explanation waterfall, ``temperature_curve()`` and
+``monte_carlo_errors()`` for the plots, and ``rich_renderable()`` /
+``report_table()`` for a table of its own.
 Errors are fractional inside; ppm (or % from 0.1 % up) only in what is shown.
 Exact values stay exact: an exact zero is the JSON integer ``0``.
 """
@@ -12,16 +15,17 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from fractions import Fraction
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, NamedTuple
 
 from clockplan.ppm.accuracy import AccuracyResult, ConsumerBudget, Contribution
 from clockplan.ppm.aging import SECONDS_PER_YEAR
 from clockplan.ppm.display import format_error, format_limits
 from clockplan.ppm.grades import Grade, GradeAdvice
-from clockplan.ppm.oscillator import OscillatorPower
+from clockplan.ppm.oscillator import OscillatorPower, OscillatorSpec
 from clockplan.ppm.spread import SpreadSpectrum
 
 if TYPE_CHECKING:
+    import numpy as np
     from rich.console import RenderableType
 
 __all__ = [
@@ -29,6 +33,9 @@ __all__ = [
     "BASIS_TYPICAL",
     "BASIS_NONE",
     "ppm_number",
+    "CURVE_POINTS",
+    "TemperatureCurve",
+    "SampledErrors",
     "ConsumerAccuracy",
     "ReferenceAdvice",
     "ReferenceAdvices",
@@ -101,6 +108,52 @@ def _years(seconds: float) -> str:
     return f"{seconds / SECONDS_PER_YEAR:g} years"
 
 
+#: Evenly spaced temperatures of a drawn curve; the worst-case temperatures are added to them.
+CURVE_POINTS = 121
+
+_TYPICAL_NOTE = "typical grade figures, assumed: the board gives no accuracy data for the reference"
+
+
+class TemperatureCurve(NamedTuple):
+    """A consumer's fractional error over the board's temperature range, at the end of its lifetime.
+
+    The first three fields are the ``temperature_curve()`` report hook
+    (``DEVELOPERS.md``): ``errors`` is the error of a part whose other terms
+    (initial tolerance, aging, supply, load, crystal pulling) sit at the centre
+    of their ranges, NaN where a stability band sets the temperature term (a
+    band does not say how the frequency moves with temperature, so no curve is
+    invented). ``envelope`` is ``(low, high)``: the worst case at each
+    temperature with every other term at its extreme; its outer edges are the
+    worst case the consumer table shows. ``note`` says what the curve assumes.
+    """
+
+    temperatures_c: "np.ndarray"
+    errors: "np.ndarray"
+    budget: tuple[float, float]
+    envelope: "tuple[np.ndarray, np.ndarray] | None" = None
+    note: str = ""
+
+
+class SampledErrors(NamedTuple):
+    """A consumer's Monte Carlo errors and the budget they are held against (``monte_carlo_errors()``).
+
+    ``errors`` is the clock's carrier error on each kept board (the reference's
+    sampled error through the exact synthesis error). When a spread counts as
+    error, ``budget`` is the carrier range that keeps the whole sweep inside
+    the consumer's budget, and ``note`` says so; the share of ``errors``
+    inside ``budget`` is then the yield on those boards either way.
+    """
+
+    errors: "np.ndarray"
+    budget: tuple[float, float]
+    note: str = ""
+
+
+def _composed(a: "np.ndarray | float", b: float) -> "np.ndarray | float":
+    """``(1 + a)(1 + b) - 1`` for floats and arrays (the cascade rule of :func:`compose`)."""
+    return a + b + a * b
+
+
 @dataclass(frozen=True)
 class ConsumerAccuracy:
     """Frequency error of one consumer on the board, with its budget verdict.
@@ -125,6 +178,8 @@ class ConsumerAccuracy:
     required_margin: Fraction
     yield_fraction: float | None = None
     yield_standard_error: float | None = None
+    spec: OscillatorSpec | None = field(default=None, compare=False, repr=False)
+    sampled_reference_errors: "np.ndarray | None" = field(default=None, compare=False, repr=False)
 
     @property
     def judged(self) -> bool:
@@ -143,6 +198,106 @@ class ConsumerAccuracy:
     def thin(self) -> bool:
         """Inside the budget, but with less headroom than the required margin."""
         return bool(self.passes) and self.result.margin < self.required_margin
+
+    @property
+    def notes(self) -> tuple[str, ...]:
+        """What the figures assume, for ``explain``: the planning note, an oven's power, assumed figures."""
+        notes = list(self.result.notes)
+        if self.basis == BASIS_TYPICAL:
+            notes.append(_TYPICAL_NOTE[0].upper() + _TYPICAL_NOTE[1:] + ".")
+        if self.result.spread_ok is False:
+            notes.append(f"The spread counts as frequency error: {self.result.spread_note}.")
+        return tuple(notes)
+
+    def budget_margin(self) -> tuple[float, str] | None:
+        """The share of the budget left and a short text, e.g. ``(0.929, "+7.1 ppm of ±100 ppm")``.
+
+        The share is the margin to the nearer budget limit over the budget's
+        half-width (the measure the 20 % margin rule uses): 1 for an error of
+        exactly 0 in a symmetric budget, 0 at the limit, negative outside.
+        None without a budget.
+
+        Examples
+        --------
+        ``ConsumerAccuracy`` of a ±20 ppm XO on an exact chain with a ±100 ppm
+        budget: ``(0.8, "+20 ppm of ±100 ppm")``.
+        """
+        if not self.judged:
+            return None
+        r = self.result
+        prefix = "typ. " if self.basis == BASIS_TYPICAL else ""
+        text = f"{prefix}{format_error(r.worst_case)} of {format_limits(self.budget.tolerance)}"
+        return float(r.margin / self.budget.half_width), text
+
+    def _checked_sweep(self) -> tuple[Fraction, Fraction, Fraction]:
+        """The sweep held against the budget ``(low, high, mean)``: zero unless the spread counts as error."""
+        if self.spread is None or self.result.checked == "carrier":
+            return Fraction(0), Fraction(0), Fraction(0)
+        low, high = self.spread.extremes
+        return low, high, self.spread.mean_shift
+
+    def temperature_curve(self) -> TemperatureCurve | None:
+        """The consumer's error over the board's temperature range at end of life (the plots' hook).
+
+        Temperatures are :data:`CURVE_POINTS` even steps over the range plus
+        the temperatures where the worst case happens, so the envelope's outer
+        edges are exactly the worst case (``result.carrier_min/max``, or
+        ``error_min/max`` when the spread counts). None without a budget or
+        without the reference's figures.
+
+        Examples
+        --------
+        A tuning-fork crystal (-0.034 ppm/°C² about 25 °C) on an exact chain
+        gives ``errors`` of about -144 ppm at -40 °C.
+        """
+        import numpy as np
+
+        if not self.judged or self.spec is None:
+            return None
+        r = self.result
+        t_lo, t_hi = (float(t) for t in self.temperature_range)
+        temperature = next(c for c in r.contributions if c.name == "temperature")
+        marks = [t for t in (temperature.low_at_c, temperature.high_at_c) if t is not None]
+        temps = np.unique(np.concatenate((np.linspace(t_lo, t_hi, CURVE_POINTS), np.asarray(marks, dtype=float))))
+        others = [c for c in r.contributions if c.name != "temperature"]
+        low_rest = float(sum((c.low for c in others), Fraction(0)))
+        high_rest = float(sum((c.high for c in others), Fraction(0)))
+        centre_rest = float(sum((c.centre for c in others), Fraction(0)))
+        drift = np.asarray(self.spec.temperature.fractional_error(temps), dtype=float)
+        band = bool(np.all(np.isnan(drift)))
+        low_t = float(temperature.low) if band else drift
+        high_t = float(temperature.high) if band else drift
+        synthesis = float(r.synthesis_error)
+        sweep_low, sweep_high, sweep_mean = (float(x) for x in self._checked_sweep())
+        errors = _composed(_composed(drift + centre_rest, synthesis), sweep_mean)
+        low = _composed(_composed(low_t + low_rest, synthesis), sweep_low) + np.zeros_like(temps)
+        high = _composed(_composed(high_t + high_rest, synthesis), sweep_high) + np.zeros_like(temps)
+        notes = []
+        if band:
+            notes.append("stability band: its edges are shown, no curve")
+        if self.basis == BASIS_TYPICAL:
+            notes.append(_TYPICAL_NOTE)
+        if sweep_low or sweep_high:
+            notes.append("the spread sweep counts as error")
+        budget = (float(self.budget.tolerance[0]), float(self.budget.tolerance[1]))
+        return TemperatureCurve(temps, errors, budget, (low, high), "; ".join(notes))
+
+    def monte_carlo_errors(self) -> SampledErrors | None:
+        """The Monte Carlo's sampled carrier errors of this consumer and its budget (the plots' hook).
+
+        None unless the run kept samples (``--samples``) and the consumer has a budget.
+        """
+        samples = self.sampled_reference_errors
+        if samples is None or not self.judged:
+            return None
+        synthesis = float(self.result.synthesis_error)
+        low, high = self.budget.tolerance
+        sweep_low, sweep_high, _ = self._checked_sweep()
+        note = "typ. figures, assumed" if self.basis == BASIS_TYPICAL else ""
+        if sweep_low or sweep_high:
+            low, high = (1 + low) / (1 + sweep_low) - 1, (1 + high) / (1 + sweep_high) - 1
+            note = "; ".join(filter(None, (note, "budget narrowed by the spread sweep, which counts as error")))
+        return SampledErrors(_composed(samples, synthesis), (float(low), float(high)), note)
 
 
     def contributions(self) -> list[tuple[str, Number | str]]:
@@ -352,6 +507,9 @@ def _oven_text(power: OscillatorPower) -> str:
     )
 
 
+_ADVICE_HEADERS = ("reference", "kind", "figures", "verdict", "least demanding grade", "its typical figures", "note")
+
+
 def _reference_note(ref: ReferenceAdvice) -> str:
     notes = []
     if ref.beats_its_grade:
@@ -370,25 +528,32 @@ class ReferenceAdvices:
     def json_fields(self) -> list[dict[str, Any]]:
         return [r.json_fields() for r in self.references]
 
-    def rich_renderable(self) -> "RenderableType":
-        """The terminal's "Reference advice" table."""
-        from rich.table import Table
-
-        table = Table(title="Reference advice", title_justify="left", header_style="bold")
-        for header in ("reference", "kind", "figures", "verdict", "least demanding grade", "its typical figures", "note"):
-            table.add_column(header, overflow="fold")
+    def report_table(self) -> tuple[str, tuple[str, ...], list[tuple[str, ...]]]:
+        """The "Reference advice" table as ``(title, headers, rows)`` of text (Markdown and HTML reports)."""
+        rows = []
         for ref in self.references:
             grade = ref.advice.grade if ref.advice is not None else None
-            typical = grade.summary().split(": ", 1)[-1] if grade is not None else "-"
-            table.add_row(
+            rows.append((
                 ref.id,
                 ref.kind,
                 {BASIS_BOARD: "board", BASIS_TYPICAL: "typical (assumed)", BASIS_NONE: "none"}[ref.basis],
                 ref.verdict + (f"; re-plan {', '.join(ref.unreachable)}" if ref.unreachable and ref.advice else ""),
                 grade.label if grade is not None else "-",
-                typical,
+                grade.summary().split(": ", 1)[-1] if grade is not None else "-",
                 _reference_note(ref),
-            )
+            ))
+        return "Reference advice", _ADVICE_HEADERS, rows
+
+    def rich_renderable(self) -> "RenderableType":
+        """The terminal's "Reference advice" table."""
+        from rich.table import Table
+
+        title, headers, rows = self.report_table()
+        table = Table(title=title, title_justify="left", header_style="bold")
+        for header in headers:
+            table.add_column(header, overflow="fold")
+        for row in rows:
+            table.add_row(*row)
         return table
 
 

@@ -48,13 +48,15 @@ from clockplan.ppm.temperature import StabilityBand
 if TYPE_CHECKING:
     from clockplan.analysis import Analysis, AnalysisOptions
 
-__all__ = ["STAGE_NAME", "accuracy_stage"]
+__all__ = ["STAGE_NAME", "KEPT_SAMPLES", "accuracy_stage"]
 
 STAGE_NAME = "accuracy"
 
 #: Stands in for a missing budget so the error can still be shown: nothing is judged against it.
 _NO_BUDGET = ConsumerBudget((Fraction(-1), Fraction(1)))
 _ROOM_C = 25.0
+#: Boards whose sampled errors are kept for the Monte Carlo histogram (all of them up to this many).
+KEPT_SAMPLES = 200_000
 _MARGIN_TEXT = f"{float(DEFAULT_MARGIN) * 100:g} %"
 
 
@@ -91,6 +93,7 @@ def _accuracy(model: ReferenceModel, link: ConsumerLink, analysis: "Analysis") -
         temperature_range=board.temperature_c,
         lifetime_s=board.lifetime_s,
         required_margin=DEFAULT_MARGIN * budget.half_width,
+        spec=model.spec,
     )
 
 
@@ -106,12 +109,14 @@ def _with_yields(
     result = monte_carlo_yield(
         specs, chains, board.temperature_c, board.lifetime_s, samples=options.samples, seed=options.seed,
         progress=(lambda done, total: progress(done / total)) if progress is not None else None,
+        keep_errors=KEPT_SAMPLES,
     )
     for index, chain in enumerate(chains):
         accuracies[chain.name] = dataclasses.replace(
             accuracies[chain.name],
             yield_fraction=result.yields[index],
             yield_standard_error=result.standard_error(index),
+            sampled_reference_errors=result.reference_errors[chain.reference],
         )
     return MonteCarloSummary(result.samples, result.seed, result.board_yield, len(chains))
 

@@ -10,8 +10,11 @@ hooks on the budget results (documented in ``DEVELOPERS.md``):
     ``(offsets_hz, dbc_per_hz, (band_low_hz, band_high_hz))`` or None;
 ``ConsumerResult.accuracy.temperature_curve()``
     ``(temperatures_c, fractional_errors, (budget_low, budget_high))`` or None;
+    a named tuple may add ``envelope`` (``(low_errors, high_errors)``, shaded
+    as the worst case at each temperature) and ``note`` (shown in the title);
 ``ConsumerResult.accuracy.monte_carlo_errors()``
-    ``(fractional_errors, (budget_low, budget_high))`` or None.
+    ``(fractional_errors, (budget_low, budget_high))`` or None; a named tuple
+    may add a ``note``.
 
 Errors are fractional (SI); the plots show them in ppm. Figures are built with
 ``matplotlib.figure.Figure`` (no pyplot state), so drawing is safe to repeat.
@@ -74,12 +77,19 @@ class PhaseNoiseTrace:
 
 @dataclass(frozen=True)
 class TemperatureTrace:
-    """Fractional frequency error of one consumer over temperature, with its budget."""
+    """Fractional frequency error of one consumer over temperature, with its budget.
+
+    ``envelope`` is an optional ``(low_errors, high_errors)`` pair at the same
+    temperatures (the worst case), drawn as a shaded band; ``errors`` may be
+    NaN throughout when only the envelope is known (a stability band).
+    """
 
     consumer: str
     temperatures_c: Sequence[float]
     errors: Sequence[float]
     budget: tuple[float, float]
+    envelope: tuple[Sequence[float], Sequence[float]] | None = None
+    note: str = ""
 
 
 @dataclass(frozen=True)
@@ -89,6 +99,7 @@ class ErrorDistribution:
     consumer: str
     errors: Sequence[float]
     budget: tuple[float, float]
+    note: str = ""
 
 
 @dataclass(frozen=True)
@@ -146,10 +157,14 @@ def collect_plot_data(analysis: Analysis) -> PlotData:
             noise.append(PhaseNoiseTrace(result.id, offsets, levels, tuple(band), _jitter_note(analysis, result)))
         drift = _hook(result.accuracy, "temperature_curve")
         if drift is not None:
-            temperature.append(TemperatureTrace(result.id, drift[0], drift[1], tuple(drift[2])))
+            envelope = getattr(drift, "envelope", None)
+            temperature.append(TemperatureTrace(result.id, drift[0], drift[1], tuple(drift[2]),
+                                                tuple(envelope) if envelope is not None else None,
+                                                str(getattr(drift, "note", ""))))
         samples = _hook(result.accuracy, "monte_carlo_errors")
         if samples is not None:
-            distributions.append(ErrorDistribution(result.id, samples[0], tuple(samples[1])))
+            distributions.append(ErrorDistribution(result.id, samples[0], tuple(samples[1]),
+                                                   str(getattr(samples, "note", ""))))
     return PlotData(tuple(noise), tuple(temperature), tuple(distributions))
 
 
@@ -202,6 +217,11 @@ def phase_noise_figure(traces: Sequence[PhaseNoiseTrace]) -> "Figure":
     return figure
 
 
+def _titled(title: str, note: str) -> str:
+    """A panel title with its note wrapped below it (a long note must not run past its panel)."""
+    return title + ("\n" + "\n".join(textwrap.wrap(note, 70)) if note else "")
+
+
 def _budget_lines(ax: Any, budget: tuple[float, float], horizontal: bool) -> None:
     draw = ax.axhline if horizontal else ax.axvline
     low, high = (float(b) * 1e6 for b in budget)
@@ -221,9 +241,16 @@ def temperature_figure(traces: Sequence[TemperatureTrace]) -> "Figure":
     figure, axes = _grid(len(traces), "Frequency error over temperature")
     for ax, trace in zip(axes, traces):
         ppm = [float(e) * 1e6 for e in trace.errors]
-        ax.plot(trace.temperatures_c, ppm, color="#2e7d32", linewidth=1.6, label="frequency error")
+        if trace.envelope is not None:
+            low, high = ([float(e) * 1e6 for e in side] for side in trace.envelope)
+            # The range in the label: against a wide budget a ppm-class envelope is only a hairline.
+            ax.fill_between(trace.temperatures_c, low, high, color="#2e7d32", alpha=0.25, linewidth=0.8,
+                            edgecolor="#2e7d32",
+                            label=f"worst case {min(low):+.3g}..{max(high):+.3g} ppm (other terms at their limits)")
+        if any(not math.isnan(value) for value in ppm):
+            ax.plot(trace.temperatures_c, ppm, color="#2e7d32", linewidth=1.6, label="frequency error")
         _budget_lines(ax, trace.budget, horizontal=True)
-        ax.set_title(trace.consumer, fontsize=10)
+        ax.set_title(_titled(trace.consumer, trace.note), fontsize=10)
         ax.set_xlabel("temperature (°C)")
         ax.set_ylabel("error (ppm)")
         ax.grid(True, alpha=0.3)
@@ -248,7 +275,7 @@ def distribution_figure(traces: Sequence[ErrorDistribution]) -> "Figure":
         inside = sum(low <= value <= high for value in ppm) / len(ppm) if ppm else float("nan")
         ax.hist(ppm, bins=60, color="#6a1b9a", alpha=0.75, label=f"{len(ppm)} samples")
         _budget_lines(ax, trace.budget, horizontal=False)
-        ax.set_title(f"{trace.consumer}: {inside * 100:.4g} % inside the budget", fontsize=10)
+        ax.set_title(_titled(f"{trace.consumer}: {inside * 100:.4g} % inside the budget", trace.note), fontsize=10)
         ax.set_xlabel("error (ppm)")
         ax.set_ylabel("samples")
         ax.grid(True, alpha=0.3)
