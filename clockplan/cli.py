@@ -488,10 +488,6 @@ def _run_synthesize(args: argparse.Namespace) -> int:
     from clockplan.synth.synthesize import SynthesisOptions, library_for, synthesize
 
     spec = load_consumer_list(args.board)
-    if args.write:
-        from clockplan.fileio import refuse_overwrite
-
-        refuse_overwrite(args.write, protected=[args.board])
     library = library_for(spec, args.library)
     alternatives = args.alternatives if args.alternatives is not None else spec.settings.alternatives
     time_limit = args.time_limit if args.time_limit is not None else spec.settings.time_limit_s
@@ -521,6 +517,28 @@ def _run_synthesize(args: argparse.Namespace) -> int:
     return EXIT_FINDINGS if result.best.verified.analysis.has_errors else EXIT_OK
 
 
+def _refuse_clobbering(args: argparse.Namespace) -> None:
+    """Refuse, before any work, an output that is an input file or another output, in any spelling.
+
+    ``--write``/``--output`` never name the board or a ``--library`` file
+    (``plan --in-place`` is the one way to write the board), and two outputs
+    of one run never name the same file.
+    """
+    from clockplan.fileio import refuse_overwrite, same_file
+
+    inputs = [p for p in (getattr(args, "board", None), getattr(args, "library", None)) if p]
+    outputs = [(f"--{name}", getattr(args, name, None)) for name in ("write", "output")]
+    outputs = [(flag, path) for flag, path in outputs if path]
+    for flag, path in outputs:
+        try:
+            refuse_overwrite(path, protected=inputs)
+        except ClockplanError as err:
+            hint = err.hint if (args.command, flag) == ("plan", "--write") else "write it to another file"
+            raise ClockplanError(f"{flag}: {err.message}", hint=hint) from None
+    if len(outputs) == 2 and same_file(outputs[0][1], outputs[1][1]):
+        raise ClockplanError(f"--write and --output name the same file {outputs[1][1]}", hint="give them different files")
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; return the exit status.
 
@@ -539,6 +557,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         parser.print_help()
         return EXIT_INPUT
     try:
+        _refuse_clobbering(args)
         return run(args)
     except InfeasibleError as err:
         sys.stderr.write(f"clockplan: no feasible plan: {err.describe()}\n")
@@ -547,8 +566,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         sys.stderr.write(f"clockplan: error: {err.describe()}\n")
         return EXIT_INPUT
     except KeyboardInterrupt:
-        sys.stderr.write("clockplan: interrupted\n")
-        return 130
+        sys.stderr.write("clockplan: interrupted; a file being written keeps its old content\n")
+        return 130  # 128 + SIGINT, the shell's convention for Ctrl-C
 
 
 def _entry() -> None:  # pragma: no cover - console script wrapper
