@@ -17,6 +17,7 @@ course. The run is reproducible for a given seed and chunk size.
 from __future__ import annotations
 
 import math
+import time
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from fractions import Fraction
@@ -62,6 +63,12 @@ class MonteCarloResult:
     yields: tuple[float, ...]
     board_yield: float
     names: tuple[str, ...]
+    requested: int | None = None
+
+    @property
+    def complete(self) -> bool:
+        """False if the run stopped at its deadline before ``requested`` boards."""
+        return self.requested is None or self.samples >= self.requested
 
     def standard_error(self, index: int) -> float:
         """Binomial standard error of one consumer's yield."""
@@ -152,6 +159,7 @@ def monte_carlo_yield(
     seed: int | None = None,
     progress: ProgressCallback | None = None,
     chunk: int = _DEFAULT_CHUNK,
+    deadline: float | None = None,
 ) -> MonteCarloResult:
     """Fraction of simulated boards on which each consumer stays inside its budget.
 
@@ -172,6 +180,11 @@ def monte_carlo_yield(
         command line can show a progress bar on long runs.
     chunk
         Boards simulated per vectorized step (bounds memory).
+    deadline
+        A ``time.monotonic()`` instant: once it has passed, the run stops after
+        the chunk in progress (at least one chunk always runs). The result then
+        counts the boards actually simulated in ``samples`` and the boards asked
+        for in ``requested``; ``complete`` is False.
 
     Examples
     --------
@@ -215,11 +228,14 @@ def monte_carlo_yield(
         done += size
         if progress is not None:
             progress(done, samples)
-    yields = tuple(float(passed[slot[(c.reference, w)]]) / samples for c, w in zip(consumers, windows))
+        if deadline is not None and done < samples and time.monotonic() > deadline:
+            break
+    yields = tuple(float(passed[slot[(c.reference, w)]]) / done for c, w in zip(consumers, windows))
     return MonteCarloResult(
-        samples=samples,
+        samples=done,
         seed=seed,
         yields=yields,
-        board_yield=board_passed / samples,
+        board_yield=board_passed / done,
         names=tuple(c.name for c in consumers),
+        requested=samples,
     )
