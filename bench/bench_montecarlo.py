@@ -4,10 +4,11 @@ Goal: at least one million board samples in under 2 s on the 2-core project
 machine. Two boards: a synthetic one (invented for this benchmark: 10
 references of mixed kinds and curve models, 30 consumers with mixed budgets,
 synthesis errors and spread settings), and the largest demo board under
-boards/ run through the whole pipeline (load, exact audit, accuracy stage
+boards/ (the most consumers with a frequency-error budget) run through the whole pipeline (load, exact audit, accuracy stage
 with the Monte Carlo), as `clockplan audit --samples N` runs it.
 
-Run from the repository root:  python bench/bench_montecarlo.py [--samples N] [--naive N]
+Run from the repository root:  python bench/bench_montecarlo.py [--samples N] [--naive N] [--quick]
+(``python -m bench`` runs it with every other benchmark: ``montecarlo``.)
 """
 
 from __future__ import annotations
@@ -21,6 +22,7 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
+from bench.common import Row  # noqa: E402
 from clockplan.ppm import (  # noqa: E402
     SECONDS_PER_YEAR,
     AgingLinear,
@@ -135,17 +137,21 @@ def naive_yield(references, consumers, samples: int, seed: int, temperature=TEMP
 
 
 def largest_demo_board() -> Path:
-    """The demo board with the most consumers (then references)."""
+    """The demo board with the most consumers the Monte Carlo judges (then the most consumers)."""
+    from clockplan.analysis import analyze
     from clockplan.boardfile import load_board
+    from clockplan.ppm.board import board_chains, consumer_links, reference_models
+    from clockplan.ppm.grades import load_grades
 
     def size(path: Path) -> tuple[int, int]:
         board = load_board(path)
-        return len(board.consumers), len(board.references)
+        _, chains = board_chains(reference_models(board, load_grades()), consumer_links(analyze(board)))
+        return len(chains), len(board.consumers)
 
     return max(sorted(Path(__file__).resolve().parents[1].joinpath("boards").glob("*.toml")), key=size)
 
 
-def bench_demo_board(samples: int, naive_samples: int, repeat: int) -> None:
+def bench_demo_board(samples: int, naive_samples: int, repeat: int, verbose: bool = True) -> list[Row]:
     """Monte Carlo alone and the whole audit pipeline on the largest demo board, against the naive loop."""
     from clockplan.analysis import AnalysisOptions, analyze
     from clockplan.boardfile import load_board
@@ -155,9 +161,10 @@ def bench_demo_board(samples: int, naive_samples: int, repeat: int) -> None:
     path = largest_demo_board()
     board = load_board(path)
     specs, chains = board_chains(reference_models(board, load_grades()), consumer_links(analyze(board)))
-    print(f"\ndemo board {path.name}: {len(board.references)} references, {len(board.consumers)} consumers "
-          f"({len(chains)} with a budget), {board.temperature_c[0]:g}..{board.temperature_c[1]:g} °C, "
-          f"{board.lifetime_s / SECONDS_PER_YEAR:g} years")
+    say = print if verbose else (lambda *args, **kwargs: None)
+    say(f"\ndemo board {path.name}: {len(board.references)} references, {len(board.consumers)} consumers "
+        f"({len(chains)} with a budget), {board.temperature_c[0]:g}..{board.temperature_c[1]:g} °C, "
+        f"{board.lifetime_s / SECONDS_PER_YEAR:g} years")
 
     timings = []
     for seed in range(repeat):
@@ -165,8 +172,8 @@ def bench_demo_board(samples: int, naive_samples: int, repeat: int) -> None:
         result = monte_carlo_yield(specs, chains, board.temperature_c, board.lifetime_s, samples=samples, seed=seed)
         timings.append(time.perf_counter() - start)
     best = min(timings)
-    print(f"monte carlo: {samples:>9,} boards in {best:.3f} s (best of {repeat}) -> {samples / best:,.0f} boards/s; "
-          f"board yield {result.board_yield:.4f}")
+    say(f"monte carlo: {samples:>9,} boards in {best:.3f} s (best of {repeat}) -> {samples / best:,.0f} boards/s; "
+        f"board yield {result.board_yield:.4f}")
 
     timings = []
     for seed in range(repeat):
@@ -174,53 +181,80 @@ def bench_demo_board(samples: int, naive_samples: int, repeat: int) -> None:
         analyze(load_board(path), options=AnalysisOptions(samples=samples, seed=seed))
         timings.append(time.perf_counter() - start)
     pipeline = min(timings)
-    print(f"whole audit: {samples:>9,} boards in {pipeline:.3f} s (load, exact audit, stage, Monte Carlo)")
+    say(f"whole audit: {samples:>9,} boards in {pipeline:.3f} s (load, exact audit, stage, Monte Carlo)")
 
     start = time.perf_counter()
     naive = naive_yield(specs, chains, naive_samples, seed=1, temperature=board.temperature_c, lifetime=board.lifetime_s)
     naive_rate = naive_samples / (time.perf_counter() - start)
     gap = max(abs(a - b) for a, b in zip(result.yields, naive))
-    print(f"naive loop : {naive_samples:>9,} boards -> {naive_rate:,.0f} boards/s; speed-up {samples / best / naive_rate:.0f}x; "
-          f"largest per-consumer yield difference {gap:.4f}")
+    say(f"naive loop : {naive_samples:>9,} boards -> {naive_rate:,.0f} boards/s; speed-up {samples / best / naive_rate:.0f}x; "
+        f"largest per-consumer yield difference {gap:.4f}")
     per_million = pipeline * 1_000_000 / samples
     verdict = "meets" if per_million < 2.0 else "misses"
-    print(f"goal       : 1,000,000 boards of {path.name} in {per_million:.3f} s through the whole audit "
-          f"({verdict} the < 2 s goal)")
+    say(f"goal       : 1,000,000 boards of {path.name} in {per_million:.3f} s through the whole audit "
+        f"({verdict} the < 2 s goal)")
+    naive_name = f"naive per-board loop, {naive_samples:,} boards"
+    return [
+        Row("montecarlo", f"{path.stem}: Monte Carlo, {samples:,} boards", samples / best, "boards/s",
+            naive_rate, naive_name, f"largest yield difference to the naive loop {gap:.4f}"),
+        Row("montecarlo", f"{path.stem}: whole audit per million boards", per_million, "s", 2.0, "the 2 s goal",
+            f"load, exact audit, stages, Monte Carlo of {samples:,} boards, scaled to 1,000,000"),
+    ]
+
+
+def bench_synthetic(samples: int, naive_samples: int, repeat: int, verbose: bool = True) -> list[Row]:
+    """Vectorized Monte Carlo on the synthetic board against the naive loop, same process."""
+    say = print if verbose else (lambda *args, **kwargs: None)
+    references, consumers = synthetic_board()
+    say(f"synthetic board: {len(references)} references, {len(consumers)} consumers")
+
+    timings = []
+    for seed in range(repeat):
+        start = time.perf_counter()
+        result = monte_carlo_yield(references, consumers, TEMPERATURE, LIFETIME, samples=samples, seed=seed)
+        timings.append(time.perf_counter() - start)
+    best = min(timings)
+    vector_rate = samples / best
+    say(f"vectorized : {samples:>9,} boards in {best:.3f} s (best of {repeat}) "
+        f"-> {vector_rate:,.0f} boards/s; board yield {result.board_yield:.4f}")
+
+    start = time.perf_counter()
+    naive = naive_yield(references, consumers, naive_samples, seed=1)
+    naive_time = time.perf_counter() - start
+    naive_rate = naive_samples / naive_time
+    say(f"naive loop : {naive_samples:>9,} boards in {naive_time:.3f} s -> {naive_rate:,.0f} boards/s")
+
+    worst_gap = max(abs(a - b) for a, b in zip(result.yields, naive))
+    say(f"speed-up   : {vector_rate / naive_rate:.0f}x; largest per-consumer yield difference "
+        f"{worst_gap:.4f} (sampling noise of the {naive_samples:,}-board baseline)")
+    per_million = 1_000_000 / vector_rate
+    verdict = "meets" if per_million < 2.0 else "misses"
+    say(f"goal       : 1,000,000 boards in {per_million:.3f} s ({verdict} the < 2 s goal)")
+    return [Row("montecarlo", f"synthetic board: Monte Carlo, {samples:,} boards", vector_rate, "boards/s",
+                naive_rate, f"naive per-board loop, {naive_samples:,} boards",
+                f"{len(references)} references, {len(consumers)} consumers; largest yield difference {worst_gap:.4f}")]
+
+
+FULL = {"samples": 1_000_000, "naive_samples": 20_000, "repeat": 3}
+QUICK = {"samples": 50_000, "naive_samples": 1_000, "repeat": 1}
+
+
+def rows(quick: bool = False) -> list[Row]:
+    """The ``montecarlo`` benchmark's rows (synthetic board, then the largest demo board)."""
+    sizes = QUICK if quick else FULL
+    return bench_synthetic(**sizes, verbose=False) + bench_demo_board(**sizes, verbose=False)
 
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--samples", type=int, default=1_000_000, help="boards for the vectorized run")
-    parser.add_argument("--naive", type=int, default=20_000, help="boards for the naive baseline")
-    parser.add_argument("--repeat", type=int, default=3, help="vectorized repeats (best is reported)")
+    parser.add_argument("--samples", type=int, default=FULL["samples"], help="boards for the vectorized run")
+    parser.add_argument("--naive", type=int, default=FULL["naive_samples"], help="boards for the naive baseline")
+    parser.add_argument("--repeat", type=int, default=FULL["repeat"], help="vectorized repeats (best is reported)")
+    parser.add_argument("--quick", action="store_true", help="small runs: %(q)s" % {"q": QUICK})
     args = parser.parse_args()
-
-    references, consumers = synthetic_board()
-    print(f"synthetic board: {len(references)} references, {len(consumers)} consumers")
-
-    timings = []
-    for repeat in range(args.repeat):
-        start = time.perf_counter()
-        result = monte_carlo_yield(references, consumers, TEMPERATURE, LIFETIME, samples=args.samples, seed=repeat)
-        timings.append(time.perf_counter() - start)
-    best = min(timings)
-    vector_rate = args.samples / best
-    print(f"vectorized : {args.samples:>9,} boards in {best:.3f} s (best of {args.repeat}) "
-          f"-> {vector_rate:,.0f} boards/s; board yield {result.board_yield:.4f}")
-
-    start = time.perf_counter()
-    naive = naive_yield(references, consumers, args.naive, seed=1)
-    naive_time = time.perf_counter() - start
-    naive_rate = args.naive / naive_time
-    print(f"naive loop : {args.naive:>9,} boards in {naive_time:.3f} s -> {naive_rate:,.0f} boards/s")
-
-    worst_gap = max(abs(a - b) for a, b in zip(result.yields, naive))
-    print(f"speed-up   : {vector_rate / naive_rate:.0f}x; largest per-consumer yield difference "
-          f"{worst_gap:.4f} (sampling noise of the {args.naive:,}-board baseline)")
-    per_million = 1_000_000 / vector_rate
-    verdict = "meets" if per_million < 2.0 else "misses"
-    print(f"goal       : 1,000,000 boards in {per_million:.3f} s ({verdict} the < 2 s goal)")
-
+    if args.quick:
+        args.samples, args.naive, args.repeat = QUICK["samples"], QUICK["naive_samples"], QUICK["repeat"]
+    bench_synthetic(args.samples, args.naive, args.repeat)
     bench_demo_board(args.samples, args.naive, args.repeat)
 
 
