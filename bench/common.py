@@ -77,7 +77,7 @@ def _number(value: float | None) -> str:
         return "-"
     if value == 0:
         return "0"
-    if abs(value) >= 1e5:
+    if abs(value) >= 1e4:
         return f"{value:,.0f}"
     return f"{value:.4g}"
 
