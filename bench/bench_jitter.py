@@ -14,7 +14,6 @@ from __future__ import annotations
 
 import argparse
 import math
-import statistics
 import sys
 import time
 from pathlib import Path
@@ -23,7 +22,7 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from bench.common import Row  # noqa: E402
+from bench.common import Row, median_seconds  # noqa: E402
 from clockplan.jitter import PhaseNoiseProfile, integrated_power, rms_jitter  # noqa: E402
 
 GOAL_SECONDS = 5e-3
@@ -38,15 +37,6 @@ def _profile_table(points: int, seed: int = 1) -> np.ndarray:
     density = 1e-6 / f**3 + 1e-11 / f + 1e-16
     dbc = 10 * np.log10(density) + rng.normal(0.0, 0.5, points)
     return np.column_stack((f, dbc))
-
-
-def _median_seconds(action, repeats: int) -> float:
-    times = []
-    for _ in range(repeats):
-        start = time.perf_counter()
-        action()
-        times.append(time.perf_counter() - start)
-    return statistics.median(times)
 
 
 def _python_loop(offsets: list[float], levels: list[float]) -> float:
@@ -77,15 +67,15 @@ def measure(points: int, repeats: int, verbose: bool = True) -> list[Row]:
     trapezoid = getattr(np, "trapezoid", None) or np.trapz
 
     timings = {
-        "exact, built profile (warm)": _median_seconds(lambda: integrated_power(profile, low, high), repeats),
-        "exact, from (n, 2) array (cold)": _median_seconds(
-            lambda: rms_jitter(table, CARRIER_HZ, low, high), repeats
+        "exact, built profile (warm)": median_seconds(lambda: integrated_power(profile, low, high), repeats, warm_up=False),
+        "exact, from (n, 2) array (cold)": median_seconds(
+            lambda: rms_jitter(table, CARRIER_HZ, low, high), repeats, warm_up=False
         ),
-        "baseline: numpy trapezoid (linear)": _median_seconds(
-            lambda: trapezoid(10 ** (inside[:, 1] / 10), inside[:, 0]), repeats
+        "baseline: numpy trapezoid (linear)": median_seconds(
+            lambda: trapezoid(10 ** (inside[:, 1] / 10), inside[:, 0]), repeats, warm_up=False
         ),
-        "baseline: pure-Python closed form": _median_seconds(
-            lambda: _python_loop(offsets, levels), max(3, repeats // 10)
+        "baseline: pure-Python closed form": median_seconds(
+            lambda: _python_loop(offsets, levels), max(3, repeats // 10), warm_up=False
         ),
     }
     exact = integrated_power(profile, low, high)
@@ -103,7 +93,7 @@ def measure(points: int, repeats: int, verbose: bool = True) -> list[Row]:
         f"cold {'met' if cold < GOAL_SECONDS else 'MISSED'}")
     say(f"agreement: exact vs pure-Python loop {abs(exact / loop_value - 1):.2e} relative; "
         f"linear trapezoid is off by {trap_value / exact - 1:+.2e}")
-    consumer = _median_seconds(lambda: integrated_power(profile, *CONSUMER_BAND), repeats)
+    consumer = median_seconds(lambda: integrated_power(profile, *CONSUMER_BAND), repeats, warm_up=False)
     say(f"12 kHz..20 MHz sub-band (band edges interpolated): {consumer * 1e3:.3f} ms, "
         f"rms jitter at {CARRIER_HZ / 1e6:g} MHz {rms_jitter(profile, CARRIER_HZ, *CONSUMER_BAND) * 1e15:.2f} fs")
     loop_ms = timings["baseline: pure-Python closed form"] * 1e3

@@ -34,21 +34,12 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
-from bench.common import Row  # noqa: E402
+from bench.common import Row, median_seconds  # noqa: E402
 from clockplan import analysis as pipeline  # noqa: E402
 from clockplan.boardfile import load_board, parse_board  # noqa: E402
 from clockplan.loopfilter.design import LoopSpec, design_filter  # noqa: E402
 
 BOARD = ROOT / "boards" / "sampling-receiver.toml"
-
-
-def _median_seconds(action, repeats: int) -> float:
-    times = []
-    for _ in range(repeats):
-        start = time.perf_counter()
-        action()
-        times.append(time.perf_counter() - start)
-    return statistics.median(times)
 
 
 def _cli_seconds(runs: int) -> tuple[float, bool]:
@@ -111,13 +102,13 @@ def measure(repeats: int, cli_runs: int, derive: bool = True, verbose: bool = Tr
     analysed_sympy = "sympy" in sys.modules and not had_sympy
     derivation = _derivation_seconds(3) if derive else float("nan")
     spec = LoopSpec(2.5e-3, 30e6, 100, 25e6)
-    design = _median_seconds(lambda: design_filter(spec, 100e3, 55, order=3), 20 * repeats)
-    warm = _median_seconds(lambda: pipeline.analyze(board), repeats)
-    plain = _median_seconds(lambda: pipeline.analyze(approximated), repeats)
+    design = median_seconds(lambda: design_filter(spec, 100e3, 55, order=3), 20 * repeats, warm_up=False)
+    warm = median_seconds(lambda: pipeline.analyze(board), repeats, warm_up=False)
+    plain = median_seconds(lambda: pipeline.analyze(approximated), repeats, warm_up=False)
     stages = list(pipeline.STAGES)
     pipeline.STAGES[:] = [s for s in stages if s.__name__ != "_jitter_stage"]
     try:
-        baseline = _median_seconds(lambda: pipeline.analyze(board), repeats)
+        baseline = median_seconds(lambda: pipeline.analyze(board), repeats, warm_up=False)
     finally:
         pipeline.STAGES[:] = stages
     derivation_name = "derivation only (sympy was loaded)" if had_sympy else "sympy import + the derivation"
