@@ -114,12 +114,14 @@ def measure(repeats: int, cli_runs: int, derive: bool = True, verbose: bool = Tr
     derivation_name = "derivation only (sympy was loaded)" if had_sympy else "sympy import + the derivation"
     if verbose:
         print(f"board: {BOARD.name}, {len(board.consumers)} consumers, median of {repeats}")
-        print(f"{f'audit command, fresh process (median of {cli_runs}):':<57} {cli * 1e3:8.1f} ms"
-              f"  (sympy imported: {'yes' if cli_sympy else 'no'})")
+        if cli_runs:
+            print(f"{f'audit command, fresh process (median of {cli_runs}):':<57} {cli * 1e3:8.1f} ms"
+                  f"  (sympy imported: {'yes' if cli_sympy else 'no'})")
         print(f"first analyze in this process (closed forms):             {first * 1e3:8.1f} ms"
               f"  (sympy imported: {'yes' if analysed_sympy else 'no'})")
-        print(f"{derivation_name + ' it replaces (baseline):':<57} {derivation * 1e3:8.1f} ms"
-              f"  (first analyze would take {(first + derivation) / first:.1f} x as long)")
+        if derive:
+            print(f"{derivation_name + ' it replaces (baseline):':<57} {derivation * 1e3:8.1f} ms"
+                  f"  (first analyze would take {(first + derivation) / first:.1f} x as long)")
         print(f"design_filter, third order, warm:                         {design * 1e6:8.1f} us")
         print(f"analyze, all stages, warm:                                {warm * 1e3:8.1f} ms")
         print(f"analyze without the jitter stage (baseline):              {baseline * 1e3:8.1f} ms")
