@@ -15,7 +15,10 @@ Prints, measured in the same run:
 - the same board with the designed loop filter replaced by the
   bandwidth-and-phase-margin approximation (no filter to design).
 
-    python bench/bench_jitter_stage.py [--repeats R] [--cli-runs C]
+    python bench/bench_jitter_stage.py [--repeats R] [--cli-runs C] [--quick]
+
+(``python -m bench`` runs it with every other benchmark: ``jitter-stage``; it runs
+first there, so that the sympy import is measured before anything else loads it.)
 """
 
 from __future__ import annotations
@@ -31,20 +34,12 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
+from bench.common import Row, median_seconds  # noqa: E402
 from clockplan import analysis as pipeline  # noqa: E402
 from clockplan.boardfile import load_board, parse_board  # noqa: E402
 from clockplan.loopfilter.design import LoopSpec, design_filter  # noqa: E402
 
 BOARD = ROOT / "boards" / "sampling-receiver.toml"
-
-
-def _median_seconds(action, repeats: int) -> float:
-    times = []
-    for _ in range(repeats):
-        start = time.perf_counter()
-        action()
-        times.append(time.perf_counter() - start)
-    return statistics.median(times)
 
 
 def _cli_seconds(runs: int) -> tuple[float, bool]:
@@ -64,8 +59,10 @@ def _cli_seconds(runs: int) -> tuple[float, bool]:
 
 
 def _derivation_seconds(order: int) -> float:
-    """sympy import plus the derivations the run-time path used to do for a filter of ``order``."""
-    assert "sympy" not in sys.modules, "measure the derivation before anything imports sympy"
+    """sympy import plus the derivations the run-time path used to do for a filter of ``order``.
+
+    If something in this process imported sympy already, the import is not in the figure.
+    """
     start = time.perf_counter()
     from clockplan.loopfilter import symbolic
 
@@ -85,41 +82,78 @@ def _approximated_board():
     return parse_board(text.replace(block, "\n").replace('noise = { fom = "-227', loop + 'noise = { fom = "-227'))
 
 
-def main() -> None:
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--repeats", type=int, default=20)
-    parser.add_argument("--cli-runs", type=int, default=5)
-    args = parser.parse_args()
-    cli, cli_sympy = _cli_seconds(args.cli_runs)
+FULL = {"repeats": 20, "cli_runs": 5, "derive": True}
+# Quick: no audit command (start-up has it) and no symbolic derivation (seconds of sympy).
+QUICK = {"repeats": 2, "cli_runs": 0, "derive": False}
+
+
+def measure(repeats: int, cli_runs: int, derive: bool = True, verbose: bool = True) -> list[Row]:
+    """Measure the jitter stage and its baselines; print them if ``verbose``.
+
+    ``cli_runs`` 0 skips the audit command; ``derive`` False skips the sympy baseline.
+    """
+    had_sympy = "sympy" in sys.modules
+    cli, cli_sympy = _cli_seconds(cli_runs) if cli_runs else (float("nan"), False)
     board = load_board(BOARD)
     approximated = _approximated_board()
     start = time.perf_counter()
     pipeline.analyze(board)
     first = time.perf_counter() - start
-    analysed_sympy = "sympy" in sys.modules
-    derivation = _derivation_seconds(3)
+    analysed_sympy = "sympy" in sys.modules and not had_sympy
+    derivation = _derivation_seconds(3) if derive else float("nan")
     spec = LoopSpec(2.5e-3, 30e6, 100, 25e6)
-    design = _median_seconds(lambda: design_filter(spec, 100e3, 55, order=3), 20 * args.repeats)
-    warm = _median_seconds(lambda: pipeline.analyze(board), args.repeats)
-    plain = _median_seconds(lambda: pipeline.analyze(approximated), args.repeats)
+    design = median_seconds(lambda: design_filter(spec, 100e3, 55, order=3), 20 * repeats, warm_up=False)
+    warm = median_seconds(lambda: pipeline.analyze(board), repeats, warm_up=False)
+    plain = median_seconds(lambda: pipeline.analyze(approximated), repeats, warm_up=False)
     stages = list(pipeline.STAGES)
     pipeline.STAGES[:] = [s for s in stages if s.__name__ != "_jitter_stage"]
     try:
-        baseline = _median_seconds(lambda: pipeline.analyze(board), args.repeats)
+        baseline = median_seconds(lambda: pipeline.analyze(board), repeats, warm_up=False)
     finally:
         pipeline.STAGES[:] = stages
-    print(f"board: {BOARD.name}, {len(board.consumers)} consumers, median of {args.repeats}")
-    print(f"{f'audit command, fresh process (median of {args.cli_runs}):':<57} {cli * 1e3:8.1f} ms"
-          f"  (sympy imported: {'yes' if cli_sympy else 'no'})")
-    print(f"first analyze in this process (closed forms):             {first * 1e3:8.1f} ms"
-          f"  (sympy imported: {'yes' if analysed_sympy else 'no'})")
-    print(f"sympy import + the derivation it replaces (baseline):     {derivation * 1e3:8.1f} ms"
-          f"  (first analyze would take {(first + derivation) / first:.1f} x as long)")
-    print(f"design_filter, third order, warm:                         {design * 1e6:8.1f} us")
-    print(f"analyze, all stages, warm:                                {warm * 1e3:8.1f} ms")
-    print(f"analyze without the jitter stage (baseline):              {baseline * 1e3:8.1f} ms")
-    print(f"analyze, loop filter replaced by the approximation:       {plain * 1e3:8.1f} ms")
-    print(f"jitter stage, warm: {(warm - baseline) * 1e3:.1f} ms ({warm / baseline:.2f} x the baseline)")
+    derivation_name = "derivation only (sympy was loaded)" if had_sympy else "sympy import + the derivation"
+    if verbose:
+        print(f"board: {BOARD.name}, {len(board.consumers)} consumers, median of {repeats}")
+        if cli_runs:
+            print(f"{f'audit command, fresh process (median of {cli_runs}):':<57} {cli * 1e3:8.1f} ms"
+                  f"  (sympy imported: {'yes' if cli_sympy else 'no'})")
+        print(f"first analyze in this process (closed forms):             {first * 1e3:8.1f} ms"
+              f"  (sympy imported: {'yes' if analysed_sympy else 'no'})")
+        if derive:
+            print(f"{derivation_name + ' it replaces (baseline):':<57} {derivation * 1e3:8.1f} ms"
+                  f"  (first analyze would take {(first + derivation) / first:.1f} x as long)")
+        print(f"design_filter, third order, warm:                         {design * 1e6:8.1f} us")
+        print(f"analyze, all stages, warm:                                {warm * 1e3:8.1f} ms")
+        print(f"analyze without the jitter stage (baseline):              {baseline * 1e3:8.1f} ms")
+        print(f"analyze, loop filter replaced by the approximation:       {plain * 1e3:8.1f} ms")
+        print(f"jitter stage, warm: {(warm - baseline) * 1e3:.1f} ms ({warm / baseline:.2f} x the baseline)")
+    name = BOARD.stem
+    sympy_note = f"sympy imported by the audit command: {'yes' if cli_sympy else 'no'}" if cli_runs else "audit command not run"
+    return [
+        Row("jitter-stage", f"{name}: first analyze (closed forms)", first * 1e3, "ms",
+            (first + derivation) * 1e3 if derive else None, f"same + {derivation_name}",
+            sympy_note + ("" if derive else "; symbolic baseline skipped (--quick)")),
+        Row("jitter-stage", f"{name}: analyze, all stages, warm", warm * 1e3, "ms", baseline * 1e3, "without the jitter stage"),
+        Row("jitter-stage", f"{name}: analyze, approximated loop", plain * 1e3, "ms", baseline * 1e3, "without the jitter stage"),
+        Row("jitter-stage", "design_filter, third order, warm", design * 1e3, "ms"),
+    ]
+
+
+def rows(quick: bool = False) -> list[Row]:
+    """The ``jitter-stage`` benchmark's rows (the audit command's time is in ``startup``)."""
+    return measure(**(QUICK if quick else FULL), verbose=False)
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--repeats", type=int, default=FULL["repeats"])
+    parser.add_argument("--cli-runs", type=int, default=FULL["cli_runs"])
+    parser.add_argument("--quick", action="store_true", help="2 repeats; no audit command, no symbolic baseline")
+    args = parser.parse_args()
+    if args.quick:
+        measure(**QUICK)
+    else:
+        measure(args.repeats, args.cli_runs)
 
 
 if __name__ == "__main__":

@@ -1,16 +1,15 @@
 """Monte Carlo yield throughput: vectorized run against a naive per-board loop, same process.
 
 Goal: at least one million board samples in under 2 s on the 2-core project
-machine. A synthetic board (invented for this benchmark: 10 references of
-mixed kinds and curve models, 30 consumers with mixed budgets, synthesis
-errors and spread settings), and every demo board under boards/ with budgets
-(planned first when its settings are open), each alone in the Monte Carlo and
-through the whole audit (load, exact audit, accuracy and jitter stages, the
-Monte Carlo) as `clockplan audit --samples N` runs it. The largest demo board
-(most references plus judged consumers) gets the naive per-board loop as its
-baseline, measured in the same run.
+machine. Two boards: a synthetic one (invented for this benchmark: 10
+references of mixed kinds and curve models, 30 consumers with mixed budgets,
+synthesis errors and spread settings), and the largest demo board under
+boards/ (the most consumers with a frequency-error budget; planned first when
+its settings are open) run through the whole pipeline (load, exact audit, accuracy stage
+with the Monte Carlo), as `clockplan audit --samples N` runs it.
 
-Run from the repository root:  python bench/bench_montecarlo.py [--samples N] [--naive N]
+Run from the repository root:  python bench/bench_montecarlo.py [--samples N] [--naive N] [--quick]
+(``python -m bench`` runs it with every other benchmark: ``montecarlo``.)
 """
 
 from __future__ import annotations
@@ -24,6 +23,7 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
+from bench.common import Row  # noqa: E402
 from clockplan.ppm import (  # noqa: E402
     SECONDS_PER_YEAR,
     AgingLinear,
@@ -137,113 +137,137 @@ def naive_yield(references, consumers, samples: int, seed: int, temperature=TEMP
     return [p / samples for p in passed]
 
 
-def _demo_settings(board):
+def demo_settings(board):
     """The board's own settings, or the planner's when some are left open (edge-router is a planning demo)."""
     from clockplan.analysis import analyze
     from clockplan.plan.board_planner import plan_board
 
-    settings = None
     if any(f.code == "unset" for f in analyze(board).findings):
-        settings = plan_board(board).settings
-    return settings
+        return plan_board(board).settings
+    return None
 
 
-def demo_boards() -> list[tuple[Path, object, list, list]]:
-    """Every demo board with budgets: path, settings, and the Monte Carlo's references and chains."""
+def largest_demo_board() -> Path:
+    """The demo board with the most consumers the Monte Carlo judges (then the most consumers)."""
     from clockplan.analysis import analyze
     from clockplan.boardfile import load_board
     from clockplan.ppm.board import board_chains, consumer_links, reference_models
     from clockplan.ppm.grades import load_grades
 
-    found = []
-    for path in sorted(Path(__file__).resolve().parents[1].joinpath("boards").glob("*.toml")):
+    def size(path: Path) -> tuple[int, int]:
         board = load_board(path)
-        settings = _demo_settings(board)
-        analysis = analyze(board, settings)
-        specs, chains = board_chains(reference_models(board, load_grades()), consumer_links(analysis))
-        if chains:
-            found.append((path, settings, specs, chains))
-    return found
+        _, chains = board_chains(reference_models(board, load_grades()), consumer_links(analyze(board, demo_settings(board))))
+        return len(chains), len(board.consumers)
+
+    return max(sorted(Path(__file__).resolve().parents[1].joinpath("boards").glob("*.toml")), key=size)
 
 
-def _time(run, repeat: int) -> float:
+def bench_demo_board(samples: int, naive_samples: int, repeat: int, verbose: bool = True) -> list[Row]:
+    """Monte Carlo alone and the whole audit pipeline on the largest demo board, against the naive loop."""
+    from clockplan.analysis import AnalysisOptions, analyze
+    from clockplan.boardfile import load_board
+    from clockplan.ppm.board import board_chains, consumer_links, reference_models
+    from clockplan.ppm.grades import load_grades
+
+    path = largest_demo_board()
+    board = load_board(path)
+    settings = demo_settings(board)
+    specs, chains = board_chains(reference_models(board, load_grades()), consumer_links(analyze(board, settings)))
+    say = print if verbose else (lambda *args, **kwargs: None)
+    say(f"\ndemo board {path.name}: {len(board.references)} references, {len(board.consumers)} consumers "
+        f"({len(chains)} with a budget), {board.temperature_c[0]:g}..{board.temperature_c[1]:g} °C, "
+        f"{board.lifetime_s / SECONDS_PER_YEAR:g} years")
+
     timings = []
     for seed in range(repeat):
         start = time.perf_counter()
-        run(seed)
+        result = monte_carlo_yield(specs, chains, board.temperature_c, board.lifetime_s, samples=samples, seed=seed)
         timings.append(time.perf_counter() - start)
-    return min(timings)
+    best = min(timings)
+    say(f"monte carlo: {samples:>9,} boards in {best:.3f} s (best of {repeat}) -> {samples / best:,.0f} boards/s; "
+        f"board yield {result.board_yield:.4f}")
 
+    timings = []
+    for seed in range(repeat):
+        start = time.perf_counter()
+        analyze(load_board(path), settings, options=AnalysisOptions(samples=samples, seed=seed))
+        timings.append(time.perf_counter() - start)
+    pipeline = min(timings)
+    say(f"whole audit: {samples:>9,} boards in {pipeline:.3f} s (load, exact audit, stage, Monte Carlo)")
 
-def bench_demo_boards(samples: int, naive_samples: int, repeat: int) -> None:
-    """Monte Carlo alone and the whole audit on every demo board; the largest gets the naive baseline too."""
-    from clockplan.analysis import AnalysisOptions, analyze
-    from clockplan.boardfile import load_board
-
-    boards = demo_boards()
-    print(f"\ndemo boards ({samples:,} boards each, best of {repeat}; per million = time x 1e6 / samples):")
-    print(f"{'board':<26} {'refs':>4} {'judged':>6} {'MC boards/s':>14} {'MC 1e6 s':>9} {'audit 1e6 s':>11}")
-    rows = []
-    for path, settings, specs, chains in boards:
-        board = load_board(path)
-        mc = _time(lambda seed: monte_carlo_yield(specs, chains, board.temperature_c, board.lifetime_s,
-                                                  samples=samples, seed=seed), repeat)
-        audit = _time(lambda seed: analyze(load_board(path), settings, options=AnalysisOptions(samples=samples, seed=seed)),
-                      repeat)
-        rows.append((len(specs) + len(chains), path, specs, chains, board, mc, audit))
-        print(f"{path.name:<26} {len(specs):>4} {len(chains):>6} {samples / mc:>14,.0f} "
-              f"{mc * 1e6 / samples:>9.3f} {audit * 1e6 / samples:>11.3f}")
-
-    _, path, specs, chains, board, mc, audit = max(rows, key=lambda r: (r[0], len(r[2])))
-    result = monte_carlo_yield(specs, chains, board.temperature_c, board.lifetime_s, samples=samples, seed=0)
     start = time.perf_counter()
     naive = naive_yield(specs, chains, naive_samples, seed=1, temperature=board.temperature_c, lifetime=board.lifetime_s)
     naive_rate = naive_samples / (time.perf_counter() - start)
     gap = max(abs(a - b) for a, b in zip(result.yields, naive))
-    print(f"largest    : {path.name} ({len(specs)} references, {len(chains)} judged consumers)")
-    print(f"naive loop : {naive_samples:>9,} boards -> {naive_rate:,.0f} boards/s (1,000,000 would take "
-          f"{1e6 / naive_rate:.1f} s); speed-up {samples / mc / naive_rate:.0f}x; largest per-consumer yield "
-          f"difference {gap:.4f}")
-    per_million = audit * 1_000_000 / samples
+    say(f"naive loop : {naive_samples:>9,} boards -> {naive_rate:,.0f} boards/s; speed-up {samples / best / naive_rate:.0f}x; "
+        f"largest per-consumer yield difference {gap:.4f}")
+    per_million = pipeline * 1_000_000 / samples
     verdict = "meets" if per_million < 2.0 else "misses"
-    print(f"goal       : 1,000,000 boards of {path.name} in {mc * 1e6 / samples:.3f} s in the Monte Carlo, "
-          f"{per_million:.3f} s through the whole audit ({verdict} the < 2 s goal)")
+    say(f"goal       : 1,000,000 boards of {path.name} in {per_million:.3f} s through the whole audit "
+        f"({verdict} the < 2 s goal)")
+    naive_name = f"naive per-board loop, {naive_samples:,} boards"
+    return [
+        Row("montecarlo", f"{path.stem}: Monte Carlo, {samples:,} boards", samples / best, "boards/s",
+            naive_rate, naive_name, f"largest yield difference to the naive loop {gap:.4f}"),
+        Row("montecarlo", f"{path.stem}: whole audit per million boards", per_million, "s", 2.0, "the 2 s goal",
+            f"load, exact audit, stages, Monte Carlo of {samples:,} boards, scaled to 1,000,000"),
+    ]
+
+
+def bench_synthetic(samples: int, naive_samples: int, repeat: int, verbose: bool = True) -> list[Row]:
+    """Vectorized Monte Carlo on the synthetic board against the naive loop, same process."""
+    say = print if verbose else (lambda *args, **kwargs: None)
+    references, consumers = synthetic_board()
+    say(f"synthetic board: {len(references)} references, {len(consumers)} consumers")
+
+    timings = []
+    for seed in range(repeat):
+        start = time.perf_counter()
+        result = monte_carlo_yield(references, consumers, TEMPERATURE, LIFETIME, samples=samples, seed=seed)
+        timings.append(time.perf_counter() - start)
+    best = min(timings)
+    vector_rate = samples / best
+    say(f"vectorized : {samples:>9,} boards in {best:.3f} s (best of {repeat}) "
+        f"-> {vector_rate:,.0f} boards/s; board yield {result.board_yield:.4f}")
+
+    start = time.perf_counter()
+    naive = naive_yield(references, consumers, naive_samples, seed=1)
+    naive_time = time.perf_counter() - start
+    naive_rate = naive_samples / naive_time
+    say(f"naive loop : {naive_samples:>9,} boards in {naive_time:.3f} s -> {naive_rate:,.0f} boards/s")
+
+    worst_gap = max(abs(a - b) for a, b in zip(result.yields, naive))
+    say(f"speed-up   : {vector_rate / naive_rate:.0f}x; largest per-consumer yield difference "
+        f"{worst_gap:.4f} (sampling noise of the {naive_samples:,}-board baseline)")
+    per_million = 1_000_000 / vector_rate
+    verdict = "meets" if per_million < 2.0 else "misses"
+    say(f"goal       : 1,000,000 boards in {per_million:.3f} s ({verdict} the < 2 s goal)")
+    return [Row("montecarlo", f"synthetic board: Monte Carlo, {samples:,} boards", vector_rate, "boards/s",
+                naive_rate, f"naive per-board loop, {naive_samples:,} boards",
+                f"{len(references)} references, {len(consumers)} consumers; largest yield difference {worst_gap:.4f}")]
+
+
+FULL = {"samples": 1_000_000, "naive_samples": 20_000, "repeat": 3}
+QUICK = {"samples": 50_000, "naive_samples": 1_000, "repeat": 1}
+
+
+def rows(quick: bool = False) -> list[Row]:
+    """The ``montecarlo`` benchmark's rows (synthetic board, then the largest demo board)."""
+    sizes = QUICK if quick else FULL
+    return bench_synthetic(**sizes, verbose=False) + bench_demo_board(**sizes, verbose=False)
 
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--samples", type=int, default=1_000_000, help="boards for the vectorized run")
-    parser.add_argument("--naive", type=int, default=20_000, help="boards for the naive baseline")
-    parser.add_argument("--repeat", type=int, default=3, help="vectorized repeats (best is reported)")
+    parser.add_argument("--samples", type=int, default=FULL["samples"], help="boards for the vectorized run")
+    parser.add_argument("--naive", type=int, default=FULL["naive_samples"], help="boards for the naive baseline")
+    parser.add_argument("--repeat", type=int, default=FULL["repeat"], help="vectorized repeats (best is reported)")
+    parser.add_argument("--quick", action="store_true", help="small runs: %(q)s" % {"q": QUICK})
     args = parser.parse_args()
-
-    references, consumers = synthetic_board()
-    print(f"synthetic board: {len(references)} references, {len(consumers)} consumers")
-
-    timings = []
-    for repeat in range(args.repeat):
-        start = time.perf_counter()
-        result = monte_carlo_yield(references, consumers, TEMPERATURE, LIFETIME, samples=args.samples, seed=repeat)
-        timings.append(time.perf_counter() - start)
-    best = min(timings)
-    vector_rate = args.samples / best
-    print(f"vectorized : {args.samples:>9,} boards in {best:.3f} s (best of {args.repeat}) "
-          f"-> {vector_rate:,.0f} boards/s; board yield {result.board_yield:.4f}")
-
-    start = time.perf_counter()
-    naive = naive_yield(references, consumers, args.naive, seed=1)
-    naive_time = time.perf_counter() - start
-    naive_rate = args.naive / naive_time
-    print(f"naive loop : {args.naive:>9,} boards in {naive_time:.3f} s -> {naive_rate:,.0f} boards/s")
-
-    worst_gap = max(abs(a - b) for a, b in zip(result.yields, naive))
-    print(f"speed-up   : {vector_rate / naive_rate:.0f}x; largest per-consumer yield difference "
-          f"{worst_gap:.4f} (sampling noise of the {args.naive:,}-board baseline)")
-    per_million = 1_000_000 / vector_rate
-    verdict = "meets" if per_million < 2.0 else "misses"
-    print(f"goal       : 1,000,000 boards in {per_million:.3f} s ({verdict} the < 2 s goal)")
-
-    bench_demo_boards(args.samples, args.naive, args.repeat)
+    if args.quick:
+        args.samples, args.naive, args.repeat = QUICK["samples"], QUICK["naive_samples"], QUICK["repeat"]
+    bench_synthetic(args.samples, args.naive, args.repeat)
+    bench_demo_board(args.samples, args.naive, args.repeat)
 
 
 if __name__ == "__main__":

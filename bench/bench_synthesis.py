@@ -3,7 +3,9 @@
 Run from the repository root::
 
     python bench/bench_synthesis.py            # 10, 20 and 40 consumers
-    python bench/bench_synthesis.py --quick    # 10 and 20 only
+    python bench/bench_synthesis.py --quick    # 4 consumers, exhaustive baseline on the same list
+
+(``python -m bench`` runs it with every other benchmark: ``synthesis``.)
 
 Consumer lists are drawn (fixed seed) from a pool of interface clocks with
 their standards -- Ethernet and PCI Express references, the 48 kHz audio
@@ -37,6 +39,7 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
+from bench.common import Row  # noqa: E402
 from clockplan.synth.evaluate import Evaluator  # noqa: E402
 from clockplan.synth.grouping import BranchAndBound, LeafJudge, SearchStats, TopTrees, enumerate_groupings, exhaustive_search  # noqa: E402
 from clockplan.synth.input import parse_consumer_list  # noqa: E402
@@ -100,8 +103,12 @@ def naive_cost(result) -> str:
     return f"{cost.parts} parts, {float(cost.power_w):.3f} W, cost {float(cost.cost):g}" if cost else "-"
 
 
-def run_sizes(sizes: list[int]) -> None:
-    print(f"{'consumers':>9} {'classes':>7} {'time s':>8} {'complete':>8} {'groupings':>9} {'checks':>6}  best tree / naive one-PLL-per-frequency tree")
+def run_sizes(sizes: list[int], verbose: bool = True) -> list[Row]:
+    """Synthesize one drawn list per size; rows: the time against the first size's time scaled linearly."""
+    say = print if verbose else (lambda *args, **kwargs: None)
+    say(f"{'consumers':>9} {'classes':>7} {'time s':>8} {'complete':>8} {'groupings':>9} {'checks':>6}  best tree / naive one-PLL-per-frequency tree")
+    rows: list[Row] = []
+    first: tuple[int, float] | None = None
     for size in sizes:
         spec = parse_consumer_list(consumer_list(size, seed=size), f"bench-{size}.toml")
         started = time.perf_counter()
@@ -109,21 +116,28 @@ def run_sizes(sizes: list[int]) -> None:
         elapsed = time.perf_counter() - started
         best = result.best
         objective = f"{best.candidate.cost.parts} parts, {float(best.candidate.cost.power_w):.3f} W, cost {float(best.candidate.cost.cost):g}" if best else "none"
-        print(
+        naive = naive_cost(result)
+        say(
             f"{size:>9} {len(result.problem.classes):>7} {elapsed:>8.2f} {str(not result.stats.stopped):>8} "
-            f"{result.stats.leaves:>9} {result.evaluator.checked:>6}  {objective} / {naive_cost(result)}"
+            f"{result.stats.leaves:>9} {result.evaluator.checked:>6}  {objective} / {naive}"
         )
+        first = first or (size, elapsed)
+        rows.append(Row("synthesis", f"synthesize {size} consumers", elapsed, "s", first[1] * size / first[0],
+                        f"{first[0]}-consumer time x {size / first[0]:g}",
+                        f"complete: {not result.stats.stopped}; best {objective}; naive tree {naive}"))
+    return rows
 
 
-def run_exhaustive() -> None:
-    spec = parse_consumer_list(consumer_list(10, seed=10), "bench-10.toml")
+def run_exhaustive(count: int = 10, verbose: bool = True) -> list[Row]:
+    """Branch and bound against every grouping judged, on the ``count``-consumer list; one row."""
+    spec = parse_consumer_list(consumer_list(count, seed=count), f"bench-{count}.toml")
     problem = Problem.of(spec, library_for(spec))
     references: dict = {}
     for reference in problem.reference_candidates():
         if reference.hz in (25_000_000, 27_000_000):
             references.setdefault(reference.hz, []).append(reference)
     frequencies = list(references) + [None]
-    count = sum(1 for hz in frequencies for _ in enumerate_groupings(problem, hz))
+    groupings = sum(1 for hz in frequencies for _ in enumerate_groupings(problem, hz))
     judge = LeafJudge(problem, Evaluator(problem), references)
     started = time.perf_counter()
     full = exhaustive_search(judge, frequencies, keep=1)
@@ -136,20 +150,34 @@ def run_exhaustive() -> None:
         search.run(hz)
     bb_s = time.perf_counter() - started
     same = bool(full.items) and bool(top.items) and full.items[0].key == top.items[0].key
-    print(
-        f"\nexhaustive enumeration vs branch and bound on the 10-consumer list ({len(problem.classes)} classes), "
-        f"main reference at 25 or 27 MHz, each search with its own block-check cache:"
-    )
-    print(f"  exhaustive: {count} groupings judged in {exhaustive_s:.2f} s; branch and bound: {stats.leaves} judged in "
-          f"{bb_s:.2f} s; ratio {exhaustive_s / bb_s:.1f}x; same best tree: {same}")
+    if verbose:
+        print(
+            f"\nexhaustive enumeration vs branch and bound on the {count}-consumer list ({len(problem.classes)} classes), "
+            f"main reference at 25 or 27 MHz, each search with its own block-check cache:"
+        )
+        print(f"  exhaustive: {groupings} groupings judged in {exhaustive_s:.2f} s; branch and bound: {stats.leaves} judged in "
+              f"{bb_s:.2f} s; ratio {exhaustive_s / bb_s:.1f}x; same best tree: {same}")
+    return [Row("synthesis", f"branch and bound, {count}-consumer list", bb_s, "s", exhaustive_s,
+                f"exhaustive, {groupings:,} groupings", f"{stats.leaves} groupings judged; same best tree: {same}")]
+
+
+FULL = {"sizes": [10, 20, 40], "exhaustive": 10}
+QUICK = {"sizes": [4], "exhaustive": 4}
+
+
+def rows(quick: bool = False) -> list[Row]:
+    """The ``synthesis`` benchmark's rows."""
+    chosen = QUICK if quick else FULL
+    return run_sizes(chosen["sizes"], verbose=False) + run_exhaustive(chosen["exhaustive"], verbose=False)
 
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--quick", action="store_true", help="10 and 20 consumers only")
+    parser.add_argument("--quick", action="store_true", help="4 consumers; exhaustive baseline on the same list")
     args = parser.parse_args()
-    run_sizes([10, 20] if args.quick else [10, 20, 40])
-    run_exhaustive()
+    chosen = QUICK if args.quick else FULL
+    run_sizes(chosen["sizes"])
+    run_exhaustive(chosen["exhaustive"])
 
 
 if __name__ == "__main__":

@@ -33,11 +33,16 @@ CAVEAT = (
 
 @dataclass(frozen=True)
 class AnalysisOptions:
-    """Knobs for the budget stages (Monte Carlo size, seed, progress callback)."""
+    """Knobs for the budget stages (Monte Carlo size, seed, progress callback, deadline).
+
+    ``deadline`` is a ``time.monotonic()`` instant after which a long stage (the
+    Monte Carlo) stops early and says so in its result and a finding.
+    """
 
     samples: int = 0
     seed: int | None = None
     progress: Callable[[float], None] | None = None
+    deadline: float | None = None
 
 
 @dataclass(frozen=True)

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import argparse
 import sys
+import time
 from collections.abc import Callable, Sequence
 
 from clockplan import __version__
@@ -56,18 +57,23 @@ def _count(text: str) -> int:
     return value
 
 
-def _add_budget_options(parser: argparse.ArgumentParser) -> None:
+def _add_budget_options(parser: argparse.ArgumentParser, time_limit: bool = True) -> None:
     """Options of the budget stages, shared by every command that analyses a board."""
     parser.add_argument("--samples", type=_count, default=0, metavar="N",
                         help="simulate N boards for the Monte Carlo frequency-error yield (default 0: none)")
     parser.add_argument("--seed", type=_count, default=0, metavar="S",
                         help="seed of the Monte Carlo; the same seed gives the same numbers (default 0)")
+    if time_limit:
+        parser.add_argument("--time-limit", type=_seconds, default=60.0, metavar="S",
+                            help="time budget in seconds (default 60): past it the Monte Carlo stops and the "
+                            "report says how many of the N boards it simulated")
 
 
 def _analysis_options(args: argparse.Namespace, progress=None):
     from clockplan.analysis import AnalysisOptions
 
-    return AnalysisOptions(samples=args.samples, seed=args.seed, progress=progress)
+    deadline = args.started + args.time_limit if getattr(args, "time_limit", None) else None
+    return AnalysisOptions(samples=args.samples, seed=args.seed, progress=progress, deadline=deadline)
 
 
 def _build_parser() -> argparse.ArgumentParser:
@@ -107,7 +113,9 @@ def _build_parser() -> argparse.ArgumentParser:
     plan.add_argument("--alternatives", type=_alternatives, default=0, metavar="K", help="also show K distinct runner-up plans")
     plan.add_argument("--write", metavar="OUT", help="write the board with its settings filled in to OUT (never over the input without --in-place)")
     plan.add_argument("--in-place", action="store_true", help="write the filled-in settings back into the input file")
-    plan.add_argument("--time-limit", type=_seconds, default=10.0, metavar="S", help="search time budget in seconds (default 10)")
+    plan.add_argument("--time-limit", type=_seconds, default=10.0, metavar="S",
+                      help="time budget of the run in seconds (default 10): the search, then the Monte Carlo of "
+                      "--samples; a stage that stops at it says so in the report")
     plan.add_argument(
         "--loop-bandwidth",
         default=None,
@@ -115,7 +123,7 @@ def _build_parser() -> argparse.ArgumentParser:
         help="loop bandwidth for the in-band spur flag of PLLs that do not state one (default 200 kHz)",
     )
     _add_output_options(plan)
-    _add_budget_options(plan)
+    _add_budget_options(plan, time_limit=False)
     plan.set_defaults(run=_run_plan)
 
     standards = commands.add_parser(
@@ -335,7 +343,11 @@ def _run_plots(args: argparse.Namespace) -> int:
     from clockplan.boardfile import load_board
     from clockplan.report.plots import collect_plot_data, write_plots
 
-    data = collect_plot_data(_analyze_with_progress(load_board(args.board), args))
+    analysis = _analyze_with_progress(load_board(args.board), args)
+    for finding in analysis.findings:  # the images cannot say it: a Monte Carlo cut short by --time-limit
+        if finding.code == "monte-carlo-time-limit":
+            sys.stderr.write(f"clockplan: warning: {finding.message}\n")
+    data = collect_plot_data(analysis)
     if data.empty:
         sys.stdout.write("clockplan: nothing to plot: the board gives no phase-noise or oscillator accuracy data "
                          "(see docs/jitter.md and docs/frequency-accuracy.md)\n")
@@ -488,10 +500,6 @@ def _run_synthesize(args: argparse.Namespace) -> int:
     from clockplan.synth.synthesize import SynthesisOptions, library_for, synthesize
 
     spec = load_consumer_list(args.board)
-    if args.write:
-        from clockplan.fileio import refuse_overwrite
-
-        refuse_overwrite(args.write, protected=[args.board])
     library = library_for(spec, args.library)
     alternatives = args.alternatives if args.alternatives is not None else spec.settings.alternatives
     time_limit = args.time_limit if args.time_limit is not None else spec.settings.time_limit_s
@@ -521,6 +529,28 @@ def _run_synthesize(args: argparse.Namespace) -> int:
     return EXIT_FINDINGS if result.best.verified.analysis.has_errors else EXIT_OK
 
 
+def _refuse_clobbering(args: argparse.Namespace) -> None:
+    """Refuse, before any work, an output that is an input file or another output, in any spelling.
+
+    ``--write``/``--output`` never name the board or a ``--library`` file
+    (``plan --in-place`` is the one way to write the board), and two outputs
+    of one run never name the same file.
+    """
+    from clockplan.fileio import refuse_overwrite, same_file
+
+    inputs = [p for p in (getattr(args, "board", None), getattr(args, "library", None)) if p]
+    outputs = [(f"--{name}", getattr(args, name, None)) for name in ("write", "output")]
+    outputs = [(flag, path) for flag, path in outputs if path]
+    for flag, path in outputs:
+        try:
+            refuse_overwrite(path, protected=inputs)
+        except ClockplanError as err:
+            hint = err.hint if (args.command, flag) == ("plan", "--write") else "write it to another file"
+            raise ClockplanError(f"{flag}: {err.message}", hint=hint) from None
+    if len(outputs) == 2 and same_file(outputs[0][1], outputs[1][1]):
+        raise ClockplanError(f"--write and --output name the same file {outputs[1][1]}", hint="give them different files")
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; return the exit status.
 
@@ -539,6 +569,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         parser.print_help()
         return EXIT_INPUT
     try:
+        _refuse_clobbering(args)
+        args.started = time.monotonic()  # --time-limit counts from here
         return run(args)
     except InfeasibleError as err:
         sys.stderr.write(f"clockplan: no feasible plan: {err.describe()}\n")
@@ -547,8 +579,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         sys.stderr.write(f"clockplan: error: {err.describe()}\n")
         return EXIT_INPUT
     except KeyboardInterrupt:
-        sys.stderr.write("clockplan: interrupted\n")
-        return 130
+        sys.stderr.write("clockplan: interrupted; a file being written keeps its old content\n")
+        return 130  # 128 + SIGINT, the shell's convention for Ctrl-C
 
 
 def _entry() -> None:  # pragma: no cover - console script wrapper

@@ -7,11 +7,9 @@ never written over an existing file.
 
 from __future__ import annotations
 
-import os
-import secrets
 from pathlib import Path
 
-from clockplan.errors import ClockplanError
+from clockplan.fileio import atomic_create_text
 
 __all__ = ["STARTER_BOARD", "starter_text", "write_starter"]
 
@@ -123,26 +121,4 @@ def write_starter(path: str | Path, name: str = "My board") -> Path:
     >>> write_starter("boards/my-board.toml")  # doctest: +SKIP
     PosixPath('boards/my-board.toml')
     """
-    path = Path(path)
-    if path.exists() or path.is_symlink():
-        raise ClockplanError(f"{path} already exists; clockplan new never writes over a file",
-                             hint="choose a new file name, or move the old file away first")
-    folder = path.parent if str(path.parent) else Path(".")
-    if not folder.is_dir():
-        raise ClockplanError(f"folder {folder} does not exist", hint="create it first, or choose another path")
-    try:
-        # Not mkstemp: its 0600 mode would make the board file private; 0666 less the umask is usual.
-        temp_name = folder / f".{path.name}.{secrets.token_hex(6)}.tmp"
-        handle = os.open(temp_name, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666)
-        try:
-            with os.fdopen(handle, "w", encoding="utf-8", newline="") as stream:
-                stream.write(starter_text(name))
-            os.link(temp_name, path)  # unlike a rename, a link refuses to replace an existing file
-        finally:
-            Path(temp_name).unlink(missing_ok=True)
-    except FileExistsError as err:
-        raise ClockplanError(f"{path} already exists; clockplan new never writes over a file",
-                             hint="choose a new file name") from err
-    except OSError as err:
-        raise ClockplanError(f"cannot write {path}: {err.strerror}", hint="check the folder's permissions") from err
-    return path
+    return atomic_create_text(path, starter_text(name), what="clockplan new")

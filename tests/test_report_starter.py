@@ -65,7 +65,7 @@ def test_a_file_appearing_meanwhile_is_not_replaced(tmp_path, monkeypatch):
         path.write_text("theirs")  # another program creates the file just before ours lands
         return real_link(source, target)
 
-    monkeypatch.setattr("clockplan.starter.os.link", racing_link)
+    monkeypatch.setattr("clockplan.fileio.os.link", racing_link)
     with pytest.raises(ClockplanError, match="already exists"):
         write_starter(path)
     assert path.read_text() == "theirs"

@@ -17,6 +17,7 @@ course. The run is reproducible for a given seed and chunk size.
 from __future__ import annotations
 
 import math
+import time
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from fractions import Fraction
@@ -68,6 +69,12 @@ class MonteCarloResult:
     board_yield: float
     names: tuple[str, ...]
     reference_errors: tuple[np.ndarray, ...] = field(default=(), compare=False, repr=False)
+    requested: int | None = None
+
+    @property
+    def complete(self) -> bool:
+        """False if the run stopped at its deadline before ``requested`` boards."""
+        return self.requested is None or self.samples >= self.requested
 
     def standard_error(self, index: int) -> float:
         """Binomial standard error of one consumer's yield."""
@@ -159,6 +166,7 @@ def monte_carlo_yield(
     progress: ProgressCallback | None = None,
     chunk: int = _DEFAULT_CHUNK,
     keep_errors: int = 0,
+    deadline: float | None = None,
 ) -> MonteCarloResult:
     """Fraction of simulated boards on which each consumer stays inside its budget.
 
@@ -183,6 +191,11 @@ def monte_carlo_yield(
         Keep each reference's sampled error for the first ``keep_errors``
         boards (``MonteCarloResult.reference_errors``), for histograms. The
         draws are the same with or without it.
+    deadline
+        A ``time.monotonic()`` instant: once it has passed, the run stops after
+        the chunk in progress (at least one chunk always runs). The result then
+        counts the boards actually simulated in ``samples`` and the boards asked
+        for in ``requested``; ``complete`` is False.
 
     Examples
     --------
@@ -232,12 +245,15 @@ def monte_carlo_yield(
         done += size
         if progress is not None:
             progress(done, samples)
-    yields = tuple(float(passed[slot[(c.reference, w)]]) / samples for c, w in zip(consumers, windows))
+        if deadline is not None and done < samples and time.monotonic() > deadline:
+            break
+    yields = tuple(float(passed[slot[(c.reference, w)]]) / done for c, w in zip(consumers, windows))
     return MonteCarloResult(
-        samples=samples,
+        samples=done,
         seed=seed,
         yields=yields,
-        board_yield=board_passed / samples,
+        board_yield=board_passed / done,
         names=tuple(c.name for c in consumers),
-        reference_errors=tuple(stored) if kept else (),
+        reference_errors=tuple(store[: min(kept, done)] for store in stored) if kept else (),  # a cut run kept fewer
+        requested=samples,
     )

@@ -565,11 +565,19 @@ class MonteCarloSummary:
     seed: int | None
     board_yield: float
     consumers: int
+    requested: int = 0
+
+    @property
+    def complete(self) -> bool:
+        """False if the run stopped at its time limit before the boards asked for."""
+        return self.samples >= self.requested
 
     def json_fields(self) -> dict[str, Any]:
         """The top-level ``monte_carlo`` object."""
         return {
             "samples": self.samples,
+            "requested_samples": max(self.requested, self.samples),
+            "complete": self.complete,
             "seed": self.seed,
             "board_yield": self.board_yield,
             "consumers": self.consumers,
@@ -580,7 +588,9 @@ class MonteCarloSummary:
         from rich.text import Text
 
         seed = "random" if self.seed is None else str(self.seed)
+        boards = f"{self.samples:,} boards" if self.complete else (
+            f"{self.samples:,} of {self.requested:,} boards (stopped at the time limit)")
         return Text(
-            f"Monte Carlo: {self.samples:,} boards (seed {seed}), {self.consumers} consumer(s) with a budget; "
+            f"Monte Carlo: {boards} (seed {seed}), {self.consumers} consumer(s) with a budget; "
             f"{self.board_yield * 100:.2f} % of boards keep every one inside its budget at end of life."
         )

@@ -110,6 +110,7 @@ def _with_yields(
         specs, chains, board.temperature_c, board.lifetime_s, samples=options.samples, seed=options.seed,
         progress=(lambda done, total: progress(done / total)) if progress is not None else None,
         keep_errors=KEPT_SAMPLES,
+        deadline=options.deadline,
     )
     for index, chain in enumerate(chains):
         accuracies[chain.name] = dataclasses.replace(
@@ -118,7 +119,16 @@ def _with_yields(
             yield_standard_error=result.standard_error(index),
             sampled_reference_errors=result.reference_errors[chain.reference],
         )
-    return MonteCarloSummary(result.samples, result.seed, result.board_yield, len(chains))
+    return MonteCarloSummary(result.samples, result.seed, result.board_yield, len(chains), result.requested or result.samples)
+
+
+def _stopped_early(summary: MonteCarloSummary, board_name: str) -> Finding:
+    """A partial Monte Carlo is never silent: how many boards ran of how many asked."""
+    return Finding(
+        Severity.WARNING, "monte-carlo-time-limit", board_name,
+        f"the Monte Carlo stopped at its time limit after {summary.samples:,} of {summary.requested:,} boards; "
+        f"the yields are from the {summary.samples:,} boards simulated (raise --time-limit, or ask fewer --samples)",
+    )
 
 
 def _fits(result: AccuracyResult) -> bool:
@@ -348,4 +358,6 @@ def accuracy_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysi
     extras = {**analysis.extras, "references": ReferenceAdvices(tuple(advices.values()))}
     if summary is not None:
         extras["monte_carlo"] = summary
+        if not summary.complete:
+            findings.append(_stopped_early(summary, analysis.board.name))
     return dataclasses.replace(analysis, consumers=consumers, extras=extras).with_findings(findings)

@@ -221,7 +221,8 @@ def _jitter_rows(consumer: ConsumerResult) -> list[WaterfallRow]:
 
 
 def _chain_findings(analysis: Analysis, consumer: ConsumerResult) -> tuple[Finding, ...]:
-    nodes = {*consumer.chain, consumer.id}
+    # With the board-wide ones (node: the board's name), e.g. a Monte Carlo stopped at its time limit.
+    nodes = {*consumer.chain, consumer.id, analysis.board.name}
     return tuple(sorted((f for f in analysis.findings if f.node in nodes), key=lambda f: -f.severity.rank))
 
 
@@ -336,7 +337,7 @@ def _budget_table(explanation: Explanation) -> TextTable | None:
 
 
 def explanation_findings_table(explanation: Explanation) -> TextTable | None:
-    """The findings on the consumer and every part of its chain, most serious first."""
+    """The findings on the consumer, every part of its chain and the board as a whole, most serious first."""
     if not explanation.findings:
         return None
     rows = tuple((f.severity.value, f.code, f.node, f.message) for f in explanation.findings)

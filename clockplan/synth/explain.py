@@ -241,17 +241,17 @@ def _next_tree(best: Candidate, runner_up: Candidate | None) -> str | None:
 EXPLAIN_SECONDS = 15.0
 
 
-def _blocking(judge: LeafJudge, stopped: bool) -> list[Reason]:
+def _blocking(judge: LeafJudge, stopped: bool, seconds: float = EXPLAIN_SECONDS) -> list[Reason]:
     """What keeps every tree from meeting its budgets: classes no part serves, or no shared reference."""
     problem = judge.problem
     reasons: list[Reason] = []
     if stopped:
         reasons.append(Reason("time-limit", (), "the search stopped at its time limit before it found a passing tree; raise --time-limit"))
     served_by: dict[int, set[Fraction | None]] = {}
-    deadline = time.monotonic() + EXPLAIN_SECONDS
+    deadline = time.monotonic() + seconds
     for klass in problem.classes:
         if time.monotonic() > deadline:
-            reasons.append(Reason("time-limit", (), f"the explanation tried the clocks alone for {EXPLAIN_SECONDS:g} s and stopped; not every clock was examined"))
+            reasons.append(Reason("time-limit", (), f"the explanation tried the clocks alone for {seconds:g} s and stopped; not every clock was examined"))
             return reasons[:MAX_REASONS]
         found, why = _serve_alone(judge, klass.index)
         served_by[klass.index] = found
@@ -304,8 +304,12 @@ def _serve_alone(judge: LeafJudge, cls: int) -> tuple[set[Fraction | None], str]
     return found, why
 
 
-def explain(judge: LeafJudge, ranked: Sequence[Candidate], stopped: bool = False) -> Explanation:
+def explain(judge: LeafJudge, ranked: Sequence[Candidate], stopped: bool = False,
+            seconds: float = EXPLAIN_SECONDS) -> Explanation:
     """Explain the best tree (``ranked[0]``) and the runner-up's cost, or why there is none.
+
+    Without a tree, trying each clock alone takes at most ``seconds``; past
+    them the reasons say that not every clock was examined.
 
     Examples
     --------
@@ -314,7 +318,7 @@ def explain(judge: LeafJudge, ranked: Sequence[Candidate], stopped: bool = False
     - 148.5 MHz, ≈148.3516484 MHz need a VCO at a multiple of 148.5 GHz; none lies in 2.4 GHz to 3.2 GHz (cleaner-8)
     """
     if not ranked:
-        return Explanation(blocking=_blocking(judge, stopped))
+        return Explanation(blocking=_blocking(judge, stopped, seconds))
     best = ranked[0]
     return Explanation(
         apart=_apart(judge, best.tree),

@@ -25,7 +25,7 @@ from fractions import Fraction
 from pathlib import Path
 
 from clockplan.synth.evaluate import Evaluator, Verified, verify_tree
-from clockplan.synth.explain import Explanation, explain
+from clockplan.synth.explain import EXPLAIN_SECONDS, Explanation, explain
 from clockplan.synth.grouping import BranchAndBound, Candidate, LeafJudge, SearchStats, TopTrees, exhaustive_search
 from clockplan.synth.input import ConsumerList
 from clockplan.synth.library import PartsLibrary, default_library, load_library
@@ -198,9 +198,17 @@ def synthesize(spec: ConsumerList, library: PartsLibrary | None = None, options:
         verified = verify_tree(problem, candidate.tree, header)
         proposed = ProposedTree(len(passing) + 1, candidate, verified)
         (passing if verified.check.ok else failing).append(proposed)
-    explanation = explain(judge, [p.candidate for p in passing], stats.stopped)
+    explanation = explain(judge, [p.candidate for p in passing], stats.stopped, _explain_seconds(options, started))
     stats.elapsed_s = time.monotonic() - started
     return SynthesisResult(problem, judge, passing, failing, stats, explanation, notes, stats.elapsed_s)
+
+
+def _explain_seconds(options: SynthesisOptions, started: float) -> float:
+    """Time for explaining a list without a passing tree: what the time limit leaves, at least 1 s, at most the usual."""
+    if options.exhaustive:
+        return EXPLAIN_SECONDS
+    left = started + options.time_limit_s - time.monotonic()
+    return max(1.0, min(EXPLAIN_SECONDS, left))
 
 
 def _header(spec: ConsumerList) -> list[str]:
