@@ -167,3 +167,18 @@ def test_a_warning_upstream_stays_on_its_part():
     assert consumer_status(failed, "link_ref") == "FAIL" and status_codes(failed, "link_ref") == ["vco-range"]
     own = analysis.with_findings([Finding(Severity.WARNING, "thin", "link_ref", "little margin")])
     assert consumer_status(own, "link_ref") == "warn"
+
+
+def test_settings_table_reads_the_operating_mode():
+    # A fractional-capable PLL whose planned N is whole runs as integer-N (no fractional
+    # spurs): the edge-router's serdes synthesizer (100 MHz PFD, N = 25, 2.5 GHz VCO) reads
+    # int-N, the audio PLL's N = 225792/3125 reads frac-N (fractions module: N is not whole).
+    from clockplan.plan.board_planner import plan_board
+    from clockplan.report.content import settings_table
+
+    board = load_board("boards/edge-router.toml")
+    plan = plan_board(board)
+    modes = {row[0]: (row[1], row[3]) for row in settings_table(analyze(board, plan.settings)).rows}
+    assert modes["serdes_synth"] == ("int-N", "25")
+    assert modes["audio_pll"] == ("frac-N", "225792/3125")
+    assert Fraction(225792, 3125).denominator != 1

@@ -78,7 +78,7 @@ def ppm_number(value: Number | None) -> int | float | None:
 
 
 def _temperature_text(celsius: float | None) -> str:
-    return "band" if celsius is None else f"{celsius:g} °C"
+    return "band edge" if celsius is None else f"{celsius:g} °C"
 
 
 def _budget_json(budget: ConsumerBudget | None) -> Any:

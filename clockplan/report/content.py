@@ -44,6 +44,7 @@ __all__ = [
     "extra_cells",
     "consumers_table",
     "settings_table",
+    "operating_mode",
     "findings_table",
     "clock_tree",
     "tree_text",
@@ -322,7 +323,7 @@ def settings_table(analysis: Analysis) -> TextTable | None:
         point = analysis.frequencies.plls.get(pll.id)
         rows.append((
             pll.id,
-            "frac-N" if pll.mode == "fractional" else "int-N",
+            operating_mode(pll, setting),
             str(setting.r) if setting else "-",
             format_exact(setting.n) if setting else "-",
             format_frequency(point.pfd_hz) if point else "-",
@@ -335,6 +336,15 @@ def settings_table(analysis: Analysis) -> TextTable | None:
         ratio = analysis.settings.dividers.get(divider.id)
         rows.append((divider.id, "divider", "-", "-", "-", "-", "-", f"/{ratio}" if ratio else "unset"))
     return TextTable("Settings", columns, tuple(rows))
+
+
+def operating_mode(pll: Any, setting: Any) -> str:
+    """``"frac-N"`` when the set N has a fraction, else ``"int-N"``; a fractional part run at a
+    whole N works as integer-N (its modulator idle, no fractional spurs), so it reads int-N too.
+    Unset, the part's own mode."""
+    if setting is None:
+        return "frac-N" if pll.mode == "fractional" else "int-N"
+    return "frac-N" if Fraction(setting.n).denominator != 1 else "int-N"
 
 
 def _frequency_or_dash(hz: Fraction | None) -> str:

@@ -15,7 +15,7 @@ import subprocess
 from clockplan.analysis import Analysis
 from clockplan.errors import ClockplanError
 from clockplan.findings import Severity
-from clockplan.report.content import consumer_status, status_codes, status_of
+from clockplan.report.content import consumer_status, operating_mode, status_codes, status_of
 from clockplan.units import format_exact, format_frequency
 
 __all__ = ["INSTALL_HINT", "dot_quote", "render_dot", "dot_available", "render_svg"]
@@ -59,7 +59,7 @@ def _node_lines(analysis: Analysis, node: str, role: str) -> list[str]:
     if role == "pll":
         pll = analysis.board.part(node)
         setting = analysis.settings.plls.get(node)
-        lines = [node, f"PLL {'frac-N' if pll.mode == 'fractional' else 'int-N'}"]
+        lines = [node, f"PLL {operating_mode(pll, setting)}"]
         if setting is not None:
             lines.append(f"R={setting.r}  N={format_exact(setting.n)}")
         return lines + [f"VCO {frequency}"]
