@@ -35,7 +35,7 @@ _CSS = """
         --pass-bg: #e8f5e9; --line: #cfd8dc; --muted: #546e7a; }
 * { box-sizing: border-box; }
 body { font: 15px/1.45 system-ui, -apple-system, "Segoe UI", Roboto, "Helvetica Neue", Arial, sans-serif;
-       color: #1c2529; margin: 0 auto; padding: 1.5rem 2rem 3rem; max-width: 1200px; background: #fff; }
+       color: #1c2529; margin: 0 auto; padding: 1.5rem 2rem 3rem; max-width: 1600px; background: #fff; }
 h1 { font-size: 1.6rem; margin: 0 0 .4rem; }
 h2 { font-size: 1.2rem; margin: 2rem 0 .6rem; border-bottom: 1px solid var(--line); padding-bottom: .2rem; }
 .verdict { display: inline-block; font-weight: 700; padding: .15rem .7rem; border-radius: .3rem; margin-right: .5rem; }
