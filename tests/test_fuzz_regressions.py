@@ -1,0 +1,157 @@
+"""Regression tests for the crashes the fuzz campaign found (bench/fuzz.py, docs/robustness.md).
+
+Each test names the input class that crashed and what crashed; each now ends in
+a located ClockplanError (or a result) instead. The inputs are the minimal
+reproducers the campaign saved, cut down by hand where that made them clearer.
+"""
+
+from __future__ import annotations
+
+import io
+from contextlib import redirect_stderr, redirect_stdout
+from fractions import Fraction
+
+import pytest
+
+from clockplan.boardfile import load_board, parse_board
+from clockplan.errors import BoardError, UnitError
+from clockplan.units import parse_frequency, parse_number, parse_ppm
+from tests.boards import MINIMAL
+
+_HEAD = '[[reference]]\nid = "ref"\nfrequency = "25 MHz"\n\n[[consumer]]\nid = "c"\nsource = "ref"\n'
+
+
+def _board(path, text: str | bytes):
+    path.write_bytes(text if isinstance(text, bytes) else text.encode("utf-8"))
+    return load_board(path)
+
+
+def test_deeply_nested_array_is_a_located_error_not_recursion_error(tmp_path):
+    # Crashed: RecursionError inside tomllib on 5000 nested '[' (input class "deep-toml").
+    text = _HEAD + 'frequency = "25 MHz"\nextra = ' + "[" * 5000 + "]" * 5000 + "\n"
+    with pytest.raises(BoardError, match="nest too deeply") as info:
+        _board(tmp_path / "deep.toml", text)
+    assert info.value.file == str(tmp_path / "deep.toml")
+
+
+def test_nesting_deeper_than_the_limit_is_refused_with_its_key(tmp_path):
+    # Crashed on depth 300 in later stages' repr/recursion (input class "deep-nesting");
+    # now refused at load with the key path (tomlread.MAX_NESTING).
+    text = _HEAD + "frequency = " + "[" * 100 + '"25 MHz"' + "]" * 100 + "\n"
+    with pytest.raises(BoardError, match="more than 32 levels") as info:
+        _board(tmp_path / "nest.toml", text)
+    assert info.value.key.startswith("consumer[0].frequency")
+
+
+def test_integer_literal_of_thousands_of_digits_is_a_board_error(tmp_path):
+    # Crashed: tomllib raises a plain ValueError (int string conversion limit of 4300 digits).
+    with pytest.raises(BoardError, match="not valid TOML"):
+        _board(tmp_path / "big.toml", _HEAD + "frequency = " + "9" * 5000 + "\n")
+
+
+def test_number_text_of_thousands_of_digits_is_a_unit_error():
+    # Crashed: ValueError "Exceeds the limit (4300 digits)" from Fraction("999...") (input class "absurd-value").
+    with pytest.raises(UnitError, match="too long to be a number"):
+        parse_number("9" * 5000)
+
+
+def test_power_tower_is_refused_before_it_eats_the_memory():
+    # "(2^4096)^4096" would be a 5-million-digit integer; "((2^4096)^4096)^4096" never finishes.
+    with pytest.raises(UnitError, match="too large"):
+        parse_number("((2^4096)^4096)^4096")
+    # 2^48, the largest fractional-N modulus of common practice, still reads exactly (fractions as reference).
+    assert parse_number("2^48") == Fraction(2**48)
+
+
+@pytest.mark.parametrize(
+    "text",
+    ["0.5 mHz", "2 THz", "1e30 Hz", "1e400 Hz"],
+)
+def test_frequencies_outside_one_millihertz_to_one_terahertz_are_refused(text):
+    # 1e30 Hz and 1e400 Hz reached the planner and the float conversions of the reports.
+    with pytest.raises(UnitError, match="outside 1 mHz .. 1 THz"):
+        parse_frequency(text)
+
+
+def test_the_frequency_bounds_themselves_are_accepted():
+    # Bounds chosen for clockplan (docs/robustness.md): 1 mHz and 1 THz, exactly.
+    assert parse_frequency("1 mHz") == Fraction(1, 1000)
+    assert parse_frequency("1 THz") == Fraction(10**12)
+
+
+@pytest.mark.parametrize("text", ["200 %", "-150..0 %", "1e9 ppm", "±1000001 ppm"])
+def test_frequency_errors_beyond_one_hundred_percent_are_refused(text):
+    # An error of -100 % is 0 Hz; beyond it the ppm stage produced negative frequencies.
+    with pytest.raises(UnitError, match="beyond ±100 %"):
+        parse_ppm(text)
+
+
+def test_byte_order_mark_is_accepted(tmp_path):
+    # Input class "bom": a UTF-8 BOM from a Windows editor failed as "invalid statement at line 1".
+    board = _board(tmp_path / "bom.toml", b"\xef\xbb\xbf" + MINIMAL.encode())
+    assert board.name == "test board"
+
+
+def test_file_larger_than_the_cap_is_refused_without_reading_it_all(tmp_path):
+    from clockplan.tomlread import MAX_FILE_BYTES
+
+    path = tmp_path / "huge.toml"
+    with path.open("wb") as stream:
+        stream.write(MINIMAL.encode())
+        stream.seek(MAX_FILE_BYTES + 10)
+        stream.write(b"\n")
+    with pytest.raises(BoardError, match="larger than 16 MB") as info:
+        load_board(path)
+    assert info.value.file == str(path)
+
+
+def test_denominator_above_two_to_the_sixty_fourth_is_refused():
+    text = MINIMAL.replace('denominator = "2^24"', 'denominator = "2^400"')
+    with pytest.raises(BoardError, match="above 2\\^64") as info:
+        parse_board(text, "b.toml")
+    assert info.value.key == "pll[0].denominator"
+
+
+def test_many_consumers_with_plots_stay_bounded():
+    # Input class "many-parts": 300 consumers with phase noise made the HTML report lay out
+    # 300 matplotlib panels (minutes). The figures now draw at most MAX_PANELS.
+    pytest.importorskip("matplotlib")
+    from clockplan.report.plots import MAX_PANELS, PhaseNoiseTrace, phase_noise_figure
+
+    traces = [PhaseNoiseTrace(f"c{k}", [1e3, 1e6], [-100.0, -150.0], (1.2e4, 2e7)) for k in range(MAX_PANELS + 50)]
+    figure = phase_noise_figure(traces)
+    assert len([ax for ax in figure.axes if ax.get_visible()]) == MAX_PANELS
+    assert f"the first {MAX_PANELS} of {MAX_PANELS + 50}" in figure.get_suptitle()
+
+
+def test_internal_error_in_the_cli_is_one_line_with_status_four(monkeypatch, tmp_path):
+    from clockplan import cli
+
+    def broken(args):
+        raise ZeroDivisionError("boom")
+
+    monkeypatch.setattr(cli, "_run_audit", broken)
+    monkeypatch.delenv(cli.DEBUG_ENV, raising=False)
+    path = tmp_path / "b.toml"
+    path.write_text(MINIMAL)
+    err = io.StringIO()
+    with redirect_stderr(err), redirect_stdout(io.StringIO()):
+        status = cli.main(["audit", str(path)])
+    assert status == cli.EXIT_BUG == 4
+    text = err.getvalue()
+    assert text.count("\n") == 1 and "Traceback" not in text
+    assert "internal error" in text and "ZeroDivisionError: boom" in text and "CLOCKPLAN_DEBUG=1" in text
+
+
+def test_debug_variable_re_raises_the_internal_error(monkeypatch, tmp_path):
+    from clockplan import cli
+
+    def broken(args):
+        raise ZeroDivisionError("boom")
+
+    monkeypatch.setattr(cli, "_run_audit", broken)
+    monkeypatch.setenv(cli.DEBUG_ENV, "1")
+    path = tmp_path / "b.toml"
+    path.write_text(MINIMAL)
+    with pytest.raises(ZeroDivisionError):
+        cli.main(["audit", str(path)])
