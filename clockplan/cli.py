@@ -2,7 +2,9 @@
 
 Each command is a library call plus a renderer. Exit status: 0 no error
 finding, 1 error findings (a budget broken or a constraint violated), 2 bad
-input or usage, 3 no feasible plan. Heavy modules are imported inside the
+input or usage, 3 no feasible plan, 4 an internal error (a bug in clockplan:
+one line says so and how to report it; ``CLOCKPLAN_DEBUG=1`` shows the
+traceback instead). Heavy modules are imported inside the
 command functions so that ``clockplan --help`` starts quickly.
 """
 
@@ -15,15 +17,19 @@ from collections.abc import Callable, Sequence
 from clockplan import __version__
 from clockplan.errors import ClockplanError, InfeasibleError
 
-__all__ = ["main", "EXIT_OK", "EXIT_FINDINGS", "EXIT_INPUT", "EXIT_INFEASIBLE"]
+__all__ = ["main", "EXIT_OK", "EXIT_FINDINGS", "EXIT_INPUT", "EXIT_INFEASIBLE", "EXIT_BUG", "DEBUG_ENV"]
 
 EXIT_OK = 0
 EXIT_FINDINGS = 1
 EXIT_INPUT = 2
 EXIT_INFEASIBLE = 3
+EXIT_BUG = 4
+#: Set to 1 to let an internal error raise with its traceback (for developers).
+DEBUG_ENV = "CLOCKPLAN_DEBUG"
 
 _EPILOG = """exit status: 0 no error finding, 1 error findings (budget broken or constraint
-violated), 2 bad input or usage, 3 no feasible plan.
+violated), 2 bad input or usage, 3 no feasible plan, 4 internal error (a bug;
+CLOCKPLAN_DEBUG=1 shows its traceback).
 Budgets are planning estimates: the part datasheets and the governing standard decide."""
 
 
@@ -549,6 +555,24 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         sys.stderr.write("clockplan: interrupted\n")
         return 130
+    except Exception as err:  # anything else is a bug: one line, never a traceback
+        return _report_bug(err)
+
+
+def _report_bug(err: Exception) -> int:
+    """Say in one line that clockplan failed, how to report it; re-raise under CLOCKPLAN_DEBUG=1."""
+    import os
+
+    if os.environ.get(DEBUG_ENV, "") not in ("", "0"):
+        raise err
+    what = f"{type(err).__name__}: {err}".splitlines()[0] if str(err) else type(err).__name__
+    if len(what) > 200:
+        what = what[:197] + "..."
+    sys.stderr.write(
+        f"clockplan: internal error (a bug in clockplan {__version__}): {what}; please report it with the "
+        f"command and the input file, and the traceback that {DEBUG_ENV}=1 shows\n"
+    )
+    return EXIT_BUG
 
 
 def _entry() -> None:  # pragma: no cover - console script wrapper
