@@ -480,6 +480,8 @@ def _add_synthesize_command(commands) -> None:
                             help="also show K runner-up trees (default: the board's [synthesis] alternatives, else 2)")
     synthesize.add_argument("--write", metavar="OUT", help="write the best tree as a complete board file to OUT")
     synthesize.add_argument("--library", metavar="FILE", help="a parts library file added to the shipped templates")
+    synthesize.add_argument("--allow-outside-paths", action="store_true",
+                            help="let the board's [synthesis] library path lead outside the board file's folder")
     synthesize.add_argument("--time-limit", type=_seconds, default=None, metavar="S",
                             help="search budget in seconds (default: the board's [synthesis] time_limit, else 30)")
     synthesize.add_argument("--json", action="store_true", help="write the synthesis JSON document (docs/synthesis.md) to stdout")
@@ -498,7 +500,7 @@ def _run_synthesize(args: argparse.Namespace) -> int:
         from clockplan.fileio import refuse_overwrite
 
         refuse_overwrite(args.write, protected=[args.board])
-    library = library_for(spec, args.library)
+    library = library_for(spec, args.library, allow_outside=args.allow_outside_paths)
     alternatives = args.alternatives if args.alternatives is not None else spec.settings.alternatives
     time_limit = args.time_limit if args.time_limit is not None else spec.settings.time_limit_s
     options = SynthesisOptions(

@@ -155,3 +155,73 @@ def test_debug_variable_re_raises_the_internal_error(monkeypatch, tmp_path):
     path.write_text(MINIMAL)
     with pytest.raises(ZeroDivisionError):
         cli.main(["audit", str(path)])
+
+
+# --------------------------------------------------------------------------- safety: a board file is data
+
+
+_CONSUMER_LIST = '''
+[board]
+name = "paths"
+
+[synthesis]
+library = "{library}"
+
+[[consumer]]
+id = "phy"
+frequency = "125 MHz"
+standard = "1000BASE-T"
+'''
+
+
+@pytest.mark.parametrize("library", ["../outside.toml", "/etc/passwd", "sub/../../outside.toml"])
+def test_board_named_library_outside_the_board_folder_is_refused(tmp_path, library):
+    from clockplan.synth.input import load_consumer_list
+    from clockplan.synth.synthesize import library_for
+
+    folder = tmp_path / "board"
+    folder.mkdir()
+    (tmp_path / "outside.toml").write_text("")
+    path = folder / "list.toml"
+    path.write_text(_CONSUMER_LIST.format(library=library))
+    with pytest.raises(BoardError, match="outside the board file's folder") as info:
+        library_for(load_consumer_list(path))
+    assert info.value.key == "synthesis.library" and info.value.file == str(path)
+
+
+def test_a_link_inside_the_folder_that_leads_outside_is_refused(tmp_path):
+    from clockplan.synth.input import load_consumer_list
+    from clockplan.synth.synthesize import library_for
+
+    folder = tmp_path / "board"
+    folder.mkdir()
+    (tmp_path / "outside.toml").write_text("")
+    (folder / "parts.toml").symlink_to(tmp_path / "outside.toml")
+    path = folder / "list.toml"
+    path.write_text(_CONSUMER_LIST.format(library="parts.toml"))
+    with pytest.raises(BoardError, match="outside"):
+        library_for(load_consumer_list(path))
+
+
+def test_outside_library_is_read_when_the_command_line_allows_it(tmp_path, capsys):
+    from clockplan.cli import main
+
+    folder = tmp_path / "board"
+    folder.mkdir()
+    path = folder / "list.toml"
+    path.write_text(_CONSUMER_LIST.format(library="../missing.toml"))
+    assert main(["synthesize", str(path), "--time-limit", "1"]) == 2
+    assert "outside the board file's folder" in capsys.readouterr().err
+    # Allowed: the path is followed, and the missing file is the error now.
+    assert main(["synthesize", str(path), "--time-limit", "1", "--allow-outside-paths"]) == 2
+    assert "file not found" in capsys.readouterr().err
+
+
+def test_board_file_has_no_include_and_runs_no_code(tmp_path):
+    # A board file is TOML data: an include section is an unknown section, and text that
+    # looks like code is read as a number or refused (units.py parses, never evaluates).
+    with pytest.raises(BoardError, match="unknown section 'include'"):
+        parse_board(MINIMAL + '\n[include]\nfile = "/etc/passwd"\n', "b.toml")
+    text = MINIMAL.replace('frequency = "125 MHz"', 'frequency = "__import__(\'os\').system(\'true\') MHz"')
+    with pytest.raises(BoardError, match="consumer\\[0\\].frequency|cannot read"):
+        parse_board(text, "b.toml")
