@@ -106,14 +106,22 @@ class _Run:
             raise FuzzCrash(type(err).__name__, detail, stage) from None
 
 
-def _render_all(run: _Run, analysis, command: str) -> None:
+def _render_all(run: _Run, analysis, command: str, full_html: bool) -> None:
     from clockplan.report.dot import render_dot
     from clockplan.report.formats import FORMATS, render_report
     from clockplan.report.terminal import make_console, render_analysis
 
     for fmt in FORMATS:
         with run.step(f"{command}-render-{fmt}"):
-            render_report(analysis, fmt, command, width=100)
+            if fmt == "html" and not full_html:
+                # Without Graphviz and matplotlib drawing (the slow half of a case); the plot data is still gathered.
+                from clockplan.report.html import render_html
+                from clockplan.report.plots import collect_plot_data
+
+                collect_plot_data(analysis)
+                render_html(analysis, command, None, None)
+            else:
+                render_report(analysis, fmt, command, width=100)
     with run.step(f"{command}-render-rich"):
         render_analysis(analysis, make_console(width=80, color=True, file=io.StringIO()), title=command)
     with run.step(f"{command}-render-dot"):
@@ -135,7 +143,7 @@ def _explain_all(run: _Run, analysis) -> None:
             explainer.explanation_fails(explanation)
 
 
-def _plan_all(run: _Run, board, time_limit_s: float, samples: int) -> None:
+def _plan_all(run: _Run, board, time_limit_s: float, samples: int, full_html: bool) -> None:
     from clockplan.analysis import AnalysisOptions, analyze
     from clockplan.plan.board_planner import PlanOptions, plan_board
     from clockplan.plan.output import plan_document, plan_findings, render_plan
@@ -157,12 +165,23 @@ def _plan_all(run: _Run, board, time_limit_s: float, samples: int) -> None:
     with run.step("plan-render"):
         dumps(plan_document(analysis, plan, explanation))
         render_plan(analysis, plan, make_console(width=100, color=True, file=io.StringIO()), explanation)
-    _render_all(run, analysis, "plan")
+    _render_all(run, analysis, "plan", full_html)
 
 
-def run_case(data: bytes, *, time_limit_s: float = 0.3, samples: int = 0, hang_s: float = 60.0, folder: str | None = None) -> Outcome:
+def run_case(
+    data: bytes,
+    *,
+    time_limit_s: float = 0.3,
+    samples: int = 0,
+    hang_s: float = 60.0,
+    full_html: bool = True,
+    folder: str | None = None,
+) -> Outcome:
     """Run one board file's bytes through load, audit, every report, plan and the plan reports.
 
+    ``time_limit_s`` is the planner's ``--time-limit``; ``hang_s`` the wall time after
+    which the case counts as a hang; ``full_html=False`` leaves the Graphviz and
+    matplotlib drawing out of the HTML report (the campaign draws them on a share of cases).
     Returns the :class:`Outcome`; raises :class:`FuzzCrash` when the contract breaks.
     """
     with tempfile.TemporaryDirectory(dir=folder) as tmp:
@@ -171,7 +190,7 @@ def run_case(data: bytes, *, time_limit_s: float = 0.3, samples: int = 0, hang_s
         run = _Run(path)
         try:
             with alarm(hang_s):
-                return _run_stages(run, path, time_limit_s, samples)
+                return _run_stages(run, path, time_limit_s, samples, full_html)
         except _Timeout:
             raise FuzzCrash("hang", f"still running after {hang_s} s", run.stage) from None
         except ClockplanError as err:
@@ -179,7 +198,7 @@ def run_case(data: bytes, *, time_limit_s: float = 0.3, samples: int = 0, hang_s
             return Outcome(type(err).__name__, run.stage.split("-")[0], err.message)
 
 
-def _run_stages(run: _Run, path: str, time_limit_s: float, samples: int) -> Outcome:
+def _run_stages(run: _Run, path: str, time_limit_s: float, samples: int, full_html: bool) -> Outcome:
     from clockplan.analysis import AnalysisOptions, analyze
     from clockplan.boardfile import load_board
 
@@ -187,9 +206,9 @@ def _run_stages(run: _Run, path: str, time_limit_s: float, samples: int) -> Outc
         board = load_board(path)
     with run.step("audit"):
         analysis = analyze(board, None, AnalysisOptions(samples=samples, seed=1))
-    _render_all(run, analysis, "audit")
+    _render_all(run, analysis, "audit", full_html)
     _explain_all(run, analysis)
-    _plan_all(run, board, time_limit_s, samples)
+    _plan_all(run, board, time_limit_s, samples, full_html)
     return Outcome("ok", "done")
 
 
