@@ -131,11 +131,14 @@ def main(argv: list[str] | None = None) -> int:
                 outcomes[(label.split(";")[0], stage)] += 1
             else:
                 signature, _, detail = crash.partition("\n")
+                if signature not in crashes:
+                    print(f"  new crash at case #{index} ({mutation}): {signature[:200]}", flush=True)
                 crashes.setdefault(signature, []).append(index)
                 details.setdefault(signature, detail)
                 outcomes[("CRASH", signature.split(":")[0])] += 1
             if done % 500 == 0:
-                print(f"  {done} cases, {len(crashes)} distinct crashes, {time.monotonic() - started:.0f} s", flush=True)
+                print(f"  {done} cases, {len(crashes)} distinct crashes, {time.monotonic() - started:.0f} s; outcomes so far: "
+                      + ", ".join(f"{label}@{stage} {count}" for (label, stage), count in outcomes.most_common()), flush=True)
     elapsed = time.monotonic() - started
 
     print(f"cases run: {args.cases} (seed {args.seed}, first {args.first}) in {elapsed:.0f} s, "
