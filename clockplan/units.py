@@ -605,6 +605,15 @@ def format_ppm(fractional: Fraction | float, digits: int = 4) -> str:
     if fractional == 0:
         return "0 ppm"
     ppm = float(fractional) * 1e6
+    if ppm == 0 and isinstance(fractional, Fraction):
+        # Below the smallest float (an error of 1e-400): still not zero, so never printed as one.
+        from decimal import Decimal, localcontext
+
+        with localcontext() as context:
+            context.prec = digits
+            scaled = Decimal(fractional.numerator) * 10**6 / Decimal(fractional.denominator)
+        mantissa, exponent = f"{scaled:+.{digits - 1}e}".split("e")
+        return f"{mantissa.rstrip('0').rstrip('.')}e{int(exponent)} ppm"
     if not math.isfinite(ppm):
         return f"{ppm} ppm"
     magnitude = abs(ppm)
