@@ -379,7 +379,7 @@ def _run_plan(args: argparse.Namespace) -> int:
     if not plan.feasible:
         from clockplan.plan.explain import explain_infeasible
 
-        explanation = explain_infeasible(plan)
+        explanation = explain_infeasible(plan, args.time_limit)
     _emit_plan(args, analysis, plan, explanation)
     if explanation is not None:
         raise InfeasibleError(

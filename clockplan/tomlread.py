@@ -152,8 +152,10 @@ class TableReader:
             raise self.error(name, f"invalid value {self.table[name]!r}: {err}", hint) from None
 
     def sub(self, name: str) -> "TableReader":
-        """A reader for the sub-table ``name``."""
+        """A reader for the sub-table ``name``; a missing one is a located error."""
         self.used.add(name)
+        if name not in self.table:
+            raise self.error(None, f"missing key '{name}'", f"add {name} = {{ ... }} to {self.key}")
         return TableReader(self.table[name], self.path(name), self.ctx)
 
     def raw(self, name: str, default: Any = None) -> Any:

@@ -160,7 +160,7 @@ def _plan_all(run: _Run, board, time_limit_s: float, samples: int, full_html: bo
         from clockplan.plan.explain import explain_infeasible
 
         with run.step("plan-explain"):
-            explanation = explain_infeasible(plan)
+            explanation = explain_infeasible(plan, time_limit_s)
             explanation.text()
     with run.step("plan-render"):
         dumps(plan_document(analysis, plan, explanation))

@@ -225,3 +225,98 @@ def test_board_file_has_no_include_and_runs_no_code(tmp_path):
     text = MINIMAL.replace('frequency = "125 MHz"', 'frequency = "__import__(\'os\').system(\'true\') MHz"')
     with pytest.raises(BoardError, match="consumer\\[0\\].frequency|cannot read"):
         parse_board(text, "b.toml")
+
+
+# --------------------------------------------------------------------------- crashes of the campaign (seed 11)
+
+
+def test_pll_without_outputs_is_a_located_missing_key():
+    # Crashed: KeyError 'outputs' from TableReader.sub (input class "line-shuffle", case #660).
+    text = MINIMAL.replace("outputs.out0 = { divider = [1, 256] }\n", "").replace(
+        "outputs.out1 = { divider = { min = 2, max = 256, step = 2 } }\n", "").replace(
+        ", outputs = { out0 = 20, out1 = 16 }", "")
+    with pytest.raises(BoardError, match="missing key 'outputs'") as info:
+        parse_board(text, "b.toml")
+    assert info.value.key == "pll[0]" and info.value.line is not None
+
+
+_CASCADE_WITH_HUGE_VCO_MULTIPLES = '''
+[[reference]]
+id = "ref0"
+frequency = "156.25 MHz"
+
+[[pll]]
+id = "pll0"
+input = "ref0"
+vco = ["1000 MHz", "3000 MHz"]
+pfd = ["5 MHz", "100 MHz"]
+n = [8, 1023]
+r = { min = 14, max = 39, step = 4 }
+outputs = { out1 = { divider = { min = 253, max = 305, step = 2 } } }
+
+[[pll]]
+id = "pll2"
+input = "pll0.out1"
+vco = ["300 MHz", "900 MHz"]
+pfd = ["1 MHz", "200 MHz"]
+n = [8, 65535]
+r = [54, 54]
+mode = "fractional"
+denominator = "2^24"
+outputs = { out0 = { divider = [42, 346] } }
+
+[[consumer]]
+id = "load0"
+source = "pll2.out0"
+frequency = "1 Hz"
+'''
+
+
+def test_cascade_wishing_for_a_one_hertz_output_does_not_list_every_vco_multiple():
+    # Crashed: MemoryError (input class "bom", a valid board; case #618): the planner listed
+    # every multiple of 1 Hz in a 300-900 MHz VCO range to keep the first 16.
+    from clockplan.plan.board_planner import PlanOptions, plan_board
+
+    board = parse_board(_CASCADE_WITH_HUGE_VCO_MULTIPLES, "b.toml")
+    plan = plan_board(board, PlanOptions(time_limit_s=0.5))
+    assert plan.best is not None
+
+
+_EXPLAIN_WITH_WIDE_RELAXATIONS = '''
+[[reference]]
+id = "ref1"
+frequency = "48 MHz"
+
+[[pll]]
+id = "pll1"
+input = "ref1"
+vco = ["4000 MHz", "12000 MHz"]
+pfd = ["5 MHz", "200 MHz"]
+n = [4, 65535]
+outputs = { out1 = { divider = [107, 107] } }
+
+[[consumer]]
+id = "load0"
+source = "pll1.out1"
+frequency = "50 MHz"
+
+[[consumer]]
+id = "load3"
+source = "pll1.out1"
+frequency = "1.8432 MHz"
+'''
+
+
+def test_explaining_an_infeasible_plan_honours_its_time_limit():
+    # Hung (> 60 s, a valid board, case #181): the explanation's relaxed searches (R up to 65536)
+    # ran without a deadline. They now share the plan command's --time-limit and say when it ran out.
+    from clockplan.plan.board_planner import PlanOptions, plan_board
+    from clockplan.plan.explain import explain_infeasible
+
+    plan = plan_board(parse_board(_EXPLAIN_WITH_WIDE_RELAXATIONS, "b.toml"), PlanOptions(time_limit_s=0.5))
+    assert not plan.feasible  # one fixed divider of 107 cannot give 50 MHz and 1.8432 MHz at once
+    explanation = explain_infeasible(plan, time_limit_s=0.05)
+    codes = [c.constraint for c in explanation.conflicts]
+    assert codes  # an explanation, complete or saying where it stopped
+    if "time-limit" in codes:
+        assert "unreachable" not in codes  # unexamined is never called unreachable
