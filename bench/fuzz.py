@@ -122,8 +122,11 @@ def main(argv: list[str] | None = None) -> int:
     details: dict[str, str] = {}
     slowest: list[tuple[float, int]] = []
     jobs = [(args.seed, index, options) for index in range(args.first, args.first + args.cases)]
-    with multiprocessing.Pool(args.jobs, initializer=_limit_memory, initargs=(args.memory_gb,), maxtasksperchild=200) as pool:
-        for done, (index, mutation, outcome, seconds, crash) in enumerate(pool.imap_unordered(_run_one, jobs, chunksize=4), 1):
+    done = 0
+    pool = multiprocessing.Pool(args.jobs, initializer=_limit_memory, initargs=(args.memory_gb,), maxtasksperchild=200)
+    try:
+        for index, mutation, outcome, seconds, crash in pool.imap_unordered(_run_one, jobs, chunksize=4):
+            done += 1
             mutations[mutation] += 1
             slowest = sorted(slowest + [(seconds, index)])[-5:]
             if crash is None:
@@ -139,10 +142,15 @@ def main(argv: list[str] | None = None) -> int:
             if done % 500 == 0:
                 print(f"  {done} cases, {len(crashes)} distinct crashes, {time.monotonic() - started:.0f} s; outcomes so far: "
                       + ", ".join(f"{label}@{stage} {count}" for (label, stage), count in outcomes.most_common()), flush=True)
+    except KeyboardInterrupt:  # Ctrl-C (or kill -INT): stop and report the cases finished so far
+        print("  interrupted: reporting the cases finished so far", flush=True)
+    finally:
+        pool.terminate()
+        pool.join()
     elapsed = time.monotonic() - started
 
-    print(f"cases run: {args.cases} (seed {args.seed}, first {args.first}) in {elapsed:.0f} s, "
-          f"{args.cases / elapsed:.1f} cases/s on {args.jobs} workers")
+    print(f"cases run: {done} of {args.cases} (seed {args.seed}, from #{args.first}) in {elapsed:.0f} s, "
+          f"{done / elapsed:.1f} cases/s on {args.jobs} workers")
     print("inputs by mutation:")
     for name, count in sorted(mutations.items()):
         print(f"  {name:16} {count}")
