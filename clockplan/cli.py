@@ -456,7 +456,9 @@ def _run_loop(args: argparse.Namespace) -> int:
         sys.stdout.write(dumps(loop_document(analysis, args.pll, result)))
     else:
         console = _console(args)
-        console.print(f"[bold]clockplan loop[/]: {args.pll} on {analysis.board.name} ({args.board})")
+        from rich.markup import escape
+
+        console.print(f"[bold]clockplan loop[/]: {escape(args.pll)} on {escape(analysis.board.name)} ({escape(args.board)})")
         console.print(loop_view(analysis, args.pll, result))
     return EXIT_OK
 

@@ -320,3 +320,19 @@ def test_explaining_an_infeasible_plan_honours_its_time_limit():
     assert codes  # an explanation, complete or saying where it stopped
     if "time-limit" in codes:
         assert "unreachable" not in codes  # unexamined is never called unreachable
+
+
+def test_rich_markup_in_a_board_name_prints_as_text_in_the_loop_command(tmp_path, capsys):
+    # Found while checking the escaping of user text: 'clockplan loop' printed the board name
+    # as rich markup, so a name holding "[/]" raised a MarkupError (now exit 4 would say "bug").
+    from pathlib import Path
+
+    from clockplan.cli import main
+
+    text = Path("boards/sampling-receiver.toml").read_text(encoding="utf-8")
+    path = tmp_path / "receiver.toml"
+    path.write_text(text.replace('name = "Sampling receiver"', 'name = "[/] [bold]receiver[/bold]"', 1), encoding="utf-8")
+    status = main(["loop", str(path), "conv_synth", "--no-color", "--width", "140"])
+    out = capsys.readouterr().out
+    assert status == 0
+    assert "[/] [bold]receiver[/bold]" in out
