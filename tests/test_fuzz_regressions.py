@@ -336,3 +336,16 @@ def test_rich_markup_in_a_board_name_prints_as_text_in_the_loop_command(tmp_path
     out = capsys.readouterr().out
     assert status == 0
     assert "[/] [bold]receiver[/bold]" in out
+
+
+def test_an_r_range_of_a_million_million_values_is_searched_on_its_smallest_values():
+    # Hung (> 60 s, input class "huge-ranges", case #613 of the second campaign): the solver built
+    # one grid per allowed R, and the explanation's relaxed R set (up to 65536) was searched whole
+    # at every visited point. At most SearchLimits.max_r_values R values are searched now, with a note.
+    from clockplan.plan.board_planner import PlanOptions, plan_board
+
+    text = MINIMAL.replace("r = [1, 255]", "r = [1, 1000000000000]").replace('pfd = ["1 MHz", "100 MHz"]', 'pfd = ["1 Hz", "100 MHz"]')
+    text = text.replace("settings = { r = 1, n = \"100\", outputs = { out0 = 20, out1 = 16 } }", "")
+    plan = plan_board(parse_board(text, "b.toml"), PlanOptions(time_limit_s=0.5))
+    assert plan.best is not None
+    assert plan.feasible  # 2.5 GHz / 20 and / 16: R = 1 stays among the smallest values searched

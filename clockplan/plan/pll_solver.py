@@ -93,6 +93,7 @@ class SearchLimits:
     max_multiples: int = 20000
     max_ladder: int = 50000
     max_free_points: int = 64
+    max_r_values: int = 4096
 
 
 @dataclass(frozen=True)
@@ -242,7 +243,7 @@ class _RGrid:
         return self.pfd * self.n_hi
 
 
-def _r_grids(problem: PllProblem) -> list[_RGrid]:
+def _r_grids(problem: PllProblem, limits: SearchLimits | None = None, notes: list[str] | None = None) -> list[_RGrid]:
     pll, f_in = problem.pll, problem.input_hz
     # R must put the PFD in range and let some N in range reach the VCO range:
     # f_in * n_min / R <= vco_hi and f_in * n_max / R >= vco_lo.
@@ -253,6 +254,12 @@ def _r_grids(problem: PllProblem) -> list[_RGrid]:
         values = [problem.r_pin] if problem.r_pin in pll.ref_divider and lo <= problem.r_pin <= hi else []
     else:
         values = ladder_of(pll.ref_divider, max(lo, 1), hi).between(max(lo, 1), hi)
+        cap = (limits or SearchLimits()).max_r_values
+        if len(values) > cap:
+            # Smallest R first: the highest PFD frequencies (common practice for low in-band noise).
+            if notes is not None:
+                notes.append(f"{pll.id}: only the {cap} smallest of {len(values)} allowed R values were searched")
+            values = values[:cap]
     grids = []
     for r in values:
         pfd = f_in / r
@@ -300,7 +307,7 @@ class _Solver:
         self.pll = problem.pll
         self.limits = limits
         self.notes: list[str] = []
-        self.grids = _r_grids(problem)
+        self.grids = _r_grids(problem, limits, self.notes)
         self.evaluated = 0
         self.found: dict[tuple[int, Fraction], PllCandidate] = {}
         self._exact_settled = False
