@@ -230,7 +230,7 @@ def _pll(pick: Picker, index: int, sources: list[str]) -> dict[str, Any]:
         "outputs": outputs,
     }
     if pick.chance(0.6):
-        pll["r"] = _choices(pick, 1, 64)
+        pll.update(r=_choices(pick, 1, 64))  # the input divider set
     if mode == "fractional" or pick.chance(0.2):
         pll["mode"] = mode
     if mode == "fractional":
