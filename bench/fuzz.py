@@ -15,7 +15,8 @@ Usage::
     python bench/fuzz.py --cases 20000 --seed 1 --jobs 2 --crash-dir fuzz-crashes
 
 Case ``i`` of seed ``s`` is always the same input (``random.Random(s * 1000003 + i)``),
-so ``--first i --cases 1`` replays it.
+so ``--first i --cases 1`` replays it. Ctrl-C (or SIGTERM) stops the campaign
+and reports the cases finished so far.
 """
 
 from __future__ import annotations
@@ -25,6 +26,7 @@ import collections
 import multiprocessing
 import os
 import random
+import signal
 import sys
 import time
 from pathlib import Path
@@ -60,7 +62,12 @@ def _run_one(job: tuple[int, int, dict]) -> tuple[int, str, tuple[str, str] | No
         return index, case.mutation, None, time.monotonic() - started, crash_signature(crash) + "\n" + crash.detail
 
 
+def _interrupt(signum, frame) -> None:  # noqa: ANN001 - signal handler signature
+    raise KeyboardInterrupt
+
+
 def _limit_memory(gigabytes: float) -> None:
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)  # workers end when the pool ends them
     try:
         import resource
 
@@ -123,6 +130,8 @@ def main(argv: list[str] | None = None) -> int:
     slowest: list[tuple[float, int]] = []
     jobs = [(args.seed, index, options) for index in range(args.first, args.first + args.cases)]
     done = 0
+    # Started in the background, a process ignores SIGINT: let SIGTERM stop the campaign the same way.
+    signal.signal(signal.SIGTERM, _interrupt)
     pool = multiprocessing.Pool(args.jobs, initializer=_limit_memory, initargs=(args.memory_gb,), maxtasksperchild=200)
     try:
         for index, mutation, outcome, seconds, crash in pool.imap_unordered(_run_one, jobs, chunksize=4):
