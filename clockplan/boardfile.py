@@ -64,6 +64,8 @@ __all__ = [
 T = TypeVar("T")
 
 _SECTIONS = ("board", "reference", "pll", "divider", "buffer", "consumer")
+#: The largest fractional-N denominator read; real modulators use 2^24 to 2^48.
+MAX_DENOMINATOR = 2**64
 
 
 # --------------------------------------------------------------------------- board value parsers
@@ -153,9 +155,16 @@ def _read_outputs(reader: TableReader) -> tuple[PllOutput, ...]:
     return tuple(result)
 
 
+def _denominator(value: Any) -> int:
+    number = whole_number(value, 2)
+    if number > MAX_DENOMINATOR:
+        raise BoardError(f"denominator {number} is above 2^64", hint="fractional-N modulators use denominators up to about 2^48")
+    return number
+
+
 def read_denominator(reader: TableReader, mode: str) -> Denominator | None:
-    fixed = reader.get("denominator", lambda v: whole_number(v, 2), None)
-    limit = reader.get("max_denominator", lambda v: whole_number(v, 2), None)
+    fixed = reader.get("denominator", _denominator, None)
+    limit = reader.get("max_denominator", _denominator, None)
     if fixed is not None and limit is not None:
         raise reader.error("max_denominator", "give either 'denominator' (fixed modulus) or 'max_denominator', not both")
     if mode == "fractional" and fixed is None and limit is None:

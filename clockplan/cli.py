@@ -2,7 +2,9 @@
 
 Each command is a library call plus a renderer. Exit status: 0 no error
 finding, 1 error findings (a budget broken or a constraint violated), 2 bad
-input or usage, 3 no feasible plan. Heavy modules are imported inside the
+input or usage, 3 no feasible plan, 4 an internal error (a bug in clockplan:
+one line says so and how to report it; ``CLOCKPLAN_DEBUG=1`` shows the
+traceback instead). Heavy modules are imported inside the
 command functions so that ``clockplan --help`` starts quickly.
 """
 
@@ -16,15 +18,19 @@ from collections.abc import Callable, Sequence
 from clockplan import __version__
 from clockplan.errors import ClockplanError, InfeasibleError
 
-__all__ = ["main", "EXIT_OK", "EXIT_FINDINGS", "EXIT_INPUT", "EXIT_INFEASIBLE"]
+__all__ = ["main", "EXIT_OK", "EXIT_FINDINGS", "EXIT_INPUT", "EXIT_INFEASIBLE", "EXIT_BUG", "DEBUG_ENV"]
 
 EXIT_OK = 0
 EXIT_FINDINGS = 1
 EXIT_INPUT = 2
 EXIT_INFEASIBLE = 3
+EXIT_BUG = 4
+#: Set to 1 to let an internal error raise with its traceback (for developers).
+DEBUG_ENV = "CLOCKPLAN_DEBUG"
 
 _EPILOG = """exit status: 0 no error finding, 1 error findings (budget broken or constraint
-violated), 2 bad input or usage, 3 no feasible plan.
+violated), 2 bad input or usage, 3 no feasible plan, 4 internal error (a bug;
+CLOCKPLAN_DEBUG=1 shows its traceback).
 Budgets are planning estimates: the part datasheets and the governing standard decide."""
 
 
@@ -385,7 +391,7 @@ def _run_plan(args: argparse.Namespace) -> int:
     if not plan.feasible:
         from clockplan.plan.explain import explain_infeasible
 
-        explanation = explain_infeasible(plan)
+        explanation = explain_infeasible(plan, args.time_limit)
     _emit_plan(args, analysis, plan, explanation)
     if explanation is not None:
         raise InfeasibleError(
@@ -462,7 +468,9 @@ def _run_loop(args: argparse.Namespace) -> int:
         sys.stdout.write(dumps(loop_document(analysis, args.pll, result)))
     else:
         console = _console(args)
-        console.print(f"[bold]clockplan loop[/]: {args.pll} on {analysis.board.name} ({args.board})")
+        from rich.markup import escape
+
+        console.print(f"[bold]clockplan loop[/]: {escape(args.pll)} on {escape(analysis.board.name)} ({escape(args.board)})")
         console.print(loop_view(analysis, args.pll, result))
     return EXIT_OK
 
@@ -486,6 +494,8 @@ def _add_synthesize_command(commands) -> None:
                             help="also show K runner-up trees (default: the board's [synthesis] alternatives, else 2)")
     synthesize.add_argument("--write", metavar="OUT", help="write the best tree as a complete board file to OUT")
     synthesize.add_argument("--library", metavar="FILE", help="a parts library file added to the shipped templates")
+    synthesize.add_argument("--allow-outside-paths", action="store_true",
+                            help="let the board's [synthesis] library path lead outside the board file's folder")
     synthesize.add_argument("--time-limit", type=_seconds, default=None, metavar="S",
                             help="search budget in seconds (default: the board's [synthesis] time_limit, else 30)")
     synthesize.add_argument("--json", action="store_true", help="write the synthesis JSON document (docs/synthesis.md) to stdout")
@@ -500,7 +510,7 @@ def _run_synthesize(args: argparse.Namespace) -> int:
     from clockplan.synth.synthesize import SynthesisOptions, library_for, synthesize
 
     spec = load_consumer_list(args.board)
-    library = library_for(spec, args.library)
+    library = library_for(spec, args.library, allow_outside=args.allow_outside_paths)
     alternatives = args.alternatives if args.alternatives is not None else spec.settings.alternatives
     time_limit = args.time_limit if args.time_limit is not None else spec.settings.time_limit_s
     options = SynthesisOptions(
@@ -581,6 +591,24 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         sys.stderr.write("clockplan: interrupted; a file being written keeps its old content\n")
         return 130  # 128 + SIGINT, the shell's convention for Ctrl-C
+    except Exception as err:  # anything else is a bug: one line, never a traceback
+        return _report_bug(err)
+
+
+def _report_bug(err: Exception) -> int:
+    """Say in one line that clockplan failed, how to report it; re-raise under CLOCKPLAN_DEBUG=1."""
+    import os
+
+    if os.environ.get(DEBUG_ENV, "") not in ("", "0"):
+        raise err
+    what = f"{type(err).__name__}: {err}".splitlines()[0] if str(err) else type(err).__name__
+    if len(what) > 200:
+        what = what[:197] + "..."
+    sys.stderr.write(
+        f"clockplan: internal error (a bug in clockplan {__version__}): {what}; please report it with the "
+        f"command and the input file, and the traceback that {DEBUG_ENV}=1 shows\n"
+    )
+    return EXIT_BUG
 
 
 def _entry() -> None:  # pragma: no cover - console script wrapper

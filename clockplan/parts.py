@@ -12,6 +12,7 @@ from __future__ import annotations
 
 from collections.abc import Iterator, Mapping
 from dataclasses import dataclass, field
+from functools import cached_property
 from fractions import Fraction
 from typing import Any, Literal
 
@@ -273,11 +274,17 @@ class Board:
 
     def part(self, part_id: str) -> Any:
         """Return the part (reference, PLL, divider, buffer or consumer) with this id."""
+        return self._parts_by_id[part_id]
+
+    @cached_property
+    def _parts_by_id(self) -> dict[str, Any]:
+        # Built once: reports look parts up per consumer, and a scan each time is quadratic
+        # on a board of thousands of consumers. The first part of an id wins, as the scan did.
+        index: dict[str, Any] = {}
         for group in (self.references, self.plls, self.dividers, self.buffers, self.consumers):
             for part in group:
-                if part.id == part_id:
-                    return part
-        raise KeyError(part_id)
+                index.setdefault(part.id, part)
+        return index
 
     def all_ids(self) -> list[str]:
         """Every part id on the board."""

@@ -22,6 +22,8 @@ from clockplan.units import parse_frequency, parse_ratio
 
 __all__ = [
     "ID_PATTERN",
+    "MAX_FILE_BYTES",
+    "MAX_NESTING",
     "LineIndex",
     "Locator",
     "TableReader",
@@ -42,6 +44,10 @@ T = TypeVar("T")
 #: Part ids: a letter, then letters, digits, ``_`` or ``-`` (no dots: ``pll.out`` names an output).
 ID_PATTERN = re.compile(r"^[A-Za-z][A-Za-z0-9_\-]*$")
 _MAX_RANGE_SPAN = 10**12  # a divider range wider than this is surely a typo
+#: The largest input file read (bytes); a board of thousands of parts is a few hundred kB.
+MAX_FILE_BYTES = 16 * 1024 * 1024
+#: How deep tables and arrays may nest; a board file needs four or five levels.
+MAX_NESTING = 32
 
 
 # --------------------------------------------------------------------------- locations
@@ -146,8 +152,10 @@ class TableReader:
             raise self.error(name, f"invalid value {self.table[name]!r}: {err}", hint) from None
 
     def sub(self, name: str) -> "TableReader":
-        """A reader for the sub-table ``name``."""
+        """A reader for the sub-table ``name``; a missing one is a located error."""
         self.used.add(name)
+        if name not in self.table:
+            raise self.error(None, f"missing key '{name}'", f"add {name} = {{ ... }} to {self.key}")
         return TableReader(self.table[name], self.path(name), self.ctx)
 
     def raw(self, name: str, default: Any = None) -> Any:
@@ -256,11 +264,20 @@ def read_text_file(path: str | Path, what: str, missing_hint: str = "check the p
     Raises
     ------
     BoardError
-        The file is missing, a folder, unreadable or not UTF-8.
+        The file is missing, a folder, unreadable, larger than :data:`MAX_FILE_BYTES`
+        or not UTF-8. A UTF-8 byte-order mark (some editors write one) is skipped.
     """
     path = Path(path)
     try:
-        return path.read_bytes().decode("utf-8")
+        with path.open("rb") as stream:
+            data = stream.read(MAX_FILE_BYTES + 1)
+        if len(data) > MAX_FILE_BYTES:
+            raise BoardError(
+                f"the {what} is larger than {MAX_FILE_BYTES // (1024 * 1024)} MB",
+                file=str(path),
+                hint=f"a {what} is a few kB of TOML; check that this is the right file",
+            )
+        return data.decode("utf-8-sig")
     except FileNotFoundError:
         raise BoardError("file not found", file=str(path), hint=missing_hint) from None
     except IsADirectoryError:
@@ -290,12 +307,38 @@ def read_document(
     except tomllib.TOMLDecodeError as err:
         line = getattr(err, "lineno", None) or _line_from_message(str(err))
         raise BoardError(f"not valid TOML: {err}", file=file, line=line, hint="check quoting, brackets and '=' on that line") from None
+    except RecursionError:
+        raise BoardError(
+            "arrays or tables nest too deeply to read",
+            file=file,
+            hint=f"a board file needs a few levels of nesting; at most {MAX_NESTING} are read",
+        ) from None
+    except ValueError as err:  # e.g. an integer literal of thousands of digits
+        raise BoardError(f"not valid TOML: {err}", file=file, hint="write numbers of a sensible size") from None
     ctx = Locator(file, LineIndex(text))
+    _check_nesting(doc, ctx)
     for section in doc:
         if section not in sections:
             hint = hint_for(section) or did_you_mean(section, sections) or "sections: " + ", ".join(sections)
             raise ctx.error(section, f"unknown section '{section}'", hint)
     return doc, ctx
+
+
+def _check_nesting(doc: dict[str, Any], ctx: Locator) -> None:
+    """Refuse values nested deeper than :data:`MAX_NESTING` (checked without recursion)."""
+    stack: list[tuple[Any, str, int]] = [(value, name, 1) for name, value in doc.items()]
+    while stack:
+        value, key, depth = stack.pop()
+        if depth > MAX_NESTING:
+            raise ctx.error(
+                key if len(key) <= 120 else key[:117] + "...",
+                f"tables or arrays nest more than {MAX_NESTING} levels deep",
+                "a board file needs a few levels of nesting; check the brackets",
+            )
+        if isinstance(value, dict):
+            stack += [(item, f"{key}.{name}", depth + 1) for name, item in value.items()]
+        elif isinstance(value, list):
+            stack += [(item, f"{key}[{index}]", depth + 1) for index, item in enumerate(value)]
 
 
 def _line_from_message(message: str) -> int | None:

@@ -22,6 +22,10 @@ from clockplan.errors import UnitError
 __all__ = [
     "PPM",
     "PPB",
+    "MIN_FREQUENCY",
+    "MAX_FREQUENCY",
+    "MAX_FREQUENCY_ERROR",
+    "MAX_NUMBER_TEXT",
     "parse_number",
     "parse_ratio",
     "parse_frequency",
@@ -40,6 +44,11 @@ __all__ = [
 
 PPM = Fraction(1, 10**6)
 PPB = Fraction(1, 10**9)
+#: The frequencies a board file may state: 1 mHz to 1 THz (a prefix mix-up lands outside).
+MIN_FREQUENCY = Fraction(1, 1000)
+MAX_FREQUENCY = Fraction(10**12)
+#: The largest frequency error read: ±100 % (an error of -100 % is 0 Hz).
+MAX_FREQUENCY_ERROR = Fraction(1)
 
 _PREFIXES: dict[str, Fraction] = {
     "a": Fraction(1, 10**18),
@@ -94,6 +103,9 @@ class _ExpressionParser:
     """
 
     _MAX_EXPONENT = 4096  # keeps "2^99999999" from hanging the tool
+    #: Numerator and denominator stay below 2^8192 (about 2466 digits): "(2^4096)^4096"
+    #: would otherwise eat the memory, and Python refuses to print integers past 4300 digits.
+    _MAX_BITS = 8192
 
     def __init__(self, text: str) -> None:
         self.text = text
@@ -141,7 +153,7 @@ class _ExpressionParser:
         while self._peek() in ("+", "-"):
             op = self._take()
             rhs = self._term()
-            value = value + rhs if op == "+" else value - rhs
+            value = self._bounded(value + rhs if op == "+" else value - rhs)
         return value
 
     def _term(self) -> Fraction:
@@ -152,9 +164,9 @@ class _ExpressionParser:
             if op == "/":
                 if rhs == 0:
                     raise UnitError(f"division by zero in {self.text!r}", hint="check the denominator")
-                value = value / rhs
+                value = self._bounded(value / rhs)
             else:
-                value = value * rhs
+                value = self._bounded(value * rhs)
         return value
 
     def _unary(self) -> Fraction:
@@ -176,8 +188,22 @@ class _ExpressionParser:
                 )
             if base == 0 and exponent < 0:
                 raise UnitError(f"zero to a negative power in {self.text!r}", hint="check the expression")
+            bits = max(base.numerator.bit_length(), base.denominator.bit_length()) * abs(int(exponent))
+            if bits > self._MAX_BITS:
+                raise self._too_large()
             return base ** int(exponent)
         return base
+
+    def _bounded(self, value: Fraction) -> Fraction:
+        if max(value.numerator.bit_length(), value.denominator.bit_length()) > self._MAX_BITS:
+            raise self._too_large()
+        return value
+
+    def _too_large(self) -> UnitError:
+        return UnitError(
+            f"{_shorten(self.text)} is too large a number to work with",
+            hint="numbers in a board file stay within about 2400 digits; check the exponent",
+        )
 
     def _atom(self) -> Fraction:
         token = self._take()
@@ -192,6 +218,15 @@ class _ExpressionParser:
             f"cannot read {self.text!r} as a number (unexpected {token!r})",
             hint="write a decimal number or a ratio such as '100.5', '201/2' or '2^24'",
         )
+
+
+def _shorten(text: str, limit: int = 40) -> str:
+    """``repr(text)``, cut to ``limit`` characters with its length said, for messages."""
+    return repr(text) if len(text) <= limit else f"{text[:limit]!r}... ({len(text)} characters)"
+
+
+#: The longest text read as a number; real values are a few dozen characters.
+MAX_NUMBER_TEXT = 1000
 
 
 def _decimal_to_fraction(token: str) -> Fraction:
@@ -220,6 +255,8 @@ def parse_number(value: object) -> Fraction:
     if isinstance(value, bool):
         raise UnitError(f"expected a number, got {value!r}", hint="write a number, not true/false")
     if isinstance(value, int):
+        if value.bit_length() > _ExpressionParser._MAX_BITS:
+            raise UnitError(f"a number of {value.bit_length()} bits is too large to work with", hint="check the value")
         return Fraction(value)
     if isinstance(value, float):
         if not math.isfinite(value):
@@ -228,6 +265,11 @@ def parse_number(value: object) -> Fraction:
     if isinstance(value, Fraction):
         return value
     if isinstance(value, str):
+        if len(value) > MAX_NUMBER_TEXT:
+            raise UnitError(
+                f"{_shorten(value)} is too long to be a number",
+                hint=f"write the number in at most {MAX_NUMBER_TEXT} characters",
+            )
         return _ExpressionParser(value.replace("_", "").replace("×", "*")).parse()
     raise UnitError(
         f"expected a number, got {type(value).__name__} {value!r}",
@@ -319,7 +361,12 @@ def parse_frequency(value: object) -> Fraction:
         scale = _prefix_scale(unit, "Hz", "frequency", value)
         hz = parse_number(number) * scale
     if hz <= 0:
-        raise UnitError(f"frequency {value!r} is not positive", hint="a frequency must be above 0 Hz")
+        raise UnitError(f"frequency {_shorten(str(value))} is not positive", hint="a frequency must be above 0 Hz")
+    if not MIN_FREQUENCY <= hz <= MAX_FREQUENCY:
+        raise UnitError(
+            f"frequency {_shorten(str(value))} is outside {format_frequency(MIN_FREQUENCY)} .. {format_frequency(MAX_FREQUENCY)}",
+            hint="check the unit prefix: clock frequencies lie between 1 mHz and 1 THz",
+        )
     return hz
 
 
@@ -358,14 +405,24 @@ def parse_ppm(value: object) -> tuple[Fraction, Fraction]:
     parts = _RANGE_SPLIT_RE.split(number)
     if len(parts) == 2:
         lo, hi = sorted(parse_number(p.strip().rstrip(unit).strip()) * scale for p in parts)
-        return lo, hi
+        return _bounded_error(value, lo, hi)
     if len(parts) > 2:
         raise UnitError(f"{value!r} has more than one '..'", hint="write a range as 'min..max ppm'")
     symmetric, count = _PLUS_MINUS_RE.subn("", number)
     magnitude = parse_number(symmetric) * scale
     if count and magnitude < 0:
         raise UnitError(f"{value!r}: ± needs a positive magnitude", hint="write e.g. '±20 ppm'")
-    return -abs(magnitude), abs(magnitude)
+    return _bounded_error(value, -abs(magnitude), abs(magnitude))
+
+
+def _bounded_error(value: str, lo: Fraction, hi: Fraction) -> tuple[Fraction, Fraction]:
+    """``(lo, hi)`` if both lie within ±100 %, else a :class:`UnitError`."""
+    if max(-lo, hi) > MAX_FREQUENCY_ERROR:
+        raise UnitError(
+            f"frequency error {_shorten(value)} is beyond ±100 %",
+            hint="a frequency error is a small share of the frequency: check the unit (ppm, ppb or %)",
+        )
+    return lo, hi
 
 
 def parse_time(value: object) -> float:
@@ -548,6 +605,15 @@ def format_ppm(fractional: Fraction | float, digits: int = 4) -> str:
     if fractional == 0:
         return "0 ppm"
     ppm = float(fractional) * 1e6
+    if ppm == 0 and isinstance(fractional, Fraction):
+        # Below the smallest float (an error of 1e-400): still not zero, so never printed as one.
+        from decimal import Decimal, localcontext
+
+        with localcontext() as context:
+            context.prec = digits
+            scaled = Decimal(fractional.numerator) * 10**6 / Decimal(fractional.denominator)
+        mantissa, exponent = f"{scaled:+.{digits - 1}e}".split("e")
+        return f"{mantissa.rstrip('0').rstrip('.')}e{int(exponent)} ppm"
     if not math.isfinite(ppm):
         return f"{ppm} ppm"
     magnitude = abs(ppm)

@@ -16,8 +16,11 @@ def consumer_list(
     allow: Sequence[str] | None = SMALL_ALLOW,
     extra: str = "",
     library: str | None = None,
+    file: str = "test-list.toml",
 ) -> ConsumerList:
-    """A consumer list from ``(id, frequency, budget keys)`` rows.
+    """A consumer list from ``(id, frequency, budget keys)`` rows, as if read from ``file``.
+
+    A ``library`` path is taken from ``file``'s folder and must stay inside it.
 
     ``budget keys`` is TOML text such as ``'standard = "PCIe Gen3"'`` (or empty).
     """
@@ -33,7 +36,7 @@ def consumer_list(
         lines += ["", "[[consumer]]", f'id = "{consumer_id}"', f'frequency = "{frequency}"']
         if budget:
             lines.append(budget)
-    return parse_consumer_list("\n".join(lines) + "\n", "test-list.toml")
+    return parse_consumer_list("\n".join(lines) + "\n", file)
 
 
 def pll_template(name: str, mode: str, vco: tuple[str, str], pfd: tuple[str, str], r_max: int, n: tuple[int, int], divider: tuple[int, int], power: str = "0.1 W") -> str:

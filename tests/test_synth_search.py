@@ -114,7 +114,8 @@ def test_the_two_frame_rate_families_need_two_vcos_and_a_fractional_path(tmp_pat
     spec = consumer_list(
         [("sdi", "148.5 MHz", 'standard = "3G-SDI"'), ("sdi_1001", "148.5/1.001 MHz", 'standard = "3G-SDI"')],
         allow=["tcxo", "int-synth-hi-pfd", "frac-synth-4", "divider", "fanout-2"],
-        library=str(library),
+        library="parts.toml",  # beside the list, as a board file may name it
+        file=str(tmp_path / "test-list.toml"),
     )
     result, tree = _best_blocks(spec)
     by_class = {c: b for b in tree.blocks for c in b.members()}

@@ -317,12 +317,12 @@ class _Planner:
             return []
         lo = max(1, ceil_fraction(hz / (hi_in * factor)))
         hi = floor_fraction(hz / (lo_in * factor))
-        values = list(ladder_of(choices, lo, hi).between(lo, hi))
+        values = ladder_of(choices, lo, hi).between(lo, hi)  # may be a range of 10^12 values: sliced lazily
         cap = self.options.max_cascade_inputs
         if len(values) > cap:
             self._note(f"only {cap} of {len(values)} ratios feeding {pll.id} were tried")
             values = values[:cap]
-        return values
+        return list(values)
 
     # ----------------------------------------------------------------- PLLs
 
@@ -436,7 +436,7 @@ class _Planner:
             return []
         step = lcm_fractions(hz for hz, _ in targets)
         wishes: list[tuple[Fraction, Fraction]] = []
-        for m in list(multiples_in(step, pll.vco.lo, pll.vco.hi))[:16]:
+        for m in multiples_in(step, pll.vco.lo, pll.vco.hi)[:16]:  # a range: sliced, never listed whole
             vco = m * step
             if not all((vco / hz).denominator == 1 and int(vco / hz) in choices for hz, choices in targets):
                 continue

@@ -16,6 +16,7 @@ The nearest plan and its errors are reported with the explanation.
 
 from __future__ import annotations
 
+import time
 from dataclasses import dataclass, field, replace
 from fractions import Fraction
 from typing import TYPE_CHECKING, Any
@@ -110,22 +111,36 @@ def _unpinned(pll: Pll, problem: PllProblem) -> PllProblem | None:
     return replace(problem, r_pin=None, n_pin=None, outputs=outputs)
 
 
-def _feasible(problem: PllProblem) -> bool:
-    best = solve_pll(problem, SearchLimits(keep=1)).best
+@dataclass
+class _Budget:
+    """The explanation's time budget: every relaxed search shares one deadline."""
+
+    deadline: float
+    ran_out: bool = False
+
+    def best(self, problem: PllProblem):
+        best = solve_pll(problem, SearchLimits(keep=1, deadline=self.deadline)).best
+        if time.monotonic() > self.deadline:
+            self.ran_out = True
+        return best
+
+
+def _feasible(problem: PllProblem, budget: _Budget) -> bool:
+    best = budget.best(problem)
     return best is not None and best.score.feasible
 
 
-def _blocking(pll: Pll, problem: PllProblem) -> tuple[str, str]:
+def _blocking(pll: Pll, problem: PllProblem, budget: _Budget) -> tuple[str, str]:
     for code, text, relaxed in _relaxations(pll, problem):
-        if _feasible(relaxed):
+        if _feasible(relaxed, budget):
             return code, text
     free = _unpinned(pll, problem)
     if free is not None:
         pinned_text = f"the pinned settings of {pll.id} block it; remove them to let the planner choose"
-        if _feasible(free):
+        if _feasible(free, budget):
             return "pinned", pinned_text
         for code, text, relaxed in _relaxations(pll, free):
-            if _feasible(relaxed):
+            if _feasible(relaxed, budget):
                 return "pinned", f"{pinned_text}, and then: {text}"
     return "combined", f"several constraints of {pll.id} together block it (no single relaxation helps)"
 
@@ -174,8 +189,11 @@ def _pll_problems(plan: "BoardPlan") -> dict[str, PllProblem]:
     return problems
 
 
-def explain_infeasible(plan: "BoardPlan") -> Explanation:
+def explain_infeasible(plan: "BoardPlan", time_limit_s: float = 10.0) -> Explanation:
     """Explain why ``plan`` (the nearest plan of an infeasible board) misses.
+
+    The relaxed searches share ``time_limit_s`` (the ``plan`` command passes its
+    ``--time-limit``); when it runs out, the explanation says so.
 
     Examples
     --------
@@ -195,16 +213,33 @@ def explain_infeasible(plan: "BoardPlan") -> Explanation:
     if not missing:
         return explanation
     explained: set[str] = set()
+    budget = _Budget(time.monotonic() + time_limit_s)
+    _explain_plls(plan, explanation, missing, explained, budget)
+    if budget.ran_out:
+        explanation.conflicts.append(Conflict(
+            (), "time-limit", "the explanation stopped at its time limit: the blocking constraints named may be "
+            "incomplete; raise --time-limit"))
+    for cid in sorted(missing - explained) if not budget.ran_out else ():  # unexamined is not unreachable
+        explanation.conflicts.append(
+            Conflict((cid,), "unreachable", f"{cid}: no setting upstream makes its frequency within ±{format_ppm(tolerances[cid]).lstrip('+')}")
+        )
+    return explanation
+
+
+def _explain_plls(plan: "BoardPlan", explanation: Explanation, missing: set[str], explained: set[str], budget: _Budget) -> None:
+    """Name, per PLL, the constraint that blocks its missed consumers (alone, in pairs, all together)."""
     for pll_id, problem in _pll_problems(plan).items():
+        if budget.ran_out:
+            return
         pll = problem.pll
         for spec in problem.outputs:
             labels = {t.label for t in spec.targets} & missing - explained
             if not labels:
                 continue
             alone = replace(problem, outputs=(spec,))
-            if not _feasible(alone):
-                code, text = _blocking(pll, alone)
-                near = solve_pll(alone, SearchLimits(keep=1)).best
+            if not _feasible(alone, budget):
+                code, text = _blocking(pll, alone, budget)
+                near = budget.best(alone)
                 detail = ""
                 if near is not None:
                     worst = max(near.errors.items(), key=lambda item: abs(item[1]))
@@ -216,20 +251,15 @@ def explain_infeasible(plan: "BoardPlan") -> Explanation:
                 if other is spec:
                     continue
                 pair = replace(problem, outputs=(spec, other))
-                if not _feasible(pair):
+                if not _feasible(pair, budget):
                     involved = tuple(sorted({t.label for t in spec.targets + other.targets}))
                     if all(c.consumers != involved for c in explanation.conflicts):
-                        code, _ = _blocking(pll, pair)
+                        code, _ = _blocking(pll, pair, budget)
                         explanation.conflicts.append(Conflict(involved, code, _pair_message(pll, spec, other) + f" (blocking: {code})"))
                     explained |= labels
                     break
             else:
-                code, text = _blocking(pll, problem)
+                code, text = _blocking(pll, problem, budget)
                 involved = tuple(sorted({t.label for s in problem.outputs for t in s.targets}))
                 explanation.conflicts.append(Conflict(involved, code, f"the outputs of {pll_id} together: {text}"))
                 explained |= labels
-    for cid in sorted(missing - explained):
-        explanation.conflicts.append(
-            Conflict((cid,), "unreachable", f"{cid}: no setting upstream makes its frequency within ±{format_ppm(tolerances[cid]).lstrip('+')}")
-        )
-    return explanation

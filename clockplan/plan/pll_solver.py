@@ -93,6 +93,7 @@ class SearchLimits:
     max_multiples: int = 20000
     max_ladder: int = 50000
     max_free_points: int = 64
+    max_r_values: int = 4096
 
 
 @dataclass(frozen=True)
@@ -139,7 +140,7 @@ class _Output:
     window_lo: Fraction  # the output frequency range that keeps every target in tolerance
     window_hi: Fraction
     ladder: Ladder
-    bottoms: list[Fraction]
+    bottoms: Sequence[Fraction]  # d * center for each ladder value d, computed on access
     center_f: float = 0.0
     t_lo_f: float = 0.0
     t_hi_f: float = 0.0
@@ -178,6 +179,22 @@ class _Output:
         return best[2], best[1], not best[0]
 
 
+class _Scaled(Sequence[Fraction]):
+    """``values[i] * factor`` on access: a ladder may hold 10^9 dividers, which must not become a list."""
+
+    def __init__(self, values: Sequence[int], factor: Fraction) -> None:
+        self.values = values
+        self.factor = factor
+
+    def __len__(self) -> int:
+        return len(self.values)
+
+    def __getitem__(self, index):  # type: ignore[override]
+        if isinstance(index, slice):
+            return [v * self.factor for v in self.values[index]]
+        return self.values[index] * self.factor
+
+
 def _build_output(spec: OutputSpec, vlo: Fraction, vhi: Fraction, limits: SearchLimits, notes: list[str]) -> _Output:
     hz = [t.hz for t in spec.targets]
     t_lo, t_hi = min(hz), max(hz)
@@ -189,11 +206,21 @@ def _build_output(spec: OutputSpec, vlo: Fraction, vhi: Fraction, limits: Search
     hi = ceil_fraction(vhi / smallest)
     if len(spec.chain) == 1:
         ladder = ladder_of(spec.chain[0], lo, hi)
+        if len(ladder.values) > limits.max_ladder:
+            # A range of 10^9 dividers (a 1 Hz output of a GHz VCO) cannot be swept whole:
+            # an even subset of the allowed values keeps the search bounded and honest.
+            total = len(ladder.values)
+            stride = -(-total // limits.max_ladder)
+            ladder = Ladder(ladder.values[::stride], truncated=True)
+            notes.append(
+                f"output {spec.name}: {total} divider values are too many to search; every "
+                f"{stride}th was tried, so the plan is the best found, not proven optimal"
+            )
     else:
         ladder = product_ladder(spec.chain, max(1, lo // 2), 2 * hi + 2, limits.max_ladder)
         if ladder.truncated:
             notes.append(f"output {spec.name}: only the first {limits.max_ladder} divider products were searched")
-    bottoms = [d * center for d in ladder.values]
+    bottoms = _Scaled(ladder.values, center)
     return _Output(spec, t_lo, t_hi, center, window_lo, window_hi, ladder, bottoms, float(center), float(t_lo), float(t_hi))
 
 
@@ -216,7 +243,7 @@ class _RGrid:
         return self.pfd * self.n_hi
 
 
-def _r_grids(problem: PllProblem) -> list[_RGrid]:
+def _r_grids(problem: PllProblem, limits: SearchLimits | None = None, notes: list[str] | None = None) -> list[_RGrid]:
     pll, f_in = problem.pll, problem.input_hz
     # R must put the PFD in range and let some N in range reach the VCO range:
     # f_in * n_min / R <= vco_hi and f_in * n_max / R >= vco_lo.
@@ -227,6 +254,12 @@ def _r_grids(problem: PllProblem) -> list[_RGrid]:
         values = [problem.r_pin] if problem.r_pin in pll.ref_divider and lo <= problem.r_pin <= hi else []
     else:
         values = ladder_of(pll.ref_divider, max(lo, 1), hi).between(max(lo, 1), hi)
+        cap = (limits or SearchLimits()).max_r_values
+        if len(values) > cap:
+            # Smallest R first: the highest PFD frequencies (common practice for low in-band noise).
+            if notes is not None:
+                notes.append(f"{pll.id}: only the {cap} smallest of {len(values)} allowed R values were searched")
+            values = values[:cap]
     grids = []
     for r in values:
         pfd = f_in / r
@@ -274,7 +307,7 @@ class _Solver:
         self.pll = problem.pll
         self.limits = limits
         self.notes: list[str] = []
-        self.grids = _r_grids(problem)
+        self.grids = _r_grids(problem, limits, self.notes)
         self.evaluated = 0
         self.found: dict[tuple[int, Fraction], PllCandidate] = {}
         self._exact_settled = False
@@ -460,7 +493,9 @@ class _Solver:
         points: set[Fraction] = {self.vlo, self.vhi}
         points |= {g.vco_lo for g in self.grids} | {g.vco_hi for g in self.grids}
         for out in self.outputs:
-            for d in out.ladder.values:
+            for index, d in enumerate(out.ladder.values):
+                if index % 1024 == 1023 and self._out_of_time():
+                    break
                 for edge in (d * out.center, d * out.window_lo, d * out.window_hi):
                     if self.vlo <= edge <= self.vhi:
                         points.add(edge)
@@ -486,7 +521,9 @@ class _Solver:
         found = []
         # Per output: how many bottoms lie at or below p (advanced as p moves right).
         below = [bisect.bisect_right(out.bottoms, boundaries[0]) for out in self.outputs] if boundaries else []
-        for p, q in zip(boundaries, boundaries[1:]):
+        for index, (p, q) in enumerate(zip(boundaries, boundaries[1:])):
+            if index % 1024 == 1023 and self._out_of_time():
+                break
             lines = []  # per output: (B or None, A or None), exact
             for k, out in enumerate(self.outputs):
                 while below[k] < len(out.bottoms) and out.bottoms[below[k]] <= p:

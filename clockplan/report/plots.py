@@ -43,6 +43,7 @@ __all__ = [
     "ErrorDistribution",
     "PlotData",
     "INSTALL_HINT",
+    "MAX_PANELS",
     "matplotlib_available",
     "collect_plot_data",
     "phase_noise_figure",
@@ -56,6 +57,9 @@ __all__ = [
 INSTALL_HINT = "install the plotting extra: pip install 'clockplan[plots]' (it brings matplotlib)"
 
 _PANEL_SIZE = (5.6, 3.4)
+#: Panels drawn per figure at most: a board with hundreds of consumers would otherwise
+#: take minutes to lay out and give an image nobody can read.
+MAX_PANELS = 24
 _BUDGET_STYLE = {"color": "#c62828", "linestyle": "--", "linewidth": 1.2}
 
 
@@ -176,6 +180,9 @@ def _require_matplotlib() -> None:
 def _grid(count: int, title: str) -> tuple["Figure", list[Any]]:
     from matplotlib.figure import Figure
 
+    if count > MAX_PANELS:
+        title += f" (the first {MAX_PANELS} of {count} consumers)"
+        count = MAX_PANELS
     columns = 1 if count == 1 else 2
     rows = math.ceil(count / columns)
     figure = Figure(figsize=(_PANEL_SIZE[0] * columns, _PANEL_SIZE[1] * rows + 0.6), layout="constrained")

@@ -192,7 +192,7 @@ def print_summary(summary: Summary, console: "Console", title: str = "audit") ->
         for line in summary.margin_lines:
             console.print(f"  {escape(line)}")
     else:
-        console.print(f"worst margins: {summary.margin_lines[0]}")
+        console.print(f"worst margins: {escape(summary.margin_lines[0])}")
     console.print(f"verdict: {_styled(summary.verdict)} - {summary.counts}")
 
 

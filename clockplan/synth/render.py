@@ -127,7 +127,9 @@ def render_synthesis(result: "SynthesisResult", console: "Console") -> None:
     if best is not None:
         render_analysis(best.verified.analysis, console, title="synthesize: tree 1 (best)")
     else:
-        console.print(f"[bold]clockplan synthesize[/]: {spec.name}{where}")
+        from rich.markup import escape
+
+        console.print(f"[bold]clockplan synthesize[/]: {escape(spec.name)}{escape(where)}")
         console.print("[bold red]NO TREE MEETS EVERY BUDGET[/] with the allowed parts")
     if result.trees or result.failing:
         console.print(comparison_table(result))

@@ -24,6 +24,7 @@ from dataclasses import dataclass, field
 from fractions import Fraction
 from pathlib import Path
 
+from clockplan.errors import BoardError
 from clockplan.synth.evaluate import Evaluator, Verified, verify_tree
 from clockplan.synth.explain import EXPLAIN_SECONDS, Explanation, explain
 from clockplan.synth.grouping import BranchAndBound, Candidate, LeafJudge, SearchStats, TopTrees, exhaustive_search
@@ -31,7 +32,7 @@ from clockplan.synth.input import ConsumerList
 from clockplan.synth.library import PartsLibrary, default_library, load_library
 from clockplan.synth.tree import MainReference, Problem
 
-__all__ = ["SynthesisOptions", "ProposedTree", "SynthesisResult", "synthesize", "library_for"]
+__all__ = ["SynthesisOptions", "ProposedTree", "SynthesisResult", "synthesize", "library_for", "board_named_path"]
 
 #: Trees kept beyond those shown, in case some fail verification through their board file.
 _SPARE_TREES = 1
@@ -101,18 +102,24 @@ class SynthesisResult:
         return self.trees[0] if self.trees else None
 
 
-def library_for(spec: ConsumerList, extra: str | None = None) -> PartsLibrary:
+def library_for(spec: ConsumerList, extra: str | None = None, allow_outside: bool = False) -> PartsLibrary:
     """The shipped library, plus the board's ``[synthesis] library`` and ``extra`` files, restricted by ``allow``.
 
     A relative ``[synthesis] library`` path is taken from the board file's folder.
+    A board file is data: the path it names must stay inside the board file's
+    folder (after following links), unless ``allow_outside`` (the command line's
+    ``--allow-outside-paths``) says otherwise. ``extra`` is the user's own
+    command-line choice and may be anywhere.
+
+    Raises
+    ------
+    BoardError
+        The board's library path leads outside the board file's folder.
     """
     library = default_library()
     paths = []
     if spec.settings.library:
-        path = Path(spec.settings.library)
-        if not path.is_absolute() and spec.source_file:
-            path = Path(spec.source_file).parent / path
-        paths.append(path)
+        paths.append(board_named_path(spec.settings.library, spec.source_file, "synthesis.library", allow_outside))
     if extra:
         paths.append(Path(extra))
     for path in paths:
@@ -120,6 +127,32 @@ def library_for(spec: ConsumerList, extra: str | None = None) -> PartsLibrary:
     if spec.settings.allow is not None:
         library = library.restricted(spec.settings.allow, file=spec.source_file)
     return library
+
+
+def board_named_path(text: str, board_file: str | None, key: str, allow_outside: bool = False) -> Path:
+    """The path a board file names, taken from the board file's folder and kept inside it.
+
+    Examples
+    --------
+    >>> board_named_path("parts.toml", "boards/a.toml", "synthesis.library")
+    PosixPath('boards/parts.toml')
+    """
+    path = Path(text)
+    folder = Path(board_file).parent if board_file else Path(".")
+    if not path.is_absolute():
+        path = folder / path
+    if allow_outside:
+        return path
+    inside = path.resolve().is_relative_to(folder.resolve())
+    if not inside:
+        raise BoardError(
+            f"the path {text!r} leads outside the board file's folder",
+            file=board_file,
+            key=key,
+            hint="put the file beside the board file, or allow it: --allow-outside-paths "
+            "(or give it on the command line with --library)",
+        )
+    return path
 
 
 def _frequencies(problem: Problem, references: dict[Fraction, list[MainReference]]) -> list[Fraction | None]:
