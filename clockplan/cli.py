@@ -30,7 +30,8 @@ DEBUG_ENV = "CLOCKPLAN_DEBUG"
 
 _EPILOG = """exit status: 0 no error finding, 1 error findings (budget broken or constraint
 violated), 2 bad input or usage, 3 no feasible plan, 4 internal error (a bug;
-CLOCKPLAN_DEBUG=1 shows its traceback).
+CLOCKPLAN_DEBUG=1 shows its traceback), 130 interrupted (a file being written
+keeps its old content).
 Budgets are planning estimates: the part datasheets and the governing standard decide."""
 
 
@@ -46,10 +47,15 @@ class _Parser(argparse.ArgumentParser):
         return EXIT_INPUT
 
 
-def _add_output_options(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("--json", action="store_true", help="write the JSON document (docs/json-output.md) to stdout")
+def _add_display_options(parser: argparse.ArgumentParser) -> None:
+    """--width and --no-color, which every command that prints tables takes."""
     parser.add_argument("--width", type=int, default=None, help="terminal width for the tables")
     parser.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
+
+
+def _add_output_options(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("--json", action="store_true", help="write the JSON document (docs/json-output.md) to stdout")
+    _add_display_options(parser)
     _add_report_options(parser)
 
 
@@ -139,8 +145,7 @@ def _build_parser() -> argparse.ArgumentParser:
         "or show one entry in detail. A word that is not a key filters the list.",
     )
     standards.add_argument("key", nargs="?", help="a key or alias for its detail; any other word filters the list")
-    standards.add_argument("--width", type=int, default=None, help="terminal width for the tables")
-    standards.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
+    _add_display_options(standards)
     standards.set_defaults(run=_run_standards)
     _add_loop_command(commands)
     _add_report_commands(commands)
@@ -278,8 +283,7 @@ def _add_report_commands(commands) -> None:
     explain.add_argument("consumer", help="the consumer's id")
     explain.add_argument("--format", choices=("table", "json", "markdown"), default=None, help="default: table")
     explain.add_argument("--output", "-o", metavar="FILE", default=None, help="write to FILE instead of stdout")
-    explain.add_argument("--width", type=int, default=None, help="terminal width for the tables")
-    explain.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
+    _add_display_options(explain)
     _add_budget_options(explain)
     explain.set_defaults(run=_run_explain, json=False)
 
@@ -450,8 +454,7 @@ def _add_loop_command(commands) -> None:
     loop.add_argument("board", help="board file (TOML)")
     loop.add_argument("pll", help="the PLL's id")
     loop.add_argument("--json", action="store_true", help="write the filter as a JSON document to stdout")
-    loop.add_argument("--width", type=int, default=None, help="terminal width for the tables")
-    loop.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
+    _add_display_options(loop)
     loop.set_defaults(run=_run_loop)
 
 
@@ -499,8 +502,7 @@ def _add_synthesize_command(commands) -> None:
     synthesize.add_argument("--time-limit", type=_seconds, default=None, metavar="S",
                             help="search budget in seconds (default: the board's [synthesis] time_limit, else 30)")
     synthesize.add_argument("--json", action="store_true", help="write the synthesis JSON document (docs/synthesis.md) to stdout")
-    synthesize.add_argument("--width", type=int, default=None, help="terminal width for the tables")
-    synthesize.add_argument("--no-color", action="store_true", help="plain text without colour (also: NO_COLOR=1)")
+    _add_display_options(synthesize)
     synthesize.set_defaults(run=_run_synthesize)
 
 
