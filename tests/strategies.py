@@ -16,13 +16,14 @@ Every board is invented test data.
 
 from __future__ import annotations
 
-import math
 import random
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Any, Protocol, TypeVar
 
 from hypothesis import strategies as st
+
+from clockplan.tomlwrite import toml_key, toml_value
 
 __all__ = [
     "Picker",
@@ -99,44 +100,23 @@ class FuzzCase:
 # --------------------------------------------------------------------------- TOML writing
 
 
+def _scalar_values(value: Any) -> Any:
+    """``value`` with lone surrogates (which no UTF-8 file can hold) replaced by '?'."""
+    if isinstance(value, str):
+        return "".join("?" if 0xD800 <= ord(char) <= 0xDFFF else char for char in value)
+    if isinstance(value, list):
+        return [_scalar_values(v) for v in value]
+    if isinstance(value, dict):
+        return {_scalar_values(k): _scalar_values(v) for k, v in value.items()}
+    return value
+
+
 def _key(name: str) -> str:
-    if name and all(c.isascii() and (c.isalnum() or c in "_-") for c in name):
-        return name
-    return _string(name)
-
-
-def _string(text: str) -> str:
-    out = []
-    for char in text:
-        if char in '"\\':
-            out.append("\\" + char)
-        elif ord(char) < 0x20 or ord(char) == 0x7F:
-            out.append(f"\\u{ord(char):04x}")
-        elif 0xD800 <= ord(char) <= 0xDFFF:
-            out.append("?")
-        else:
-            out.append(char)
-    return '"' + "".join(out) + '"'
+    return toml_key(_scalar_values(name))
 
 
 def _value(value: Any) -> str:
-    if isinstance(value, bool):
-        return "true" if value else "false"
-    if isinstance(value, int):
-        return str(value)
-    if isinstance(value, float):
-        if math.isnan(value):
-            return "nan"
-        if math.isinf(value):
-            return "inf" if value > 0 else "-inf"
-        return repr(value)
-    if isinstance(value, str):
-        return _string(value)
-    if isinstance(value, list):
-        return "[" + ", ".join(_value(v) for v in value) + "]"
-    if isinstance(value, dict):
-        return "{ " + ", ".join(f"{_key(k)} = {_value(v)}" for k, v in value.items()) + " }"
-    raise TypeError(f"cannot write {type(value).__name__} as TOML")
+    return toml_value(_scalar_values(value))
 
 
 def to_toml(doc: dict[str, Any]) -> str:

@@ -15,7 +15,7 @@ MODULES = [
     "clockplan.synth.layout",
     "clockplan.synth.objective",
     "clockplan.synth.tree",
-    "clockplan.synth.tomltext",
+    "clockplan.tomlwrite",
     "clockplan.synth.build",
 ]
 

@@ -21,7 +21,7 @@ from typing import Any
 from clockplan.parts import Board
 from clockplan.synth.layout import Fan
 from clockplan.synth.library import TYPICAL_NOTE, BufferTemplate, DividerTemplate, OscillatorTemplate, PllTemplate
-from clockplan.synth.tomltext import toml_table, toml_value
+from clockplan.tomlwrite import toml_table, toml_value
 from clockplan.synth.tree import Block, MainReference, Problem, Tree, short_frequency
 from clockplan.units import format_frequency
 

@@ -9,7 +9,7 @@ practice; a user library file adds templates or replaces shipped ones of the
 same name, and a board may restrict which templates are allowed.
 
 Templates keep the raw TOML values they were read from, so that a synthesized
-board is written with the same text (``clockplan.synth.tomltext``).
+board is written with the same text (``clockplan.tomlwrite``).
 """
 
 from __future__ import annotations

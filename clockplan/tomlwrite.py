@@ -1,5 +1,8 @@
 """A small TOML writer for whole new board files: values and array-of-tables entries.
 
+The counterpart of :mod:`clockplan.tomlread`; the tree synthesis writes its
+boards with it, and the fuzz strategies their generated boards.
+
 Values are the raw TOML values a template or a consumer table was read from
 (strings, numbers, booleans, arrays, inline tables), written back so that
 reading the text gives the same values. Keys that are not bare TOML keys are
@@ -8,13 +11,12 @@ quoted.
 
 from __future__ import annotations
 
-import json
 import math
 import re
 from collections.abc import Iterable, Mapping
 from typing import Any
 
-__all__ = ["toml_key", "toml_value", "toml_table"]
+__all__ = ["toml_key", "toml_string", "toml_value", "toml_table"]
 
 _BARE = re.compile(r"^[A-Za-z0-9_\-]+$")
 
@@ -27,7 +29,32 @@ def toml_key(key: str) -> str:
     >>> toml_key("vco"), toml_key("a.b")
     ('vco', '"a.b"')
     """
-    return key if _BARE.match(key) else json.dumps(key, ensure_ascii=False)
+    return key if _BARE.match(key) else toml_string(key)
+
+
+_SHORT_ESCAPES = {'"': '\\"', "\\": "\\\\", "\b": "\\b", "\t": "\\t", "\n": "\\n", "\f": "\\f", "\r": "\\r"}
+
+
+def toml_string(text: str) -> str:
+    """A TOML basic string: quotes, backslashes and every control character escaped.
+
+    TOML forbids raw control characters other than tab in basic strings,
+    DEL (U+007F) included, which a JSON encoder would leave raw.
+
+    Examples
+    --------
+    >>> print(toml_string('a "b"\\tc\\x7f'))
+    "a \\"b\\"\\tc\\u007F"
+    """
+    out = []
+    for char in text:
+        if char in _SHORT_ESCAPES:
+            out.append(_SHORT_ESCAPES[char])
+        elif ord(char) < 0x20 or ord(char) == 0x7F:
+            out.append(f"\\u{ord(char):04X}")
+        else:
+            out.append(char)
+    return '"' + "".join(out) + '"'
 
 
 def toml_value(value: Any) -> str:
@@ -51,8 +78,7 @@ def toml_value(value: Any) -> str:
             return "inf" if value > 0 else "-inf"
         return repr(value)
     if isinstance(value, str):
-        # JSON string escapes are valid TOML basic-string escapes.
-        return json.dumps(value, ensure_ascii=False)
+        return toml_string(value)
     if isinstance(value, Mapping):
         inner = ", ".join(f"{toml_key(k)} = {toml_value(v)}" for k, v in value.items())
         return "{ " + inner + " }" if inner else "{}"
