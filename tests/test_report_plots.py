@@ -22,6 +22,7 @@ from clockplan.report.plots import (
     collect_plot_data,
     distribution_figure,
     figure_png,
+    histogram_edges,
     phase_noise_figure,
     plot_images,
     temperature_figure,
@@ -95,6 +96,23 @@ def test_distribution_reports_the_share_inside_the_budget():
     figure = distribution_figure([ErrorDistribution("phy0", samples, budget)])
     expected = numpy.mean((samples >= budget[0]) & (samples <= budget[1])) * 100  # numpy as the reference
     assert figure.axes[0].get_title() == f"phy0: {expected:.4g} % inside the budget"
+    assert png_facts(figure_png(figure))[2] > 16
+
+
+def test_histogram_edges_match_numpy_and_survive_float_resolution():
+    numpy = pytest.importorskip("numpy")
+    # Ordinary spread: the same 60 equal bins numpy.histogram_bin_edges gives (numpy as the reference).
+    spread = numpy.random.default_rng(3).normal(5.0, 2.0, 1000)
+    assert histogram_edges(list(spread)) == pytest.approx(list(numpy.histogram_bin_edges(spread, bins=60)), abs=1e-12)
+    # A tight cluster far from zero (found by the fuzz campaign: matplotlib raised "Too many bins
+    # for data range"): numpy cannot bin it, our edges stay distinct and the figure draws.
+    tight = [1e6 + k * 1e-10 for k in range(50)]
+    with pytest.raises(ValueError, match="Too many bins"):
+        numpy.histogram_bin_edges(tight, bins=60)
+    edges = histogram_edges(tight)
+    assert len(edges) == 61 and all(a < b for a, b in zip(edges, edges[1:]))
+    assert edges[0] <= min(tight) and max(tight) <= edges[-1]
+    figure = distribution_figure([ErrorDistribution("tight", [v * 1e-6 for v in tight], (-1.0, 1.0))])
     assert png_facts(figure_png(figure))[2] > 16
 
 

@@ -49,6 +49,7 @@ __all__ = [
     "phase_noise_figure",
     "temperature_figure",
     "distribution_figure",
+    "histogram_edges",
     "figure_png",
     "plot_images",
     "write_plots",
@@ -280,7 +281,7 @@ def distribution_figure(traces: Sequence[ErrorDistribution]) -> "Figure":
         ppm = [float(e) * 1e6 for e in trace.errors]
         low, high = (float(b) * 1e6 for b in trace.budget)
         inside = sum(low <= value <= high for value in ppm) / len(ppm) if ppm else float("nan")
-        ax.hist(ppm, bins=60, color="#6a1b9a", alpha=0.75, label=f"{len(ppm)} samples")
+        ax.hist(ppm, bins=histogram_edges(ppm), color="#6a1b9a", alpha=0.75, label=f"{len(ppm)} samples")
         _budget_lines(ax, trace.budget, horizontal=False)
         ax.set_title(_titled(f"{trace.consumer}: {inside * 100:.4g} % inside the budget", trace.note), fontsize=10)
         ax.set_xlabel("error (ppm)")
@@ -288,6 +289,30 @@ def distribution_figure(traces: Sequence[ErrorDistribution]) -> "Figure":
         ax.grid(True, alpha=0.3)
         ax.legend(fontsize=8, loc="best")
     return figure
+
+
+def histogram_edges(values: Sequence[float], wanted: int = 60) -> list[float]:
+    """``wanted`` + 1 bin edges spanning ``values``, never narrower than float resolution allows.
+
+    Samples that agree to the last few bits (a large offset with a tiny spread)
+    would leave no room for distinct edges; the span is then widened about its
+    centre to the least one that holds ``wanted`` bins. Non-finite values are
+    left out of the span.
+
+    Examples
+    --------
+    >>> edges = histogram_edges([1e6, 1e6 + 1e-10], wanted=4)
+    >>> len(edges), len(set(edges))
+    (5, 5)
+    """
+    finite = [v for v in values if math.isfinite(v)] or [0.0]
+    low, high = min(finite), max(finite)
+    least = 64.0 * wanted * math.ulp(max(abs(low), abs(high), 1.0))
+    if high - low < least:
+        centre = low / 2 + high / 2
+        low, high = centre - least / 2, centre + least / 2
+    step = (high - low) / wanted
+    return [low + step * index for index in range(wanted)] + [high]
 
 
 def figure_png(figure: "Figure", dpi: int = 110) -> bytes:
