@@ -226,7 +226,7 @@ def _next_tree(best: Candidate, runner_up: Candidate | None) -> str | None:
     cost = runner_up.cost.cost - best.cost.cost
     margin = ""
     if runner_up.margin is not None and best.margin is not None:
-        margin = f", worst margin {runner_up.margin:.0%} against {best.margin:.0%}"
+        margin = f", worst margin {runner_up.margin * 100:.0f} % against {best.margin * 100:.0f} %"
     if (parts, power, cost) == (0, 0, 0):
         return f"The next tree costs the same ({best.cost.parts} parts){margin}."
     return (
