@@ -136,13 +136,10 @@ def atomic_write_bytes(path: str | Path, data: bytes) -> None:
         temp = _write_temporary(folder, target.name, data, mode)
         os.replace(temp, target)
     except OSError as err:
-        if temp is not None:
-            temp.unlink(missing_ok=True)
         raise _cannot_write(shown, err) from err
-    except BaseException:
+    finally:  # gone after a rename; left behind by a failed or interrupted one
         if temp is not None:
             temp.unlink(missing_ok=True)
-        raise
 
 
 def atomic_write_text(path: str | Path, text: str) -> None:

@@ -50,6 +50,10 @@ MAX_FREQUENCY = Fraction(10**12)
 #: The largest frequency error read: ±100 % (an error of -100 % is 0 Hz).
 MAX_FREQUENCY_ERROR = Fraction(1)
 
+#: Numerators and denominators stay below 2^8192 (about 2466 digits): "(2^4096)^4096"
+#: would otherwise eat the memory, and Python refuses to print integers past 4300 digits.
+_MAX_BITS = 8192
+
 _PREFIXES: dict[str, Fraction] = {
     "a": Fraction(1, 10**18),
     "f": Fraction(1, 10**15),
@@ -103,9 +107,6 @@ class _ExpressionParser:
     """
 
     _MAX_EXPONENT = 4096  # keeps "2^99999999" from hanging the tool
-    #: Numerator and denominator stay below 2^8192 (about 2466 digits): "(2^4096)^4096"
-    #: would otherwise eat the memory, and Python refuses to print integers past 4300 digits.
-    _MAX_BITS = 8192
 
     def __init__(self, text: str) -> None:
         self.text = text
@@ -189,13 +190,13 @@ class _ExpressionParser:
             if base == 0 and exponent < 0:
                 raise UnitError(f"zero to a negative power in {self.text!r}", hint="check the expression")
             bits = max(base.numerator.bit_length(), base.denominator.bit_length()) * abs(int(exponent))
-            if bits > self._MAX_BITS:
+            if bits > _MAX_BITS:
                 raise self._too_large()
             return base ** int(exponent)
         return base
 
     def _bounded(self, value: Fraction) -> Fraction:
-        if max(value.numerator.bit_length(), value.denominator.bit_length()) > self._MAX_BITS:
+        if max(value.numerator.bit_length(), value.denominator.bit_length()) > _MAX_BITS:
             raise self._too_large()
         return value
 
@@ -255,7 +256,7 @@ def parse_number(value: object) -> Fraction:
     if isinstance(value, bool):
         raise UnitError(f"expected a number, got {value!r}", hint="write a number, not true/false")
     if isinstance(value, int):
-        if value.bit_length() > _ExpressionParser._MAX_BITS:
+        if value.bit_length() > _MAX_BITS:
             raise UnitError(f"a number of {value.bit_length()} bits is too large to work with", hint="check the value")
         return Fraction(value)
     if isinstance(value, float):

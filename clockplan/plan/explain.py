@@ -219,7 +219,8 @@ def explain_infeasible(plan: "BoardPlan", time_limit_s: float = 10.0) -> Explana
         explanation.conflicts.append(Conflict(
             (), "time-limit", "the explanation stopped at its time limit: the blocking constraints named may be "
             "incomplete; raise --time-limit"))
-    for cid in sorted(missing - explained) if not budget.ran_out else ():  # unexamined is not unreachable
+        return explanation  # a consumer left unexamined is not shown unreachable
+    for cid in sorted(missing - explained):
         explanation.conflicts.append(
             Conflict((cid,), "unreachable", f"{cid}: no setting upstream makes its frequency within ±{format_ppm(tolerances[cid]).lstrip('+')}")
         )

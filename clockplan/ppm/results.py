@@ -17,7 +17,7 @@ from dataclasses import dataclass, field
 from fractions import Fraction
 from typing import TYPE_CHECKING, Any, NamedTuple
 
-from clockplan.ppm.accuracy import AccuracyResult, ConsumerBudget, Contribution
+from clockplan.ppm.accuracy import AccuracyResult, ConsumerBudget, Contribution, compose
 from clockplan.ppm.aging import SECONDS_PER_YEAR
 from clockplan.ppm.display import format_error, format_limits
 from clockplan.ppm.grades import Grade, GradeAdvice
@@ -149,11 +149,6 @@ class SampledErrors(NamedTuple):
     note: str = ""
 
 
-def _composed(a: "np.ndarray | float", b: float) -> "np.ndarray | float":
-    """``(1 + a)(1 + b) - 1`` for floats and arrays (the cascade rule of :func:`compose`)."""
-    return a + b + a * b
-
-
 @dataclass(frozen=True)
 class ConsumerAccuracy:
     """Frequency error of one consumer on the board, with its budget verdict.
@@ -269,9 +264,9 @@ class ConsumerAccuracy:
         high_t = float(temperature.high) if band else drift
         synthesis = float(r.synthesis_error)
         sweep_low, sweep_high, sweep_mean = (float(x) for x in self._checked_sweep())
-        errors = _composed(_composed(drift + centre_rest, synthesis), sweep_mean)
-        low = _composed(_composed(low_t + low_rest, synthesis), sweep_low) + np.zeros_like(temps)
-        high = _composed(_composed(high_t + high_rest, synthesis), sweep_high) + np.zeros_like(temps)
+        errors = compose(compose(drift + centre_rest, synthesis), sweep_mean)
+        low = compose(compose(low_t + low_rest, synthesis), sweep_low) + np.zeros_like(temps)
+        high = compose(compose(high_t + high_rest, synthesis), sweep_high) + np.zeros_like(temps)
         notes = []
         if band:
             notes.append("stability band: its edges are shown, no curve")
@@ -297,7 +292,7 @@ class ConsumerAccuracy:
         if sweep_low or sweep_high:
             low, high = (1 + low) / (1 + sweep_low) - 1, (1 + high) / (1 + sweep_high) - 1
             note = "; ".join(filter(None, (note, "budget narrowed by the spread sweep, which counts as error")))
-        return SampledErrors(_composed(samples, synthesis), (float(low), float(high)), note)
+        return SampledErrors(compose(samples, synthesis), (float(low), float(high)), note)
 
 
     def contributions(self) -> list[tuple[str, Number | str]]:

@@ -339,9 +339,11 @@ def settings_table(analysis: Analysis) -> TextTable | None:
 
 
 def operating_mode(pll: Any, setting: Any) -> str:
-    """``"frac-N"`` when the set N has a fraction, else ``"int-N"``; a fractional part run at a
-    whole N works as integer-N (its modulator idle, no fractional spurs), so it reads int-N too.
-    Unset, the part's own mode."""
+    """How a PLL runs with ``setting``: ``"frac-N"`` when N has a fraction, else ``"int-N"``.
+
+    A fractional part at a whole N works as integer-N (its modulator idle, no
+    fractional spurs), so it reads int-N too. Without a setting, the part's own mode.
+    """
     if setting is None:
         return "frac-N" if pll.mode == "fractional" else "int-N"
     return "frac-N" if Fraction(setting.n).denominator != 1 else "int-N"
