@@ -137,6 +137,16 @@ def naive_yield(references, consumers, samples: int, seed: int, temperature=TEMP
     return [p / samples for p in passed]
 
 
+def _best_over_seeds(run, repeat: int):
+    """The shortest time of ``run(seed)`` over seeds ``0 .. repeat-1``, and the last run's result."""
+    best, result = float("inf"), None
+    for seed in range(max(1, repeat)):
+        start = time.perf_counter()
+        result = run(seed)
+        best = min(best, time.perf_counter() - start)
+    return best, result
+
+
 def demo_settings(board):
     """The board's own settings, or the planner's when some are left open (edge-router is a planning demo)."""
     from clockplan.analysis import analyze
@@ -178,21 +188,14 @@ def bench_demo_board(samples: int, naive_samples: int, repeat: int, verbose: boo
         f"({len(chains)} with a budget), {board.temperature_c[0]:g}..{board.temperature_c[1]:g} °C, "
         f"{board.lifetime_s / SECONDS_PER_YEAR:g} years")
 
-    timings = []
-    for seed in range(repeat):
-        start = time.perf_counter()
-        result = monte_carlo_yield(specs, chains, board.temperature_c, board.lifetime_s, samples=samples, seed=seed)
-        timings.append(time.perf_counter() - start)
-    best = min(timings)
+    best, result = _best_over_seeds(
+        lambda seed: monte_carlo_yield(specs, chains, board.temperature_c, board.lifetime_s, samples=samples, seed=seed),
+        repeat)
     say(f"monte carlo: {samples:>9,} boards in {best:.3f} s (best of {repeat}) -> {samples / best:,.0f} boards/s; "
         f"board yield {result.board_yield:.4f}")
 
-    timings = []
-    for seed in range(repeat):
-        start = time.perf_counter()
-        analyze(load_board(path), settings, options=AnalysisOptions(samples=samples, seed=seed))
-        timings.append(time.perf_counter() - start)
-    pipeline = min(timings)
+    pipeline, _ = _best_over_seeds(
+        lambda seed: analyze(load_board(path), settings, options=AnalysisOptions(samples=samples, seed=seed)), repeat)
     say(f"whole audit: {samples:>9,} boards in {pipeline:.3f} s (load, exact audit, stage, Monte Carlo)")
 
     start = time.perf_counter()
@@ -220,12 +223,8 @@ def bench_synthetic(samples: int, naive_samples: int, repeat: int, verbose: bool
     references, consumers = synthetic_board()
     say(f"synthetic board: {len(references)} references, {len(consumers)} consumers")
 
-    timings = []
-    for seed in range(repeat):
-        start = time.perf_counter()
-        result = monte_carlo_yield(references, consumers, TEMPERATURE, LIFETIME, samples=samples, seed=seed)
-        timings.append(time.perf_counter() - start)
-    best = min(timings)
+    best, result = _best_over_seeds(
+        lambda seed: monte_carlo_yield(references, consumers, TEMPERATURE, LIFETIME, samples=samples, seed=seed), repeat)
     vector_rate = samples / best
     say(f"vectorized : {samples:>9,} boards in {best:.3f} s (best of {repeat}) "
         f"-> {vector_rate:,.0f} boards/s; board yield {result.board_yield:.4f}")
