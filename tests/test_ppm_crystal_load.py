@@ -6,7 +6,7 @@ from fractions import Fraction
 import pytest
 from scipy.optimize import brentq
 
-from clockplan.errors import BoardError, ClockplanError
+from clockplan.errors import BoardError
 from clockplan.ppm.crystal_load import (
     CrystalLoad,
     load_resonance_offset,
