@@ -385,3 +385,12 @@ def test_the_demo_gateway_spreads_only_its_pcie_output():
     assert analysis.consumer("pcie_slot").accuracy.spread is not None
     assert all(analysis.consumer(c).accuracy.spread is None for c in ("phy0", "usb_phy", "ddr_ref", "uart_clk"))
     assert not any(f.code == "spread-not-allowed" for f in analysis.findings)
+
+
+def test_the_json_names_where_the_spread_is_made():
+    from clockplan.report.json import analysis_document
+
+    doc = analysis_document(_audit(LOOP_SPREAD))
+    phy = next(c for c in doc["consumers"] if c["id"] == "phy")
+    assert phy["ppm_spread"]["source"] == "synth" and phy["ppm_spread"]["key"] == "pll[0].spread"
+    assert phy["ppm_spread"]["within_allowance"] is False

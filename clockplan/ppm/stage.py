@@ -92,6 +92,8 @@ def _accuracy(model: ReferenceModel, link: ConsumerLink, analysis: "Analysis") -
         budget=link.budget,
         budget_source=link.budget_source,
         spread=link.spread,
+        spread_source=link.spread_source.part if link.spread_source else None,
+        spread_key=link.spread_source.key if link.spread_source else None,
         temperature_range=board.temperature_c,
         lifetime_s=board.lifetime_s,
         required_margin=DEFAULT_MARGIN * budget.half_width,
