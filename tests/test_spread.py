@@ -394,3 +394,22 @@ def test_the_json_names_where_the_spread_is_made():
     phy = next(c for c in doc["consumers"] if c["id"] == "phy")
     assert phy["ppm_spread"]["source"] == "synth" and phy["ppm_spread"]["key"] == "pll[0].spread"
     assert phy["ppm_spread"]["within_allowance"] is False
+
+
+def _through(text: str):
+    return next(f for f in _audit(text).findings if f.code == "spread-through-pll" and f.node == "far")
+
+
+def test_a_spread_through_a_pll_says_its_sweep_is_passed_whole_and_warns_of_peaking():
+    narrow = _through(LOOP_SPREAD + CASCADE)
+    assert narrow.severity.value == "info" and "through cleaner" in narrow.message and "|H|" not in narrow.message
+    wide_text = LOOP_SPREAD + CASCADE.replace('bandwidth = "1 kHz"', 'bandwidth = "300 kHz"')
+    wide = _through(wide_text)
+    # The loop's own |H| at 31.5 kHz, from scipy.signal.freqs on its closed-loop polynomials.
+    loop = _audit(wide_text).board.part("cleaner").loop
+    _, response = signal.freqs(loop.closed_num, loop.closed_den, worN=[2 * np.pi * 31.5e3])
+    assert abs(response[0]) > 1 and wide.severity.value == "warning"
+    assert f"cleaner |H| = {abs(response[0]):.3f}" in wide.message and "not added" in wide.message
+    unknown = _through(LOOP_SPREAD + CASCADE.replace('loop = { bandwidth = "1 kHz", damping = 0.707 }\n', ""))
+    assert unknown.severity.value == "warning" and "not known" in unknown.message
+    assert not any(f.code == "spread-through-pll" for f in _audit(LOOP_SPREAD).findings)

@@ -48,6 +48,7 @@ from clockplan.spreading import spread_allowance
 
 if TYPE_CHECKING:
     from clockplan.analysis import Analysis, AnalysisOptions
+    from clockplan.parts import Board
     from clockplan.standards.model import StandardBudget
 
 __all__ = ["STAGE_NAME", "KEPT_SAMPLES", "accuracy_stage"]
@@ -328,6 +329,34 @@ def _spread_not_allowed(link: ConsumerLink, budget: "StandardBudget") -> Finding
     )
 
 
+def _through_pll(link: ConsumerLink, board: "Board") -> Finding | None:
+    """A spread that reaches the consumer through PLLs: its sweep is passed whole; say what that leaves out."""
+    source = link.spread_source
+    if source is None or not source.through or source.spread.modulation_hz is None:
+        return None
+    rate = float(source.spread.modulation_hz)
+    gains, unknown = [], []
+    for pll_id in source.through:
+        loop = board.part(pll_id).loop
+        if loop is None:
+            unknown.append(pll_id)
+        else:
+            gains.append((pll_id, float(loop.closed_loop_power([rate])[0]) ** 0.5))
+    peaking = [(pll_id, gain) for pll_id, gain in gains if gain > 1]
+    parts = ", ".join(source.through)
+    message = (
+        f"the {source.describe} reaches this clock through {parts}; its whole sweep is counted "
+        "(a loop narrower than the rate would attenuate it)"
+    )
+    if peaking:
+        shown = ", ".join(f"{pll_id} |H| = {gain:.3f}" for pll_id, gain in peaking)
+        message += f", but the loop response at the rate enlarges it ({shown}), which is not added"
+    if unknown:
+        message += f"; the loop response of {', '.join(unknown)} at the rate is not known, so its peaking is not added"
+    severity = Severity.WARNING if peaking or unknown else Severity.INFO
+    return Finding(severity, "spread-through-pll", link.id, message)
+
+
 # --------------------------------------------------------------------------- the stage
 
 
@@ -364,9 +393,9 @@ def accuracy_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysi
     findings: list[Finding] = []
     accuracies: dict[str, ConsumerAccuracy] = {}
     for link in links:
-        forbidden = _spread_not_allowed(link, analysis.board.part(link.id).budget)
-        if forbidden is not None:
-            findings.append(forbidden)
+        for finding in (_spread_not_allowed(link, analysis.board.part(link.id).budget), _through_pll(link, analysis.board)):
+            if finding is not None:
+                findings.append(finding)
         if by_id[link.reference].spec is None:
             continue
         if link.synthesis_error is None:
