@@ -122,6 +122,8 @@ def check_spreads(board: "Board", graph: "nx.DiGraph") -> None:
     """
     from clockplan.graph import chain_to
 
+    if sum(p.spread is not None for p in board.plls) + sum(o.spread is not None for p in board.plls for o in p.outputs) < 2:
+        return  # nothing can stack
     for node in graph.nodes:
         if graph.out_degree(node):
             continue  # every clock path ends at a node that feeds nothing

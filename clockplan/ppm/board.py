@@ -30,7 +30,7 @@ from clockplan.ppm.montecarlo import ConsumerChain
 from clockplan.ppm.oscillator import OscillatorSpec
 from clockplan.ppm.results import BASIS_BOARD, BASIS_NONE, BASIS_TYPICAL
 from clockplan.ppm.spread import SpreadSpectrum
-from clockplan.spreading import SpreadSource, spreads_on_chain, spread_allowance
+from clockplan.spreading import SpreadSource, spread_allowance, spreads_on_chain
 
 if TYPE_CHECKING:
     from clockplan.analysis import Analysis
