@@ -16,6 +16,7 @@ References outside the code under test:
 from __future__ import annotations
 
 import math
+from fractions import Fraction
 import re
 
 import numpy as np
@@ -413,3 +414,9 @@ def test_a_spread_through_a_pll_says_its_sweep_is_passed_whole_and_warns_of_peak
     unknown = _through(LOOP_SPREAD + CASCADE.replace('loop = { bandwidth = "1 kHz", damping = 0.707 }\n', ""))
     assert unknown.severity.value == "warning" and "not known" in unknown.message
     assert not any(f.code == "spread-through-pll" for f in _audit(LOOP_SPREAD).findings)
+
+
+def test_the_explain_waterfall_names_the_spreading_part():
+    rows = dict(_audit(LOOP_SPREAD).consumer("phy").accuracy.contributions())
+    label = next(name for name in rows if name.startswith("spread sweep"))
+    assert label.startswith("spread sweep made by synth (") and rows[label] == -Fraction(5, 1000)

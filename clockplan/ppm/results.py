@@ -324,7 +324,8 @@ class ConsumerAccuracy:
                 rows.append(("spread", f"{self.result.spread_note}: the carrier is checked"))
             else:
                 sweep = self.spread.extremes[0] if low_side else self.spread.extremes[1]
-                rows.append((f"spread sweep ({self.result.spread_note})", sweep))
+                made = f" made by {self.spread_source}" if self.spread_source else ""
+                rows.append((f"spread sweep{made} ({self.result.spread_note})", sweep))
                 linear += sweep
         cross = self.result.worst_case - linear
         if cross != 0:
