@@ -420,3 +420,53 @@ def test_the_explain_waterfall_names_the_spreading_part():
     rows = dict(_audit(LOOP_SPREAD).consumer("phy").accuracy.contributions())
     label = next(name for name in rows if name.startswith("spread sweep"))
     assert label.startswith("spread sweep made by synth (") and rows[label] == -Fraction(5, 1000)
+
+
+def test_a_zero_depth_spread_adds_no_lines():
+    analysis = _audit(LOOP_SPREAD.replace('depth = "0.5 %"', 'depth = "0 %"'))
+    assert "synth spread" not in analysis.consumer("dac").jitter.chain.names
+
+
+def test_a_standard_whose_spread_the_board_forbids_fails_the_inherited_spread():
+    # PCI Express allows the spread, but the consumer writes spread = false over its standard.
+    text = LOOP_SPREAD.replace('standard = "PCIe Gen3 reference"', 'standard = "PCIe Gen3 reference"\nspread = false')
+    finding = next(f for f in _audit(text).findings if f.code == "spread-not-allowed" and f.node == "pcie")
+    assert "made by synth" in finding.message
+
+
+@pytest.mark.parametrize(
+    ("sweep", "mode", "depth_ppm"),
+    [
+        (("-5000 ppm", "0 ppm"), "down", 5000),     # PCI Express-style down-spread
+        (("0 ppm", "3000 ppm"), "up", 3000),
+        (("-2500 ppm", "2500 ppm"), "center", 5000),
+        (("-1000 ppm", "3000 ppm"), "center", 2000),  # asymmetric: the largest centre-spread inside it
+    ],
+)
+def test_spread_allowance_reads_a_standard_sweep(sweep, mode, depth_ppm):
+    from clockplan.spreading import spread_allowance
+    from clockplan.standards.resolve import resolve_budget
+
+    budget = resolve_budget(None, {"ppm": "±100 ppm", "spread": f"{sweep[0]}..{sweep[1]}"}, "consumer[0]")
+    allowed = spread_allowance(budget)
+    assert (allowed.mode, allowed.max_depth) == (mode, Fraction(depth_ppm, 10**6))
+
+
+def test_no_allowance_without_a_sweep():
+    from clockplan.spreading import spread_allowance
+    from clockplan.standards.resolve import resolve_budget
+
+    assert spread_allowance(None) is None
+    assert spread_allowance(resolve_budget(None, {"ppm": "±100 ppm"}, "consumer[0]")) is None
+    assert spread_allowance(resolve_budget(None, {"ppm": "±100 ppm", "spread": "0..0 ppm"}, "consumer[0]")) is None
+
+
+def test_an_output_spreading_alone_on_a_spreading_loop_is_refused_and_two_outputs_alone_are_not():
+    with pytest.raises(BoardError) as caught:
+        parse_board(_alone("pcie", text=LOOP_SPREAD), "spread.toml")
+    assert caught.value.key == "pll[0].outputs.pcie.spread" and caught.value.line is not None
+    both = _audit(_alone("dac", text=_alone("pcie")))
+    assert both.consumer("phy").accuracy.spread is None
+    assert {s for s in ("synth.pcie spread", "synth.dac spread") if s in both.consumer("dac").jitter.chain.names} == {
+        "synth.dac spread"
+    }
