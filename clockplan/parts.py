@@ -143,11 +143,19 @@ class Reference:
 
 @dataclass(frozen=True)
 class PllOutput:
-    """One output of a PLL: a divider after the shared VCO."""
+    """One output of a PLL: a divider after the shared VCO.
+
+    ``spread`` is a spread made by this output's own divider, allowed only when
+    ``independent_spread`` says the part's output divider modulates by itself (a
+    fractional output divider with its own spread); a spread made by modulating
+    the loop belongs to the :class:`Pll` and reaches every output
+    (``docs/board-format.md``).
+    """
 
     name: str
     divider: IntChoices
     spread: Any = None
+    independent_spread: bool = False
 
 
 @dataclass(frozen=True)
@@ -159,7 +167,10 @@ class Pll:
     must be whole; in ``"fractional"`` mode its fractional part must satisfy
     ``denominator``. ``loop`` (a loop response), ``noise`` (the PLL's own noise
     figures) and ``loop_filter`` (a passive filter to design or analyse) feed
-    the jitter model; see docs/jitter.md and docs/loop-filter.md.
+    the jitter model; see docs/jitter.md and docs/loop-filter.md. ``spread``
+    (a ``clockplan.ppm.spread.SpreadSpectrum``) is a spread made by modulating
+    the loop (its feedback divider or its VCO): it sweeps the VCO, so it reaches
+    every output and every clock downstream (``clockplan.spreading``).
     """
 
     id: str
@@ -176,6 +187,7 @@ class Pll:
     loop: Any = None
     noise: Any = None
     loop_filter: Any = None
+    spread: Any = None
 
     def output(self, name: str) -> PllOutput:
         """Return the output called ``name``."""

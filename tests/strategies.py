@@ -233,9 +233,15 @@ def _pll(pick: Picker, index: int, sources: list[str]) -> dict[str, Any]:
         pll["loop"] = {"bandwidth": pick.choice(["20 kHz", "200 kHz", "1 Hz"]), "damping": pick.choice([0.707, 1, 0.5])}
     if pick.chance(0.15):
         pll["noise"] = {"fom": "-227 dBc/Hz", "flicker_fom": "-264 dBc/Hz", "output_floor": "-160 dBc/Hz"}
-    if pick.chance(0.1):
-        first = next(iter(outputs))
-        outputs[first]["spread"] = {"mode": "down", "depth": pick.choice(["0.5 %", "5000 ppm", "0 %"]), "rate": "31.5 kHz"}
+    if index == 0 and pick.chance(0.1):
+        # One spread per clock path (the board refuses stacked spreads): only the first PLL spreads,
+        # from its loop or from an output that declares it spreads alone.
+        spread = {"mode": "down", "depth": pick.choice(["0.5 %", "5000 ppm", "0 %"]), "rate": "31.5 kHz"}
+        if pick.chance(0.5):
+            pll["spread"] = spread
+        else:
+            first = next(iter(outputs))
+            outputs[first].update(independent_spread=True, spread=spread)
     return pll
 
 

@@ -118,9 +118,10 @@ def test_a_stability_band_gives_its_edges_and_no_curve():
 
 
 def test_a_spread_outside_the_allowance_widens_the_envelope_by_the_sweep():
+    # The spread is made by the loop (on the PLL), so it reaches out0 and the consumer "near" on it.
     text = TWO_CHAINS.replace(
         "outputs.out0 = { divider = [1, 256] }",
-        'outputs.out0 = { divider = [1, 256], spread = { mode = "center", depth = "0.5 %", rate = "31.5 kHz" } }',
+        'outputs.out0 = { divider = [1, 256] }\nspread = { mode = "center", depth = "0.5 %", rate = "31.5 kHz" }',
     ).replace('ppm = "±300 ppm"', 'standard = "PCIe Gen3 reference"')
     near = _analysis(text).consumer("near").accuracy
     # PCI Express allows down-spread only (standards table); a ±0.25 % centre-spread counts as error.

@@ -189,7 +189,8 @@ def test_oven_reference_is_flagged_with_its_power(capsys):
 def test_pcie_spread_within_its_allowance_checks_the_carrier_and_outside_counts_as_error():
     text = TWO_CHAINS.replace(
         "outputs.out0 = { divider = [1, 256] }",
-        'outputs.out0 = { divider = [1, 256], spread = { mode = "down", depth = "0.5 %", rate = "31.5 kHz" } }',
+        'outputs.out0 = { divider = [1, 256], independent_spread = true, '
+        'spread = { mode = "down", depth = "0.5 %", rate = "31.5 kHz" } }',
     ).replace('ppm = "±300 ppm"', 'standard = "PCIe Gen3 reference"')
     # PCI Express refclk: ±300 ppm with down-spread to -0.5 % at 30-33 kHz allowed (published, standards table).
     within = _analyze(text).consumer("near").accuracy

@@ -4,7 +4,9 @@ Every PLL and divider locked to a reference passes the reference's error
 through unchanged and adds its own exact synthesis error, so a consumer's
 chain reduces to three things: the reference at its root, the exact
 synthesis error of the whole chain (``actual / target - 1``, computed by the
-exact audit), and the spread of any spreading PLL output on the way.
+exact audit), and the spread the chain inherits (made by a PLL on the way,
+which reaches every output of it, or by an output that spreads alone:
+:mod:`clockplan.spreading`). A PLL further down passes the whole sweep.
 Consumers on different references get their own chains.
 
 A reference without accuracy keys gets the typical figures of its kind's
@@ -27,7 +29,8 @@ from clockplan.ppm.grades import Grade
 from clockplan.ppm.montecarlo import ConsumerChain
 from clockplan.ppm.oscillator import OscillatorSpec
 from clockplan.ppm.results import BASIS_BOARD, BASIS_NONE, BASIS_TYPICAL
-from clockplan.ppm.spread import SpreadAllowance, SpreadSpectrum
+from clockplan.ppm.spread import SpreadSpectrum
+from clockplan.spreading import SpreadSource, spread_allowance, spreads_on_chain
 
 if TYPE_CHECKING:
     from clockplan.analysis import Analysis
@@ -51,22 +54,6 @@ TYPICAL_GRADE = {"rc": "rc", "crystal": "xo", "xo": "xo", "tcxo": "tcxo", "ocxo"
 GRADE_RANK = {"rc": 0, "crystal": 1, "xo": 1, "vcxo": 1, "mems": 1, "tcxo": 2, "ocxo": 3}
 
 
-def _allowance(spread: tuple[Fraction, Fraction], rate: tuple[Fraction, Fraction] | None) -> SpreadAllowance | None:
-    """A standard's allowed sweep ``(min, max)`` as a mode and depth.
-
-    An asymmetric sweep that crosses zero (not a shape any standard we know
-    uses) is read as the largest centre-spread inside it: never more than allowed.
-    """
-    low, high = spread
-    if low == high == 0:
-        return None
-    if high == 0:
-        return SpreadAllowance("down", -low, rate)
-    if low == 0:
-        return SpreadAllowance("up", high, rate)
-    return SpreadAllowance("center", 2 * min(-low, high), rate)
-
-
 def consumer_budget(budget: "StandardBudget | None") -> ConsumerBudget | None:
     """The ppm core's budget for a consumer's resolved standard budget; ``None`` when it sets no tolerance.
 
@@ -79,8 +66,7 @@ def consumer_budget(budget: "StandardBudget | None") -> ConsumerBudget | None:
     """
     if budget is None or budget.ppm is None:
         return None
-    allowance = _allowance(budget.spread, budget.spread_rate_hz) if budget.spread is not None else None
-    return ConsumerBudget(budget.ppm, allowance)
+    return ConsumerBudget(budget.ppm, spread_allowance(budget))
 
 
 def _budget_source(budget: "StandardBudget") -> str:
@@ -140,8 +126,8 @@ class ConsumerLink:
 
     ``synthesis_error`` is ``None`` when a setting upstream is missing;
     ``budget`` is ``None`` when the consumer sets no frequency tolerance.
-    ``extra_spreads`` names spreading outputs further up the chain than the
-    one used (only the nearest is modelled).
+    ``spread_source`` says where the inherited ``spread`` is made (a board
+    holds at most one spread per clock path, :func:`clockplan.spreading.check_spreads`).
     """
 
     id: str
@@ -150,18 +136,7 @@ class ConsumerLink:
     spread: SpreadSpectrum | None
     budget: ConsumerBudget | None
     budget_source: str
-    extra_spreads: tuple[str, ...] = ()
-
-
-def _spreads(analysis: "Analysis", chain: Sequence[str]) -> list[tuple[str, SpreadSpectrum]]:
-    """Spreading outputs on a chain, nearest to the consumer first."""
-    graph = analysis.graph
-    found = []
-    for node in reversed(chain):
-        attributes = graph.nodes[node]
-        if attributes["role"] == "pll_output" and attributes["part"].spread is not None:
-            found.append((node, attributes["part"].spread))
-    return found
+    spread_source: SpreadSource | None = None
 
 
 def consumer_links(analysis: "Analysis") -> tuple[ConsumerLink, ...]:
@@ -188,16 +163,16 @@ def consumer_links(analysis: "Analysis") -> tuple[ConsumerLink, ...]:
                 line=board.lines.get(key) or board.lines.get(f"consumer[{index}]"),
                 hint="a budget is an error range around nominal, e.g. '±100 ppm' or '-50..+30 ppm'",
             ) from None
-        spreads = _spreads(analysis, result.chain)
+        spreads = spreads_on_chain(board, analysis.graph, result.chain)
         links.append(
             ConsumerLink(
                 id=result.id,
                 reference=result.chain[0],
                 synthesis_error=result.synthesis_error,
-                spread=spreads[0][1] if spreads else None,
+                spread=spreads[0].spread if spreads else None,
                 budget=budget,
                 budget_source=_budget_source(consumer.budget) if budget is not None else "",
-                extra_spreads=tuple(node for node, _ in spreads[1:]),
+                spread_source=spreads[0] if spreads else None,
             )
         )
     return tuple(links)

@@ -174,6 +174,8 @@ class ConsumerAccuracy:
     yield_fraction: float | None = None
     yield_standard_error: float | None = None
     spec: OscillatorSpec | None = field(default=None, compare=False, repr=False)
+    spread_source: str | None = None
+    spread_key: str | None = None
     sampled_reference_errors: "np.ndarray | None" = field(default=None, compare=False, repr=False)
 
     @property
@@ -322,7 +324,8 @@ class ConsumerAccuracy:
                 rows.append(("spread", f"{self.result.spread_note}: the carrier is checked"))
             else:
                 sweep = self.spread.extremes[0] if low_side else self.spread.extremes[1]
-                rows.append((f"spread sweep ({self.result.spread_note})", sweep))
+                made = f" made by {self.spread_source}" if self.spread_source else ""
+                rows.append((f"spread sweep{made} ({self.result.spread_note})", sweep))
                 linear += sweep
         cross = self.result.worst_case - linear
         if cross != 0:
@@ -379,6 +382,8 @@ class ConsumerAccuracy:
             "mode": self.spread.mode,
             "depth_ppm": ppm_number(self.spread.depth),
             "rate_hz": None if rate is None else (rate.numerator if rate.denominator == 1 else float(rate)),
+            "source": self.spread_source,
+            "key": self.spread_key,
             "within_allowance": self.result.spread_ok,
             "note": self.result.spread_note,
         }
