@@ -32,11 +32,13 @@ from clockplan.ppm.board import (
     consumer_links,
     reference_models,
 )
+from clockplan.ppm.conditions import condition_findings, require_conditions
 from clockplan.ppm.display import format_error, format_limits
 from clockplan.ppm.grades import DEFAULT_MARGIN, Grade, advise_grade, load_grades
 from clockplan.ppm.montecarlo import ConsumerChain, monte_carlo_yield
 from clockplan.ppm.oscillator import OscillatorSpec
 from clockplan.ppm.results import (
+    BASIS_NONE,
     BASIS_TYPICAL,
     ConsumerAccuracy,
     MonteCarloSummary,
@@ -263,7 +265,7 @@ def _reference_findings(model: ReferenceModel, advice: ReferenceAdvice, links: S
             f"{datasheet_keys}"
         )
         findings.append(Finding(Severity.INFO, "ppm-assumed", ref.id, message))
-    elif model.spec is None:
+    elif model.basis == BASIS_NONE:
         message = (
             f"no accuracy data for reference {ref.id} (and no typical grade for kind '{ref.kind}'): the frequency "
             f"error of {', '.join(advice.consumers) or 'its consumers'} is not checked; {datasheet_keys}"
@@ -333,6 +335,7 @@ def accuracy_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysi
     models = reference_models(analysis.board, grades)
     by_id = {m.reference.id: m for m in models}
     links = consumer_links(analysis)
+    require_conditions(analysis.board, models, links)
     findings: list[Finding] = []
     accuracies: dict[str, ConsumerAccuracy] = {}
     for link in links:
@@ -351,6 +354,7 @@ def accuracy_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysi
         if link.id in accuracies:
             findings += _consumer_findings(link, accuracies[link.id], advices[link.reference])
     for model in models:
+        findings += condition_findings(model, analysis.board, links)
         findings += _reference_findings(model, advices[model.reference.id], links)
     consumers = tuple(
         dataclasses.replace(c, accuracy=accuracies[c.id]) if c.id in accuracies else c for c in analysis.consumers
