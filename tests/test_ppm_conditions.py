@@ -452,3 +452,15 @@ def test_docstring_examples_run(name):
 
     failed, attempted = doctest.testmod(importlib.import_module(name))
     assert attempted > 0 and failed == 0
+
+
+def test_no_aging_data_is_a_warning_over_a_lifetime():
+    text = CRYSTAL.format(conditions='temperature = ["-40 C", "85 C"]\nlifetime = "10 years"').replace(
+        'aging = { first_year = "±3 ppm", per_year = "±1 ppm" }\n', "")
+    analysis = analyze(parse_board(text, "young.toml"))
+    warning = next(f for f in analysis.findings if f.code == "ppm-no-aging")
+    assert warning.node == "xtal" and warning.severity.value == "warning" and "10 years" in warning.message
+    new = analyze(parse_board(text.replace('lifetime = "10 years"', 'lifetime = "0 years"'), "young.toml"))
+    assert not any(f.code == "ppm-no-aging" for f in new.findings)
+    rc = analyze(parse_board(text.replace('kind = "crystal"', 'kind = "rc"'), "young.toml"))
+    assert not any(f.code == "ppm-no-aging" for f in rc.findings)

@@ -21,8 +21,10 @@ optimistic default:
   The worst case never assumes the trim is used.
 
 A reference with tolerance data but neither a band nor a curve has no
-temperature term at all; over a board range wider than one temperature that
-is an assumption in the part's favour, stated in a warning.
+temperature term at all, and one without ``aging`` does not drift; over a
+board range wider than one temperature, or a lifetime, each is an
+assumption in the part's favour, stated in a warning (an on-chip RC is not
+warned for aging: its datasheets rarely state any).
 
 Budgets are planning estimates: the part datasheet and the governing
 standard decide.
@@ -253,16 +255,29 @@ def _no_temperature(model: "ReferenceModel", board: "Board", links: Sequence["Co
     return [Finding(Severity.WARNING, "ppm-no-temperature", model.reference.id, message)]
 
 
+def _no_aging(model: "ReferenceModel", board: "Board", links: Sequence["ConsumerLink"]) -> list[Finding]:
+    spec = model.spec
+    if spec is None or model.basis != BASIS_BOARD or spec.kind == "rc" or ages(spec) or board.lifetime_s <= 0:
+        return []
+    if not _judged_ids(model, links):
+        return []
+    message = (
+        f"no aging figures: the frequency is taken as not drifting over {_years(board.lifetime_s)}, an assumption "
+        "in the part's favour; give aging (first_year and per_year, or law = 'log') from the datasheet"
+    )
+    return [Finding(Severity.WARNING, "ppm-no-aging", model.reference.id, message)]
+
+
 def condition_findings(model: "ReferenceModel", board: "Board", links: Sequence["ConsumerLink"]) -> list[Finding]:
     """The findings on one reference's conditions: a band not rated over the board, a short trim, no temperature term.
 
     Codes (``docs/json-output.md``): ``ppm-stability-range`` (error, on the
     reference and on each consumer whose budget it leaves unchecked),
-    ``ppm-trim`` (error), ``ppm-no-temperature`` (warning).
+    ``ppm-trim`` (error), ``ppm-no-temperature`` and ``ppm-no-aging`` (warnings).
     """
     if model.basis == BASIS_UNRATED and model.unrated is not None:
         return _unrated(model, board, links)
-    return _trim(model, board) + _no_temperature(model, board, links)
+    return _trim(model, board) + _no_temperature(model, board, links) + _no_aging(model, board, links)
 
 
 def conditions_text(board: "Board") -> str:
