@@ -278,6 +278,8 @@ def test_a_board_outside_the_rated_range_is_an_error_that_asks_for_the_figure(bo
     assert any(f.node == "radio" and f.severity.value == "error" for f in found)
     reference = analysis_document(analysis)["references"][0]
     assert reference["basis"] == "unrated-band"
+    # Not "fits": its consumer is unchecked; a part of its own grade rated over the range would do.
+    assert reference["failing"] == ["radio"] and reference["verdict"] == "better part"
 
 
 def test_the_monte_carlo_leaves_an_unrated_reference_out():
@@ -464,3 +466,15 @@ def test_no_aging_data_is_a_warning_over_a_lifetime():
     assert not any(f.code == "ppm-no-aging" for f in new.findings)
     rc = analyze(parse_board(text.replace('kind = "crystal"', 'kind = "rc"'), "young.toml"))
     assert not any(f.code == "ppm-no-aging" for f in rc.findings)
+
+
+def test_synthesis_over_a_range_no_typical_band_is_rated_for_says_so():
+    from clockplan.synth import synthesize
+    from clockplan.synth.input import parse_consumer_list
+
+    text = ('[board]\nname = "hot"\ntemperature = ["-55 C", "125 C"]\nlifetime = "10 years"\n\n'
+            '[[consumer]]\nid = "phy"\nfrequency = "125 MHz"\nstandard = "1000BASE-X"\n')
+    result = synthesize(parse_consumer_list(text, "hot.toml"))
+    # Every shipped band is rated over -40..85 °C only (clockplan/data): no tree may be judged on one.
+    assert not result.trees
+    assert "not rated over the board's -55..125 °C" in "\n".join(result.explanation.lines())

@@ -40,6 +40,7 @@ from clockplan.ppm.oscillator import OscillatorSpec
 from clockplan.ppm.results import (
     BASIS_NONE,
     BASIS_TYPICAL,
+    BASIS_UNRATED,
     ConsumerAccuracy,
     MonteCarloSummary,
     ReferenceAdvice,
@@ -158,7 +159,9 @@ def _advice(
     advice = advise_grade(0, fixable, board.temperature_c, board.lifetime_s, grades=grades) if fixable else None
     failing = tuple(
         link.id for link in judged
-        if link.id not in unreachable and link.id in accuracies and not accuracies[link.id].passes
+        if link.id not in unreachable and (
+            (link.id in accuracies and not accuracies[link.id].passes) or model.basis == BASIS_UNRATED
+        )
     )
     thin = tuple(link.id for link in judged if link.id in accuracies and accuracies[link.id].thin)
     oven = None
