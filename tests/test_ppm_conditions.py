@@ -478,3 +478,16 @@ def test_synthesis_over_a_range_no_typical_band_is_rated_for_says_so():
     # Every shipped band is rated over -40..85 °C only (clockplan/data): no tree may be judged on one.
     assert not result.trees
     assert "not rated over the board's -55..125 °C" in "\n".join(result.explanation.lines())
+
+
+def test_a_table_off_the_stand_in_asks_for_the_board_temperature_not_for_more_points():
+    text = CRYSTAL.format(conditions='lifetime = "10 years"').replace(
+        'temperature_curve = { model = "at-cut", angle_offset_arcmin = 6 }',
+        'temperature_curve = { model = "points", points = [[-40, "+5 ppm"], [0, "0 ppm"]] }')
+    with pytest.raises(BoardError) as caught:
+        analyze(parse_board(text, "table.toml"))
+    assert caught.value.key == "board.temperature" and "temperature table" in caught.value.message
+    stated = text.replace('lifetime = "10 years"', 'temperature = ["-40 C", "85 C"]\nlifetime = "10 years"')
+    with pytest.raises(BoardError) as caught:
+        analyze(parse_board(stated, "table.toml"))
+    assert caught.value.key == "reference[0].temperature_curve"

@@ -153,6 +153,15 @@ def reference_models(board: "Board", grades: Sequence[Grade]) -> tuple[Reference
             try:
                 spec.temperature.extremes(*board.temperature_c)
             except BoardError as err:
+                if "temperature" in board.unstated:
+                    from clockplan.ppm.conditions import TEMPERATURE_HINT
+
+                    # The table is not wrong: the board never said where it runs (the 25 °C stand-in).
+                    raise BoardError(
+                        f"reference {reference.id!r} has a temperature table, but the board states no operating "
+                        "temperature", file=board.source_file, key="board.temperature",
+                        line=board.lines.get("board"), hint=TEMPERATURE_HINT,
+                    ) from None
                 key, line = _key(board, index, "temperature_curve")
                 raise err.located(file=board.source_file, key=key, line=line) from None
             if band_rated_over(spec, board.temperature_c):
