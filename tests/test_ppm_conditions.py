@@ -491,3 +491,14 @@ def test_a_table_off_the_stand_in_asks_for_the_board_temperature_not_for_more_po
     with pytest.raises(BoardError) as caught:
         analyze(parse_board(stated, "table.toml"))
     assert caught.value.key == "reference[0].temperature_curve"
+
+
+def test_unrated_figures_need_no_condition_and_the_json_gives_each_grade_its_range():
+    # A band rated over 30..40 °C on a board at the 25 °C stand-in: set aside, so its aging asks for no lifetime.
+    text = BAND.format(board_range='["0 C", "70 C"]', rated='stability_range = "30..40 C"').replace(
+        'temperature = ["0 C", "70 C"]\nlifetime = "10 years"\n', "")
+    analysis = analyze(parse_board(text, "b.toml"))  # ages, but its figures are set aside: no lifetime asked
+    finding = next(f for f in analysis.findings if f.code == "ppm-stability-range" and f.node == "tcxo")
+    assert "25..25 °C (assumed: the board states no temperature)" in finding.message
+    grades = analysis_document(analysis)["references"][0]["grades"]
+    assert all(g["stability_range_c"] == [-40.0, 85.0] for g in grades)

@@ -99,10 +99,6 @@ def ages(spec: OscillatorSpec) -> bool:
     return True  # an aging model of another kind: assume it needs the lifetime
 
 
-def _figures(model: "ReferenceModel") -> OscillatorSpec | None:
-    return model.spec if model.spec is not None else model.unrated
-
-
 def _whose(model: "ReferenceModel") -> str:
     ref = model.reference
     if model.basis == BASIS_TYPICAL or (model.basis == BASIS_UNRATED and model.grade is not None):
@@ -135,7 +131,7 @@ def require_conditions(board: "Board", models: Sequence["ReferenceModel"], links
         return
     judged = {link.reference for link in links if link.budget is not None}
     for model in models:
-        spec = _figures(model)
+        spec = model.spec  # figures set aside as unrated are not used, so they need no condition
         if spec is None:
             continue
         ref = model.reference

@@ -416,6 +416,7 @@ def _grade_json(grade: Grade, fits: bool | None) -> dict[str, Any]:
         "fits": fits,
         "tolerance_ppm": [ppm_number(spec.initial[0]), ppm_number(spec.initial[1])],
         "stability_ppm": [ppm_number(band.lo), ppm_number(band.hi)] if hasattr(band, "lo") else None,
+        "stability_range_c": list(band.rated_c) if getattr(band, "rated_c", None) is not None else None,
         "power": _power_json(spec.power),
         "summary": grade.summary(),
     }
