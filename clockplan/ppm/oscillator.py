@@ -87,7 +87,7 @@ class OscillatorSpec:
     Examples
     --------
     >>> from clockplan.units import parse_ppm
-    >>> xo = OscillatorSpec("xo", parse_ppm("±20 ppm"), StabilityBand(*parse_ppm("±25 ppm")))
+    >>> xo = OscillatorSpec("xo", parse_ppm("±20 ppm"), StabilityBand(*parse_ppm("±25 ppm"), rated_c=(-40.0, 85.0)))
     >>> xo.kind
     'xo'
     """
