@@ -54,6 +54,8 @@ __all__ = [
     "load_board",
     "parse_board",
     "read_board_section",
+    "CONDITION_KEYS",
+    "unstated_conditions",
     "read_reference",
     "read_consumer",
     "read_denominator",
@@ -100,6 +102,22 @@ def _kind(value: Any) -> str:
 
 
 # --------------------------------------------------------------------------- sections
+
+
+#: The operating conditions of ``[board]``; without them a board is held at 25 °C and 0 years.
+CONDITION_KEYS = ("temperature", "lifetime")
+
+
+def unstated_conditions(board_table: Any) -> tuple[str, ...]:
+    """The :data:`CONDITION_KEYS` a ``[board]`` table (or its absence, ``None``) leaves out.
+
+    Examples
+    --------
+    >>> unstated_conditions({"name": "x", "lifetime": "10 years"})
+    ('temperature',)
+    """
+    table = board_table if isinstance(board_table, dict) else {}
+    return tuple(key for key in CONDITION_KEYS if key not in table)
 
 
 def read_board_section(doc: dict, ctx: Locator) -> tuple[str, tuple[float, float], float]:
@@ -364,6 +382,7 @@ def parse_board(text: str, file: str | None = None) -> Board:
         pins=pins,
         source_file=file,
         lines=_line_table(ctx, doc),
+        unstated=unstated_conditions(doc.get("board")),
     )
     _check_unique_ids(board, ctx)
     from clockplan.graph import build_graph
@@ -441,6 +460,9 @@ def _with_pll_noise(reader: TableReader, pll: Pll) -> Pll:
 
 def _line_table(ctx: Locator, doc: dict) -> dict[str, int]:
     lines: dict[str, int] = {}
+    board_line = ctx.line_of("board")
+    if board_line:
+        lines["board"] = board_line
     for section in _SECTIONS[1:]:
         entries = doc.get(section, [])
         for index, table in enumerate(entries if isinstance(entries, list) else []):

@@ -269,7 +269,10 @@ class Board:
 
     ``given`` holds settings fixed by the file (partial: ``pll_partial`` keeps
     per-PLL pins such as a fixed R when N is left open). ``lines`` maps key
-    paths to line numbers for error messages.
+    paths to line numbers for error messages. ``unstated`` names the operating
+    conditions (``"temperature"``, ``"lifetime"``) the board file left out, so
+    that ``temperature_c`` / ``lifetime_s`` hold the 25 °C / 0 years stand-ins;
+    the accuracy stage refuses a board whose models depend on one of them.
     """
 
     name: str
@@ -283,6 +286,7 @@ class Board:
     pins: Mapping[str, Mapping[str, Any]] = field(default_factory=dict)
     source_file: str | None = None
     lines: Mapping[str, int] = field(default_factory=dict)
+    unstated: tuple[str, ...] = ()
 
     def part(self, part_id: str) -> Any:
         """Return the part (reference, PLL, divider, buffer or consumer) with this id."""

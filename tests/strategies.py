@@ -187,6 +187,7 @@ def _reference(pick: Picker, index: int) -> dict[str, Any]:
         ref["tolerance"] = pick.choice(_ERRORS)
         if pick.chance(0.5):
             ref["stability"] = pick.choice(_ERRORS)
+            ref["stability_range"] = pick.choice(["-40..85 C", "-55..125 C", ["0 C", "70 C"]])
         if pick.chance(0.4):
             ref["aging"] = {"first_year": "±2 ppm", "per_year": "±0.5 ppm"}
     if pick.chance(0.2):
@@ -311,7 +312,17 @@ def valid_board(pick: Picker) -> dict[str, Any]:
         buffer["outputs"] = loads + pick.integer(0, 2) if loads else pick.integer(1, 4)
     if buffers:
         doc["buffer"] = buffers
+    if any(_ages(ref) for ref in references):
+        # An aging reference needs the board's lifetime (else the audit refuses the board: docs/board-format.md).
+        doc.setdefault("board", {}).setdefault("lifetime", pick.choice(["10 years", "6 months", "0 h"]))
     return doc
+
+
+def _ages(ref: dict[str, Any]) -> bool:
+    """Whether a generated reference ages: its own aging, or the typical grade a reference without data gets."""
+    if "tolerance" in ref:
+        return "aging" in ref
+    return ref.get("kind", "xo") in ("crystal", "xo", "tcxo", "ocxo")
 
 
 # --------------------------------------------------------------------------- mutations

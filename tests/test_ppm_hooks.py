@@ -243,6 +243,7 @@ def test_plots_command_draws_the_ppm_curve_and_the_histogram(tmp_path, capsys):
 
 def test_explain_shows_the_assumed_figures_note(capsys):
     text = TWO_CHAINS.replace('tolerance = "±20 ppm"\n', "")  # no figures: the XO's typical grade is assumed
+    text = text.replace('temperature = ["-40 C", "85 C"]', 'temperature = ["-40 C", "85 C"]\nlifetime = "10 years"')
     near = _analysis(text).consumer("near").accuracy
     assert any("Typical grade figures, assumed" in n for n in near.notes)
     headroom, margin_text = near.budget_margin()

@@ -12,7 +12,10 @@ Consumers on different references get their own chains.
 A reference without accuracy keys gets the typical figures of its kind's
 grade (``clockplan/data/oscillator_grades.toml``) where the kind has one
 (``rc``, ``crystal``, ``xo``, ``tcxo``, ``ocxo``), always marked as assumed;
-a ``vcxo`` or ``mems`` without figures is not checked.
+a ``vcxo`` or ``mems`` without figures is not checked. Figures whose
+stability band is not rated over the board's temperature range (the
+board's or the typical grade's) are not used either: the band says nothing
+outside its rated range (basis ``unrated-band``; the stage reports it).
 """
 
 from __future__ import annotations
@@ -28,8 +31,9 @@ from clockplan.ppm.display import format_limits
 from clockplan.ppm.grades import Grade
 from clockplan.ppm.montecarlo import ConsumerChain
 from clockplan.ppm.oscillator import OscillatorSpec
-from clockplan.ppm.results import BASIS_BOARD, BASIS_NONE, BASIS_TYPICAL
+from clockplan.ppm.results import BASIS_BOARD, BASIS_NONE, BASIS_TYPICAL, BASIS_UNRATED
 from clockplan.ppm.spread import SpreadSpectrum
+from clockplan.ppm.temperature import NO_TEMPERATURE_MODEL, StabilityBand
 from clockplan.spreading import SpreadSource, spread_allowance, spreads_on_chain
 
 if TYPE_CHECKING:
@@ -41,6 +45,7 @@ __all__ = [
     "TYPICAL_GRADE",
     "GRADE_RANK",
     "consumer_budget",
+    "band_rated_over",
     "ReferenceModel",
     "reference_models",
     "ConsumerLink",
@@ -76,15 +81,37 @@ def _budget_source(budget: "StandardBudget") -> str:
     return derived or "board file"
 
 
+def band_rated_over(spec: OscillatorSpec, temperature_c: tuple[float, float]) -> bool:
+    """False when ``spec``'s stability band is not rated over ``temperature_c`` (a curve, or no data: True).
+
+    Examples
+    --------
+    >>> from clockplan.units import parse_ppm
+    >>> band = StabilityBand(*parse_ppm("±1 ppm"), rated_c=(0.0, 70.0))
+    >>> spec = OscillatorSpec("tcxo", parse_ppm("±2 ppm"), band)
+    >>> band_rated_over(spec, (0.0, 70.0)), band_rated_over(spec, (-40.0, 85.0))
+    (True, False)
+    """
+    band = spec.temperature
+    if not isinstance(band, StabilityBand) or band == NO_TEMPERATURE_MODEL:
+        return True
+    return band.rated_over(*temperature_c)
+
+
 @dataclass(frozen=True)
 class ReferenceModel:
-    """A board reference with the accuracy figures the stage uses and where they come from."""
+    """A board reference with the accuracy figures the stage uses and where they come from.
+
+    ``unrated`` holds the figures that were not used (basis ``unrated-band``):
+    their stability band is not rated over the board's temperature range.
+    """
 
     reference: "Reference"
     index: int
     spec: OscillatorSpec | None
     basis: str
     grade: Grade | None = None
+    unrated: OscillatorSpec | None = None
 
 
 def _key(board: "Board", index: int, name: str) -> tuple[str, int | None]:
@@ -94,6 +121,9 @@ def _key(board: "Board", index: int, name: str) -> tuple[str, int | None]:
 
 def reference_models(board: "Board", grades: Sequence[Grade]) -> tuple[ReferenceModel, ...]:
     """Each reference's figures: the board's, else its kind's typical grade, else none.
+
+    Figures whose stability band is not rated over the board's temperature
+    range are kept aside (``unrated``), with the basis ``unrated-band`` and no ``spec``.
 
     Raises
     ------
@@ -109,12 +139,27 @@ def reference_models(board: "Board", grades: Sequence[Grade]) -> tuple[Reference
             try:
                 spec.temperature.extremes(*board.temperature_c)
             except BoardError as err:
+                if "temperature" in board.unstated:
+                    from clockplan.ppm.conditions import TEMPERATURE_HINT
+
+                    # The table is not wrong: the board never said where it runs (the 25 °C stand-in).
+                    raise BoardError(
+                        f"reference {reference.id!r} has a temperature table, but the board states no operating "
+                        "temperature", file=board.source_file, key="board.temperature",
+                        line=board.lines.get("board"), hint=TEMPERATURE_HINT,
+                    ) from None
                 key, line = _key(board, index, "temperature_curve")
                 raise err.located(file=board.source_file, key=key, line=line) from None
-            models.append(ReferenceModel(reference, index, spec, BASIS_BOARD))
+            if band_rated_over(spec, board.temperature_c):
+                models.append(ReferenceModel(reference, index, spec, BASIS_BOARD))
+            else:
+                models.append(ReferenceModel(reference, index, None, BASIS_UNRATED, unrated=spec))
         elif reference.kind in TYPICAL_GRADE and TYPICAL_GRADE[reference.kind] in by_name:
             grade = by_name[TYPICAL_GRADE[reference.kind]]
-            models.append(ReferenceModel(reference, index, grade.spec, BASIS_TYPICAL, grade))
+            if band_rated_over(grade.spec, board.temperature_c):
+                models.append(ReferenceModel(reference, index, grade.spec, BASIS_TYPICAL, grade))
+            else:
+                models.append(ReferenceModel(reference, index, None, BASIS_UNRATED, grade, unrated=grade.spec))
         else:
             models.append(ReferenceModel(reference, index, None, BASIS_NONE))
     return tuple(models)

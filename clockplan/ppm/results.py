@@ -32,6 +32,7 @@ __all__ = [
     "BASIS_BOARD",
     "BASIS_TYPICAL",
     "BASIS_NONE",
+    "BASIS_UNRATED",
     "ppm_number",
     "CURVE_POINTS",
     "TemperatureCurve",
@@ -46,6 +47,8 @@ __all__ = [
 BASIS_BOARD = "board"
 BASIS_TYPICAL = "typical-grade"
 BASIS_NONE = "none"
+#: Figures exist, but their stability band is not rated over the board's temperature range: not used.
+BASIS_UNRATED = "unrated-band"
 
 Number = Fraction | float
 _PPM = 10**6
@@ -418,6 +421,7 @@ def _grade_json(grade: Grade, fits: bool | None) -> dict[str, Any]:
         "fits": fits,
         "tolerance_ppm": [ppm_number(spec.initial[0]), ppm_number(spec.initial[1])],
         "stability_ppm": [ppm_number(band.lo), ppm_number(band.hi)] if hasattr(band, "lo") else None,
+        "stability_range_c": list(band.rated_c) if getattr(band, "rated_c", None) is not None else None,
         "power": _power_json(spec.power),
         "summary": grade.summary(),
     }
@@ -536,7 +540,8 @@ class ReferenceAdvices:
             rows.append((
                 ref.id,
                 ref.kind,
-                {BASIS_BOARD: "board", BASIS_TYPICAL: "typical (assumed)", BASIS_NONE: "none"}[ref.basis],
+                {BASIS_BOARD: "board", BASIS_TYPICAL: "typical (assumed)", BASIS_NONE: "none",
+                 BASIS_UNRATED: "band not rated over the board's range"}[ref.basis],
                 ref.verdict + (f"; re-plan {', '.join(ref.unreachable)}" if ref.unreachable and ref.advice else ""),
                 grade.label if grade is not None else "-",
                 grade.summary().split(": ", 1)[-1] if grade is not None else "-",

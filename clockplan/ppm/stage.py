@@ -32,12 +32,15 @@ from clockplan.ppm.board import (
     consumer_links,
     reference_models,
 )
+from clockplan.ppm.conditions import condition_findings, require_conditions
 from clockplan.ppm.display import format_error, format_limits
 from clockplan.ppm.grades import DEFAULT_MARGIN, Grade, advise_grade, load_grades
 from clockplan.ppm.montecarlo import ConsumerChain, monte_carlo_yield
 from clockplan.ppm.oscillator import OscillatorSpec
 from clockplan.ppm.results import (
+    BASIS_NONE,
     BASIS_TYPICAL,
+    BASIS_UNRATED,
     ConsumerAccuracy,
     MonteCarloSummary,
     ReferenceAdvice,
@@ -161,7 +164,9 @@ def _advice(
     advice = advise_grade(0, fixable, board.temperature_c, board.lifetime_s, grades=grades) if fixable else None
     failing = tuple(
         link.id for link in judged
-        if link.id not in unreachable and link.id in accuracies and not accuracies[link.id].passes
+        if link.id not in unreachable and (
+            (link.id in accuracies and not accuracies[link.id].passes) or model.basis == BASIS_UNRATED
+        )
     )
     thin = tuple(link.id for link in judged if link.id in accuracies and accuracies[link.id].thin)
     oven = None
@@ -286,7 +291,7 @@ def _reference_findings(model: ReferenceModel, advice: ReferenceAdvice, links: S
             f"{datasheet_keys}"
         )
         findings.append(Finding(Severity.INFO, "ppm-assumed", ref.id, message))
-    elif model.spec is None:
+    elif model.basis == BASIS_NONE:
         message = (
             f"no accuracy data for reference {ref.id} (and no typical grade for kind '{ref.kind}'): the frequency "
             f"error of {', '.join(advice.consumers) or 'its consumers'} is not checked; {datasheet_keys}"
@@ -390,6 +395,7 @@ def accuracy_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysi
     models = reference_models(analysis.board, grades)
     by_id = {m.reference.id: m for m in models}
     links = consumer_links(analysis)
+    require_conditions(analysis.board, models, links)
     findings: list[Finding] = []
     accuracies: dict[str, ConsumerAccuracy] = {}
     for link in links:
@@ -409,6 +415,7 @@ def accuracy_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysi
         if link.id in accuracies:
             findings += _consumer_findings(link, accuracies[link.id], advices[link.reference])
     for model in models:
+        findings += condition_findings(model, analysis.board, links)
         findings += _reference_findings(model, advices[model.reference.id], links)
     consumers = tuple(
         dataclasses.replace(c, accuracy=accuracies[c.id]) if c.id in accuracies else c for c in analysis.consumers
