@@ -16,6 +16,8 @@ from functools import cached_property
 from fractions import Fraction
 from typing import Any, Literal
 
+from clockplan.margins import DEFAULT_MARGIN_WARNING
+
 __all__ = [
     "FrequencyRange",
     "IntChoices",
@@ -257,7 +259,8 @@ class Board:
 
     ``given`` holds settings fixed by the file (partial: ``pll_partial`` keeps
     per-PLL pins such as a fixed R when N is left open). ``lines`` maps key
-    paths to line numbers for error messages.
+    paths to line numbers for error messages. ``margin_warning`` is the share of
+    a budget below which a passing consumer warns (:mod:`clockplan.margins`).
     """
 
     name: str
@@ -271,6 +274,7 @@ class Board:
     pins: Mapping[str, Mapping[str, Any]] = field(default_factory=dict)
     source_file: str | None = None
     lines: Mapping[str, int] = field(default_factory=dict)
+    margin_warning: Fraction = DEFAULT_MARGIN_WARNING
 
     def part(self, part_id: str) -> Any:
         """Return the part (reference, PLL, divider, buffer or consumer) with this id."""

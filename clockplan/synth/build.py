@@ -270,6 +270,7 @@ def parts_board(problem: Problem, parts: TreeParts, name: str | None = None) -> 
         name=name or spec.name,
         temperature_c=spec.temperature_c,
         lifetime_s=spec.lifetime_s,
+        margin_warning=spec.margin_warning,
         references=tuple(references),
         plls=tuple(plls),
         dividers=tuple(dividers),
