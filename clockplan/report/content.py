@@ -27,6 +27,7 @@ from typing import Any
 
 from clockplan.analysis import Analysis, ConsumerResult
 from clockplan.findings import Finding, Severity
+from clockplan.margins import synthesis_headroom
 from clockplan.units import format_exact, format_frequency, format_ppm
 
 __all__ = [
@@ -242,7 +243,7 @@ def _synthesis_margin(analysis: Analysis, result: ConsumerResult) -> Margin | No
         if error == 0:
             return None  # an exact target met exactly: there is no budget to measure room in
         return Margin("synthesis", result.id, -math.inf, f"{format_ppm(error)} off an exact target")
-    headroom = float(1 - abs(error) / allowed)
+    headroom = float(synthesis_headroom(error, allowed))
     shown = f"{float(error) * 100:+.4g} %" if abs(allowed) >= Fraction(1, 1000) else format_ppm(error)
     return Margin("synthesis", result.id, headroom, f"{shown} of {format_tolerance(allowed)}")
 
