@@ -257,6 +257,7 @@ def test_a_jitter_budget_without_noise_data_is_unchecked_everywhere(tmp_path, ca
     summary = summarize(analysis)
     assert summary.verdict == "UNCHECKED" and summary.counts.endswith(", 1 unchecked")
     assert dict(summary.facts)["unchecked"] == "clk (jitter)"
+    assert summary.margin_lines == ("none to show (every target is exact; the ppm or jitter budgets set are unchecked)",)
 
     doc = analysis_document(analysis)
     assert doc["verdict"] == "unchecked" and doc["unchecked"] == {"count": 1, "consumers": ["clk"]}

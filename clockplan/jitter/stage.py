@@ -165,7 +165,7 @@ def _broken_text(jitter: ConsumerJitter) -> str:
             )
         else:
             parts.append(f"the RMS limit {format_time(limit.limit_s)}")
-    return " (it breaks " + " and ".join(parts) + ")"
+    return ": it breaks " + " and ".join(parts)
 
 
 def _margin_finding(consumer_id: str, jitter: ConsumerJitter, threshold: Fraction) -> Finding | None:

@@ -39,6 +39,7 @@ __all__ = [
     "STATUS_WORDS",
     "VERDICT_WORDS",
     "NO_MARGINS",
+    "NO_MARGINS_UNCHECKED",
     "status_of",
     "consumer_status",
     "board_verdict",
@@ -65,6 +66,8 @@ VERDICT_WORDS = ("PASS", "UNCHECKED", "FAIL")
 
 #: What the summary says when no consumer has a margin to show.
 NO_MARGINS = "none to show (every target is exact and no ppm or jitter budget is set)"
+#: The same when budgets are set but none could be computed.
+NO_MARGINS_UNCHECKED = "none to show (every target is exact; the ppm or jitter budgets set are unchecked)"
 
 _SECONDS_PER_YEAR = 365.25 * 86400
 
@@ -167,7 +170,7 @@ class Summary:
     def margin_lines(self) -> tuple[str, ...]:
         """One line per worst margin, e.g. ``'synthesis: uart_clk 32.1 % left (-1.357 % of ±2 %)'``."""
         if not self.margins:
-            return (NO_MARGINS,)
+            return (NO_MARGINS_UNCHECKED if self.unchecked else NO_MARGINS,)
         return tuple(f"{m.kind}: {m.consumer} {m.describe} ({m.text})" for m in self.margins)
 
 
