@@ -265,7 +265,7 @@ def _exit_status(analysis, fail_on: str) -> int:
     worst = analysis.worst
     if worst is not None and worst.rank >= 2:
         return EXIT_FINDINGS
-    if fail_on in ("unchecked", "warning") and any(c.unchecked for c in analysis.consumers):
+    if fail_on in ("unchecked", "warning") and any(result.unchecked for result in analysis.consumers):
         return EXIT_FINDINGS
     if fail_on == "warning" and worst is not None and worst.rank >= 1:
         return EXIT_FINDINGS

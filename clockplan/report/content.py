@@ -28,6 +28,7 @@ from typing import Any
 from clockplan.analysis import Analysis, ConsumerResult
 from clockplan.findings import Finding, Severity
 from clockplan.margins import synthesis_headroom
+from clockplan.verdicts import unchecked_consumers
 from clockplan.units import format_exact, format_frequency, format_ppm
 
 __all__ = [
@@ -211,7 +212,7 @@ def board_verdict(analysis: Analysis) -> str:
     """``FAIL`` on any error finding, else ``UNCHECKED`` when a consumer's budget was not computed, else ``PASS``."""
     if analysis.has_errors:
         return "FAIL"
-    return "UNCHECKED" if any(c.unchecked for c in analysis.consumers) else "PASS"
+    return "UNCHECKED" if unchecked_consumers(analysis) else "PASS"
 
 
 def status_codes(analysis: Analysis, consumer_id: str) -> list[str]:

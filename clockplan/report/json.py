@@ -13,6 +13,7 @@ from typing import Any
 
 from clockplan.analysis import CAVEAT, Analysis, ConsumerResult
 from clockplan.units import format_exact
+from clockplan.verdicts import unchecked_consumers
 
 __all__ = ["SCHEMA_VERSION", "analysis_document", "dumps", "number"]
 
@@ -117,10 +118,7 @@ def analysis_document(analysis: Analysis, command: str = "audit") -> dict[str, A
         "command": command,
         "board": {"name": board.name, "file": board.source_file},
         "verdict": _verdict(analysis),
-        "unchecked": {
-            "count": sum(1 for c in analysis.consumers if c.unchecked),
-            "consumers": [c.id for c in analysis.consumers if c.unchecked],
-        },
+        "unchecked": {"count": len(unchecked_consumers(analysis)), "consumers": list(unchecked_consumers(analysis))},
         "margin_warning": float(board.margin_warning),
         "consumers": [_consumer(c, _status(analysis, c.id), _chain_status(analysis, c.id)) for c in analysis.consumers],
         "plls": _plls(analysis),
