@@ -314,3 +314,24 @@ def test_a_failure_outranks_unchecked_and_unchecked_outranks_a_warning():
     assert consumer_status(failed, "clk") == "FAIL" and summarize(failed).verdict == "FAIL"
     assert analysis_document(failed)["verdict"] == "fail"
     assert summarize(failed).counts.endswith(", 1 unchecked")  # still counted under a failing verdict
+
+
+def test_both_limits_hold_exactly_when_each_one_does():
+    # Property: a budget with an RMS limit R and a peak-to-peak limit P passes an RMS jitter sigma
+    # exactly when sigma <= R and 2 Q(1e-12) sigma <= P (Q from scipy's inverse normal, independent
+    # of the bisection the model uses); away from the boundaries, where rounding could decide.
+    stats = pytest.importorskip("scipy.stats")
+    hypothesis = pytest.importorskip("hypothesis")
+    st = hypothesis.strategies
+    span = float(2 * stats.norm.isf(1e-12))
+
+    @hypothesis.settings(max_examples=200, deadline=None)
+    @hypothesis.given(st.floats(1e-15, 1e-9), st.floats(1e-15, 1e-9), st.floats(1e-14, 1e-8))
+    def check(sigma, rms_limit, pp_limit):
+        budget = StandardBudget("x", "x", "x", (), None, jitter_rms_s=rms_limit, jitter_pp_s=pp_limit)
+        expected = sigma <= rms_limit and span * sigma <= pp_limit
+        hypothesis.assume(abs(sigma / rms_limit - 1) > 1e-9 and abs(span * sigma / pp_limit - 1) > 1e-9)
+        assert (sigma <= budget.jitter_rms_limit_s()) is expected
+        assert all(limit.passes(sigma) for limit in budget.jitter_limits()) is expected
+
+    check()
