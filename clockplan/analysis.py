@@ -4,6 +4,7 @@
 It builds the graph, propagates exact frequencies, checks every constraint,
 then hands the result to each budget stage in turn (ppm, jitter); each stage
 returns a new :class:`Analysis` with its per-consumer results and findings.
+Last, :func:`clockplan.verdicts.judge` marks the budgets no stage could check.
 """
 
 from __future__ import annotations
@@ -18,6 +19,7 @@ from clockplan.findings import Finding, Severity, worst_severity
 from clockplan.frequency import Frequencies, propagate, synthesis_error
 from clockplan.graph import build_graph, chain_to
 from clockplan.parts import Board, Settings
+from clockplan.verdicts import judge
 
 if TYPE_CHECKING:
     import networkx as nx
@@ -51,6 +53,8 @@ class ConsumerResult:
 
     ``synthesis_error`` is exact (``actual / target - 1``); ``accuracy`` and
     ``jitter`` are filled by the budget stages when the board gives the data.
+    ``unchecked`` names the budgets (``"ppm"``, ``"jitter"``) the consumer has a
+    limit for but no result on (:mod:`clockplan.verdicts`): never a PASS.
     """
 
     id: str
@@ -60,6 +64,7 @@ class ConsumerResult:
     synthesis_error: Fraction | None
     accuracy: Any = None
     jitter: Any = None
+    unchecked: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -159,4 +164,4 @@ def analyze(board: Board, settings: Settings | None = None, options: AnalysisOpt
     )
     for stage in STAGES:
         analysis = stage(analysis, options)
-    return analysis
+    return judge(analysis)

@@ -10,6 +10,7 @@ from fractions import Fraction
 
 from clockplan.findings import Finding, Severity
 from clockplan.frequency import Frequencies, synthesis_error
+from clockplan.margins import DEFAULT_MARGIN_WARNING, format_margin_warning, is_thin, synthesis_headroom
 from clockplan.parts import Board, Consumer, FrequencyRange, Pll, Settings
 from clockplan.units import format_exact, format_frequency, format_ppm
 
@@ -69,8 +70,14 @@ def _check_n(loop: Pll, ratio: Fraction) -> list[Finding]:
     return findings
 
 
-def check_consumer_frequency(consumer: Consumer, actual_hz: Fraction | None) -> list[Finding]:
-    """Compare a consumer's achieved frequency with its target and allowed synthesis error."""
+def check_consumer_frequency(
+    consumer: Consumer, actual_hz: Fraction | None, margin_warning: Fraction = DEFAULT_MARGIN_WARNING
+) -> list[Finding]:
+    """Compare a consumer's achieved frequency with its target and allowed synthesis error.
+
+    Inside the allowed error with less than ``margin_warning`` of it left is a
+    ``synthesis-margin`` warning (the margin policy, :func:`clockplan.margins.is_thin`).
+    """
     if actual_hz is None:
         return [_error("unset", consumer.id, f"the frequency of {consumer.id} is unknown because a part upstream has no settings")]
     error = synthesis_error(actual_hz, consumer.frequency)
@@ -80,6 +87,15 @@ def check_consumer_frequency(consumer: Consumer, actual_hz: Fraction | None) -> 
     if abs(error) > consumer.max_synthesis_error:
         allowed = "0 (exact)" if consumer.max_synthesis_error == 0 else "±" + format_ppm(consumer.max_synthesis_error).lstrip("+")
         return [_error("frequency", consumer.id, f"{text}, beyond the allowed synthesis error of {allowed}; re-plan, or set max_synthesis_error if the consumer tolerates it")]
+    headroom = synthesis_headroom(error, consumer.max_synthesis_error)
+    if is_thin(headroom, margin_warning):
+        allowed = "±" + format_ppm(consumer.max_synthesis_error).lstrip("+")
+        return [Finding(
+            Severity.WARNING, "synthesis-margin", consumer.id,
+            f"{text}: inside its allowed synthesis error of {allowed} with only {float(headroom) * 100:.3g} % of it left "
+            f"(less than {format_margin_warning(margin_warning)}, the board's margin_warning); re-plan for a closer "
+            "frequency, or confirm the consumer tolerates it",
+        )]
     return [Finding(Severity.INFO, "inexact", consumer.id, f"{text}, within its allowed synthesis error")]
 
 
@@ -95,5 +111,5 @@ def check_settings(board: Board, settings: Settings, freqs: Frequencies) -> list
         elif ratio not in divider.ratio:
             findings.append(_error("divider-range", divider.id, f"ratio {ratio} is not allowed ({divider.ratio.describe()})"))
     for consumer in board.consumers:
-        findings += check_consumer_frequency(consumer, freqs.nodes.get(consumer.id))
+        findings += check_consumer_frequency(consumer, freqs.nodes.get(consumer.id), board.margin_warning)
     return findings

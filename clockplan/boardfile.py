@@ -27,6 +27,7 @@ from clockplan.parts import (
     PllOutput,
     Reference,
 )
+from clockplan.margins import DEFAULT_MARGIN_WARNING, parse_margin_warning
 from clockplan.tomlread import (
     ID_PATTERN,
     Locator,
@@ -120,16 +121,18 @@ def unstated_conditions(board_table: Any) -> tuple[str, ...]:
     return tuple(key for key in CONDITION_KEYS if key not in table)
 
 
-def read_board_section(doc: dict, ctx: Locator) -> tuple[str, tuple[float, float], float]:
+def read_board_section(doc: dict, ctx: Locator) -> tuple[str, tuple[float, float], float, Fraction]:
+    """The ``[board]`` table: name, temperature range, lifetime and the margin policy's threshold."""
     if "board" not in doc:
-        return "unnamed board", (25.0, 25.0), 0.0
+        return "unnamed board", (25.0, 25.0), 0.0, DEFAULT_MARGIN_WARNING
     reader = TableReader(doc["board"], "board", ctx)
     name = reader.get("name", nonempty_text, "unnamed board")
     temperature = reader.get("temperature", _temperature_range, (25.0, 25.0))
     lifetime = reader.get("lifetime", parse_duration, 0.0)
+    margin_warning = reader.get("margin_warning", parse_margin_warning, DEFAULT_MARGIN_WARNING)
     reader.raw("description")
     reader.finish()
-    return name, temperature, lifetime
+    return name, temperature, lifetime, margin_warning
 
 
 
@@ -351,7 +354,7 @@ def parse_board(text: str, file: str | None = None) -> Board:
         Anything wrong with the file, located by key path and line.
     """
     doc, ctx = read_document(text, file, _SECTIONS, _section_hint)
-    name, temperature, lifetime = read_board_section(doc, ctx)
+    name, temperature, lifetime, margin_warning = read_board_section(doc, ctx)
     pins: dict[str, dict[str, Any]] = {}
     references = tuple(finish_part(r, read_reference(r)) for r in _array_of_tables(doc, "reference", ctx))
     plls = []
@@ -383,6 +386,7 @@ def parse_board(text: str, file: str | None = None) -> Board:
         source_file=file,
         lines=_line_table(ctx, doc),
         unstated=unstated_conditions(doc.get("board")),
+        margin_warning=margin_warning,
     )
     _check_unique_ids(board, ctx)
     from clockplan.graph import build_graph

@@ -29,7 +29,8 @@ EXIT_BUG = 4
 DEBUG_ENV = "CLOCKPLAN_DEBUG"
 
 _EPILOG = """exit status: 0 no error finding, 1 error findings (budget broken or constraint
-violated), 2 bad input or usage, 3 no feasible plan, 4 internal error (a bug;
+violated; with --fail-on unchecked also a budget not computed, with --fail-on warning
+also any warning), 2 bad input or usage, 3 no feasible plan, 4 internal error (a bug;
 CLOCKPLAN_DEBUG=1 shows its traceback), 130 interrupted (a file being written
 keeps its old content).
 Budgets are planning estimates: the part datasheets and the governing standard decide."""
@@ -190,7 +191,7 @@ def _emit(args: argparse.Namespace, analysis, command: str) -> int:
         from clockplan.report.formats import render_report
 
         _deliver(args, render_report(analysis, fmt, command, width=args.width or 100))
-    return _exit_status(analysis.worst, args.fail_on)
+    return _exit_status(analysis, args.fail_on)
 
 
 def _run_audit(args: argparse.Namespace) -> int:
@@ -203,7 +204,8 @@ def _run_audit(args: argparse.Namespace) -> int:
 # Output formats, --output, --fail-on, and the explain, diagram, plots and new
 # commands. Kept together so the other commands only call the helpers above.
 
-_FAIL_ON_HELP = "exit with status 1 on findings of this severity or worse (default: error)"
+_FAIL_ON_HELP = ("exit with status 1 at this level or worse: error (an error finding; the default), unchecked "
+                 "(also a consumer whose ppm or jitter budget could not be computed), warning (also any warning)")
 #: The same as clockplan.report.formats.FORMATS (a test checks), spelled out to keep start-up light.
 _REPORT_FORMATS = ("table", "json", "markdown", "csv", "html")
 
@@ -213,7 +215,7 @@ def _add_report_options(parser: argparse.ArgumentParser) -> None:
                         help="report format (default: table; or implied by --output's suffix: .json .md .csv .html .txt)")
     parser.add_argument("--output", "-o", metavar="FILE", default=None,
                         help="write the report to FILE (atomically; never over the board file) instead of stdout")
-    parser.add_argument("--fail-on", choices=("warning", "error"), default="error", help=_FAIL_ON_HELP)
+    parser.add_argument("--fail-on", choices=("warning", "unchecked", "error"), default="error", help=_FAIL_ON_HELP)
 
 
 def _report_format(args: argparse.Namespace) -> str:
@@ -263,12 +265,21 @@ def _deliver_drawn(args: argparse.Namespace, draw: Callable[..., None]) -> None:
     _deliver(args, buffer.getvalue())
 
 
-def _exit_status(worst, fail_on: str) -> int:
-    """1 if the worst finding is at least as serious as ``--fail-on``, else 0."""
-    if worst is None:
-        return EXIT_OK
-    threshold = 1 if fail_on == "warning" else 2
-    return EXIT_FINDINGS if worst.rank >= threshold else EXIT_OK
+def _exit_status(analysis, fail_on: str) -> int:
+    """1 at the ``--fail-on`` level or worse, else 0.
+
+    The levels, most serious first: ``error`` (an error finding), ``unchecked``
+    (a consumer with a budget no stage could compute), ``warning`` (a warning
+    finding); each level also fails on the ones above it.
+    """
+    worst = analysis.worst
+    if worst is not None and worst.rank >= 2:
+        return EXIT_FINDINGS
+    if fail_on in ("unchecked", "warning") and any(result.unchecked for result in analysis.consumers):
+        return EXIT_FINDINGS
+    if fail_on == "warning" and worst is not None and worst.rank >= 1:
+        return EXIT_FINDINGS
+    return EXIT_OK
 
 
 def _analyze_with_progress(board, args: argparse.Namespace, settings=None):
@@ -463,7 +474,7 @@ def _run_plan(args: argparse.Namespace) -> int:
         write_board_file(args.board, target, board, plan.settings, in_place=args.in_place)
         if not args.json:
             sys.stderr.write(f"clockplan: wrote the planned settings to {target}\n")
-    return _exit_status(analysis.worst, args.fail_on)
+    return _exit_status(analysis, args.fail_on)
 
 
 def _emit_plan(args: argparse.Namespace, analysis, plan, explanation) -> None:

@@ -16,6 +16,8 @@ from functools import cached_property
 from fractions import Fraction
 from typing import Any, Literal
 
+from clockplan.margins import DEFAULT_MARGIN_WARNING
+
 __all__ = [
     "FrequencyRange",
     "IntChoices",
@@ -273,6 +275,8 @@ class Board:
     conditions (``"temperature"``, ``"lifetime"``) the board file left out, so
     that ``temperature_c`` / ``lifetime_s`` hold the 25 °C / 0 years stand-ins;
     the accuracy stage refuses a board whose models depend on one of them.
+    ``margin_warning`` is the share of a budget below which a passing consumer
+    warns (:mod:`clockplan.margins`).
     """
 
     name: str
@@ -287,6 +291,7 @@ class Board:
     source_file: str | None = None
     lines: Mapping[str, int] = field(default_factory=dict)
     unstated: tuple[str, ...] = ()
+    margin_warning: Fraction = DEFAULT_MARGIN_WARNING
 
     def part(self, part_id: str) -> Any:
         """Return the part (reference, PLL, divider, buffer or consumer) with this id."""

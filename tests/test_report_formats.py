@@ -137,7 +137,7 @@ def test_markdown_tables_have_a_consistent_structure(analysis):
     for table in tables:
         assert len({len(row) for row in table}) == 1, "every row has as many cells as the header"
     for row, result in zip(consumers[1:], analysis.consumers):
-        word = {"PASS": "PASS", "FAIL": "FAIL", "warn": "warn"}
+        word = {"PASS": "PASS", "FAIL": "FAIL", "warn": "warn", "unchecked": "unchecked"}
         assert any(w in row[-1] for w in word)
         assert ("FAIL" in row[-1]) == any(f.node == result.id and f.severity.value == "error" for f in analysis.findings)
 
@@ -275,8 +275,12 @@ def test_no_color_environment_gives_plain_text(capsys, monkeypatch):
     [
         ("boards/video-converter.toml", "error", 1),  # an error finding
         ("boards/video-converter.toml", "warning", 1),
-        ("boards/industrial-gateway.toml", "error", 0),  # only an info finding (uart_clk inexact)
-        ("boards/industrial-gateway.toml", "warning", 0),
+        ("boards/industrial-gateway.toml", "error", 0),  # no error: uart_clk inexact (info), budgets unchecked
+        # The exact audit alone computes no ppm or jitter budget: every budget is unchecked (a warning each),
+        # which --fail-on unchecked and --fail-on warning both fail on (exit 0 before unchecked existed).
+        ("boards/industrial-gateway.toml", "unchecked", 1),
+        ("boards/industrial-gateway.toml", "warning", 1),
+        ("boards/video-converter.toml", "unchecked", 1),
     ],
 )
 def test_fail_on_sets_the_exit_status(board, fail_on, status, capsys, monkeypatch):

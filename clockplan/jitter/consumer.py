@@ -21,6 +21,7 @@ import numpy as np
 
 from clockplan.jitter.chain import NoiseChain
 from clockplan.jitter.result import JitterResult
+from clockplan.standards.model import JitterLimit
 from clockplan.units import format_frequency, format_time
 
 __all__ = ["ConsumerJitter", "format_band"]
@@ -55,6 +56,10 @@ class ConsumerJitter:
     notes
         What the figure assumes (default band, peak-to-peak limit read as RMS,
         parts whose noise is not counted); reports print them.
+    limits
+        Every jitter limit of the consumer's budget
+        (:class:`~clockplan.standards.model.JitterLimit`): each one is judged,
+        and the budget is the RMS jitter the strictest allows.
     """
 
     result: JitterResult
@@ -62,6 +67,7 @@ class ConsumerJitter:
     kinds: Mapping[str, tuple[str, str]]
     band_source: str
     notes: tuple[str, ...] = ()
+    limits: tuple[JitterLimit, ...] = ()
 
     @property
     def rms_seconds(self) -> float:
@@ -103,6 +109,26 @@ class ConsumerJitter:
         """What the figure is worth: a planning estimate."""
         return self.result.note
 
+    def broken_limits(self) -> tuple[JitterLimit, ...]:
+        """The limits the jitter breaks (a peak-to-peak one through its BER factor)."""
+        return tuple(limit for limit in self.limits if not limit.passes(self.rms_seconds))
+
+    def limits_json(self) -> list[dict[str, Any]]:
+        """Each limit judged: its kind, figure, the RMS it allows, the estimate held against it and the verdict."""
+        binding = min(self.limits, key=lambda limit: limit.rms_s) if self.limits else None
+        return [
+            {
+                "kind": limit.kind,
+                "limit_s": limit.limit_s,
+                "rms_limit_s": limit.rms_s,
+                "ber": limit.ber,
+                "estimate_s": limit.estimate_s(self.rms_seconds),
+                "passes": limit.passes(self.rms_seconds),
+                "binding": limit is binding,
+            }
+            for limit in self.limits
+        ]
+
     def contributions(self) -> tuple[tuple[str, float], ...]:
         """``(contributor, RMS seconds)`` rows, largest first; they add in root-sum-square."""
         return self.result.contributions
@@ -133,6 +159,7 @@ class ConsumerJitter:
             "jitter_budget_s": self.budget_seconds,
             "jitter_margin_s": self.margin_seconds,
             "jitter_dominant": self.dominant,
+            "jitter_limits": self.limits_json(),
             "jitter": detail,
         }
 

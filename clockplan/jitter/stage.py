@@ -50,8 +50,9 @@ from clockplan.jitter.consumer import ConsumerJitter, format_band
 from clockplan.jitter.result import JitterResult
 from clockplan.jitter.spread import SQUARE_WAVE_FACTOR
 from clockplan.jitter.tree import BoardNoise, MissingNoiseData, NodeNoise
+from clockplan.margins import format_margin_warning, is_thin
 from clockplan.spreading import SpreadSource, spread_allowance, spreads_on_chain
-from clockplan.standards.model import gaussian_pp_per_rms
+from clockplan.standards.model import PEAK_TO_PEAK_BER, JitterLimit, gaussian_pp_per_rms
 from clockplan.units import format_time
 
 if TYPE_CHECKING:
@@ -77,6 +78,9 @@ KIND_TEXT = {
     "spread": "spread-spectrum time deviation",
 }
 
+#: Each kind of jitter limit in words.
+_LIMIT_TEXT = {"rms": "RMS", "peak-to-peak": "peak-to-peak"}
+
 #: What lowers each kind of contributor (for the ``jitter-budget`` finding).
 FIXES = {
     "reference": "a quieter reference oscillator, or a PLL with a narrow loop after it to clean it",
@@ -96,12 +100,37 @@ FIXES = {
 
 @dataclasses.dataclass(frozen=True)
 class BandPlan:
-    """How one consumer's jitter is judged: band, budget, where the band comes from, notes."""
+    """How one consumer's jitter is judged: band, budget, where the band comes from, notes.
+
+    ``limits`` are every jitter limit of the budget (each one judged);
+    ``budget_s`` is the RMS jitter the strictest of them allows.
+    """
 
     band_hz: tuple[float, float]
     budget_s: float | None
     source: str
     notes: tuple[str, ...] = ()
+    limits: tuple[JitterLimit, ...] = ()
+
+
+def _limit_notes(limits: tuple[JitterLimit, ...]) -> list[str]:
+    """How the limits are read: a peak-to-peak one through the BER factor; with two, both are judged."""
+    notes = []
+    for limit in limits:
+        if limit.kind == "peak-to-peak":
+            notes.append(
+                f"The peak-to-peak limit {format_time(limit.limit_s)} is read as {format_time(limit.rms_s)} RMS "
+                f"(÷{gaussian_pp_per_rms(limit.ber):.2f}, 2·Q at a bit error ratio of {limit.ber:g}, Gaussian): "
+                "right for random jitter only."
+            )
+    if len(limits) > 1:
+        binding = min(limits, key=lambda limit: limit.rms_s)
+        notes.append(
+            "Both limits are judged: "
+            + " and ".join(f"{format_time(limit.limit_s)} {_LIMIT_TEXT[limit.kind]}" for limit in limits)
+            + f"; the {_LIMIT_TEXT[binding.kind]} one is the stricter ({format_time(binding.rms_s)} RMS)."
+        )
+    return notes
 
 
 def band_plan(consumer: "Consumer", clock_hz: Fraction | None) -> BandPlan | None:
@@ -116,18 +145,13 @@ def band_plan(consumer: "Consumer", clock_hz: Fraction | None) -> BandPlan | Non
     ((12000.0, 1920000.0), None, 'default')
     """
     budget = consumer.budget
-    limit = budget.jitter_rms_limit_s() if budget is not None else None
-    notes: list[str] = []
-    if budget is not None and budget.jitter_rms_s is None and budget.jitter_pp_s is not None:
-        notes.append(
-            f"The peak-to-peak limit {format_time(budget.jitter_pp_s)} is read as "
-            f"{format_time(limit)} RMS (÷{gaussian_pp_per_rms():.2f}, Gaussian at a bit error ratio of 1e-12): "
-            "right for random jitter only."
-        )
+    limits = budget.jitter_limits(PEAK_TO_PEAK_BER) if budget is not None else ()
+    limit = min(x.rms_s for x in limits) if limits else None
+    notes = _limit_notes(limits)
     if budget is not None and budget.jitter_band_hz is not None:
         band = (float(budget.jitter_band_hz[0]), float(budget.jitter_band_hz[1]))
         source = "board" if budget.key == "inline" or "jitter_band" in budget.overridden else "standard"
-        return BandPlan(band, limit, source, tuple(notes))
+        return BandPlan(band, limit, source, tuple(notes), limits)
     high = min(DEFAULT_BAND_HZ[1], float(clock_hz if clock_hz is not None else consumer.frequency) / 2)
     if high <= DEFAULT_BAND_HZ[0]:
         return None
@@ -136,7 +160,7 @@ def band_plan(consumer: "Consumer", clock_hz: Fraction | None) -> BandPlan | Non
         f"No jitter band given: integrated over {format_band(band)} (the default 12 kHz..20 MHz, "
         "capped at half the clock frequency); give jitter_band for the consumer's own band."
     )
-    return BandPlan(band, limit, "default", tuple(notes))
+    return BandPlan(band, limit, "default", tuple(notes), limits)
 
 
 def _analysis_grid(plans: dict[str, BandPlan | None]) -> Any:
@@ -146,6 +170,38 @@ def _analysis_grid(plans: dict[str, BandPlan | None]) -> Any:
     return log_grid(low, high)
 
 
+def _broken_text(jitter: ConsumerJitter) -> str:
+    """Which limits break, when the budget has a peak-to-peak one (an RMS-only budget says it all)."""
+    broken = jitter.broken_limits()
+    if not any(limit.kind == "peak-to-peak" for limit in jitter.limits):
+        return ""
+    parts = []
+    for limit in broken:
+        if limit.kind == "peak-to-peak":
+            parts.append(
+                f"the peak-to-peak limit {format_time(limit.limit_s)} (about {format_time(limit.estimate_s(jitter.rms_seconds))} "
+                f"peak-to-peak at a bit error ratio of {limit.ber:g})"
+            )
+        else:
+            parts.append(f"the RMS limit {format_time(limit.limit_s)}")
+    return ": it breaks " + " and ".join(parts)
+
+
+def _margin_finding(consumer_id: str, jitter: ConsumerJitter, threshold: Fraction) -> Finding | None:
+    """A ``jitter-margin`` warning when the jitter passes with less headroom than the margin policy asks."""
+    margin = jitter.budget_margin()
+    if margin is None or not is_thin(margin[0], threshold):
+        return None
+    kind = jitter.dominant_kind
+    message = (
+        f"RMS jitter {format_time(jitter.rms_seconds)} over {format_band(jitter.band_hz)} is inside the "
+        f"{format_time(jitter.budget_seconds)} budget with only {margin[0] * 100:.3g} % of it left (less than "
+        f"{format_margin_warning(threshold)}, the board's margin_warning); dominant: {jitter.dominant} "
+        f"({KIND_TEXT.get(kind, kind)}); for more room: {FIXES.get(kind, 'a quieter part there')}"
+    )
+    return Finding(Severity.WARNING, "jitter-margin", consumer_id, message)
+
+
 def _budget_finding(consumer_id: str, jitter: ConsumerJitter) -> Finding:
     budget = jitter.budget_seconds
     assert budget is not None and jitter.margin_seconds is not None
@@ -153,7 +209,8 @@ def _budget_finding(consumer_id: str, jitter: ConsumerJitter) -> Finding:
     kind = jitter.dominant_kind
     message = (
         f"RMS jitter {format_time(jitter.rms_seconds)} over {format_band(jitter.band_hz)} exceeds the "
-        f"{format_time(budget)} budget by {format_time(-jitter.margin_seconds)}; dominant: {jitter.dominant} "
+        f"{format_time(budget)} budget by {format_time(-jitter.margin_seconds)}{_broken_text(jitter)}; "
+        f"dominant: {jitter.dominant} "
         f"({KIND_TEXT.get(kind, kind)}, {share * 100:.0f} % of the jitter variance); "
         f"to fix: {FIXES.get(kind, 'a quieter part there')}"
     )
@@ -229,7 +286,7 @@ def _consumer_jitter(noise: NodeNoise, plan: BandPlan, source: SpreadSource | No
         if covered:
             result = _without(result, spread_names)
     notes += tuple(dict.fromkeys(f"{text}." for _, text in noise.unmodelled))
-    return ConsumerJitter(result, noise.chain, noise.kinds, plan.source, notes)
+    return ConsumerJitter(result, noise.chain, noise.kinds, plan.source, notes, plan.limits)
 
 
 def _spread_alone(board: Any, source: SpreadSource, plan: BandPlan) -> float | None:
@@ -301,4 +358,7 @@ def jitter_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysis"
             unmodelled.setdefault(part, (text, []))[1].append(result.id)
         if jitter.passes is False:
             findings.append(_budget_finding(result.id, jitter))
+        thin = _margin_finding(result.id, jitter, board.margin_warning)
+        if thin is not None:
+            findings.append(thin)
     return analysis.with_findings(findings + _data_findings(missing, unmodelled))

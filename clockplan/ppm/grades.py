@@ -16,6 +16,7 @@ from fractions import Fraction
 from importlib import resources
 
 from clockplan.errors import ClockplanError
+from clockplan.margins import DEFAULT_MARGIN_WARNING, is_thin
 from clockplan.ppm.accuracy import OVEN_NOTE, PLANNING_NOTE, AccuracyResult, consumer_accuracy
 from clockplan.ppm.display import format_limits
 from clockplan.ppm.montecarlo import ConsumerChain
@@ -27,7 +28,7 @@ from clockplan.units import format_quantity, format_time
 __all__ = ["DEFAULT_MARGIN", "Grade", "GradeAdvice", "load_grades", "advise_grade"]
 
 #: Required headroom, as a fraction of each budget's half-width (our default).
-DEFAULT_MARGIN = Fraction(1, 5)
+DEFAULT_MARGIN = DEFAULT_MARGIN_WARNING
 
 
 @dataclass(frozen=True)
@@ -115,7 +116,7 @@ def _rated_over(spec: OscillatorSpec, temperature_range: tuple[float, float]) ->
 
 
 def _fits(results: Sequence[AccuracyResult], margin: Fraction) -> bool:
-    return all(r.passes and r.margin >= margin * r.budget.half_width for r in results)
+    return all(r.passes and not is_thin(r.margin / r.budget.half_width, margin) for r in results)
 
 
 def advise_grade(

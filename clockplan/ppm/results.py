@@ -17,6 +17,7 @@ from dataclasses import dataclass, field
 from fractions import Fraction
 from typing import TYPE_CHECKING, Any, NamedTuple
 
+from clockplan.margins import is_thin
 from clockplan.ppm.accuracy import AccuracyResult, ConsumerBudget, Contribution, compose
 from clockplan.ppm.aging import SECONDS_PER_YEAR
 from clockplan.ppm.display import format_error, format_limits
@@ -196,8 +197,11 @@ class ConsumerAccuracy:
 
     @property
     def thin(self) -> bool:
-        """Inside the budget, but with less headroom than the required margin."""
-        return bool(self.passes) and self.result.margin < self.required_margin
+        """Inside the budget, but with less headroom than the required margin (:func:`clockplan.margins.is_thin`)."""
+        if not self.passes:
+            return False
+        half = self.budget.half_width
+        return is_thin(self.result.margin / half, Fraction(self.required_margin) / half)
 
     @property
     def notes(self) -> tuple[str, ...]:

@@ -34,7 +34,8 @@ from clockplan.ppm.board import (
 )
 from clockplan.ppm.conditions import condition_findings, require_conditions
 from clockplan.ppm.display import format_error, format_limits
-from clockplan.ppm.grades import DEFAULT_MARGIN, Grade, advise_grade, load_grades
+from clockplan.margins import format_margin_warning, is_thin
+from clockplan.ppm.grades import Grade, advise_grade, load_grades
 from clockplan.ppm.montecarlo import ConsumerChain, monte_carlo_yield
 from clockplan.ppm.oscillator import OscillatorSpec
 from clockplan.ppm.results import (
@@ -63,7 +64,6 @@ _NO_BUDGET = ConsumerBudget((Fraction(-1), Fraction(1)))
 _ROOM_C = 25.0
 #: Boards whose sampled errors are kept for the Monte Carlo histogram (all of them up to this many).
 KEPT_SAMPLES = 200_000
-_MARGIN_TEXT = f"{float(DEFAULT_MARGIN) * 100:g} %"
 
 
 def _at(celsius: float | None) -> str:
@@ -100,7 +100,7 @@ def _accuracy(model: ReferenceModel, link: ConsumerLink, analysis: "Analysis") -
         spread_key=link.spread_source.key if link.spread_source else None,
         temperature_range=board.temperature_c,
         lifetime_s=board.lifetime_s,
-        required_margin=DEFAULT_MARGIN * budget.half_width,
+        required_margin=board.margin_warning * budget.half_width,
         spec=model.spec,
     )
 
@@ -139,8 +139,8 @@ def _stopped_early(summary: MonteCarloSummary, board_name: str) -> Finding:
     )
 
 
-def _fits(result: AccuracyResult) -> bool:
-    return result.passes and result.margin >= DEFAULT_MARGIN * result.budget.half_width
+def _fits(result: AccuracyResult, margin: Fraction) -> bool:
+    return result.passes and not is_thin(result.margin / result.budget.half_width, margin)
 
 
 def _advice(
@@ -155,13 +155,15 @@ def _advice(
     ideal = OscillatorSpec(ref.kind, (Fraction(0), Fraction(0)))
     unreachable = tuple(
         link.id for link in judged
-        if not _fits(consumer_accuracy(ideal, link.synthesis_error, link.spread, board.temperature_c, board.lifetime_s, link.budget))
+        if not _fits(consumer_accuracy(ideal, link.synthesis_error, link.spread, board.temperature_c, board.lifetime_s, link.budget),
+                     board.margin_warning)
     )
     fixable = [
         ConsumerChain(0, link.synthesis_error, link.budget, link.spread, name=link.id)
         for link in judged if link.id not in unreachable
     ]
-    advice = advise_grade(0, fixable, board.temperature_c, board.lifetime_s, grades=grades) if fixable else None
+    advice = (advise_grade(0, fixable, board.temperature_c, board.lifetime_s, margin=board.margin_warning, grades=grades)
+              if fixable else None)
     failing = tuple(
         link.id for link in judged
         if link.id not in unreachable and (
@@ -190,12 +192,12 @@ def _advice(
 # --------------------------------------------------------------------------- findings
 
 
-def _advice_text(advice: ReferenceAdvice) -> str:
+def _advice_text(advice: ReferenceAdvice, margin: Fraction) -> str:
     if advice.advice is None or advice.advice.grade is None:
         return f"no oscillator grade up to an OCXO keeps every consumer of {advice.id} inside its budget with margin"
     return (
         f"use {_grade_text(advice.advice.grade)}: it keeps every consumer of {advice.id} inside its budget "
-        f"with {_MARGIN_TEXT} margin"
+        f"with {format_margin_warning(margin)} margin"
     )
 
 
@@ -223,13 +225,13 @@ def _room_text(accuracy: ConsumerAccuracy) -> str:
     return f"; at 25 °C it is {format_error(room.worst_case)}, {verdict}"
 
 
-def _cure(link: ConsumerLink, accuracy: ConsumerAccuracy, advice: ReferenceAdvice) -> str:
+def _cure(link: ConsumerLink, accuracy: ConsumerAccuracy, advice: ReferenceAdvice, margin: Fraction) -> str:
     if link.id in advice.unreachable:
         synthesis = format_error(accuracy.result.synthesis_error)
         if accuracy.result.checked == "carrier" or link.spread_source is None:
             return f"no reference can fix it: its synthesis error alone ({synthesis}) leaves no margin in the budget; re-plan the chain"
         source = link.spread_source
-        alone = _synthesis_alone_fits(link, accuracy)
+        alone = _synthesis_alone_fits(link, accuracy, margin)
         cause = (
             f"the {source.describe} breaks it, not the synthesis error ({synthesis})" if alone
             else f"its synthesis error ({synthesis}) and the {source.describe} leave no margin"
@@ -239,17 +241,20 @@ def _cure(link: ConsumerLink, accuracy: ConsumerAccuracy, advice: ReferenceAdvic
             f"turn the spread of {source.part} off or bring it inside the consumer's allowance, or feed "
             f"{link.id} from a clock that does not spread" + ("" if alone else ", and re-plan the chain")
         )
-    return "fix: " + _advice_text(advice)
+    return "fix: " + _advice_text(advice, margin)
 
 
-def _synthesis_alone_fits(link: ConsumerLink, accuracy: ConsumerAccuracy) -> bool:
+def _synthesis_alone_fits(link: ConsumerLink, accuracy: ConsumerAccuracy, margin: Fraction) -> bool:
     """Whether the chain's synthesis error alone, on a perfect reference and without the spread, keeps the margin."""
     ideal = OscillatorSpec(accuracy.spec.kind if accuracy.spec is not None else "xo", (Fraction(0), Fraction(0)))
     budget = link.budget or _NO_BUDGET
-    return _fits(consumer_accuracy(ideal, link.synthesis_error, None, accuracy.temperature_range, accuracy.lifetime_s, budget))
+    return _fits(consumer_accuracy(ideal, link.synthesis_error, None, accuracy.temperature_range, accuracy.lifetime_s, budget),
+                 margin)
 
 
-def _consumer_findings(link: ConsumerLink, accuracy: ConsumerAccuracy, advice: ReferenceAdvice) -> list[Finding]:
+def _consumer_findings(
+    link: ConsumerLink, accuracy: ConsumerAccuracy, advice: ReferenceAdvice, margin: Fraction
+) -> list[Finding]:
     r = accuracy.result
     worst = f"worst case {format_error(r.worst_case)} {_at(r.worst_temperature_c)}{_assumed(accuracy)}"
     if not accuracy.judged:
@@ -262,19 +267,20 @@ def _consumer_findings(link: ConsumerLink, accuracy: ConsumerAccuracy, advice: R
     if not r.passes and not r.rss_passes:
         message = (
             f"{worst} breaks {budget}{spread}; statistical (RSS) {format_error(r.rss)}"
-            f"{_room_text(accuracy)}{_yield_text(accuracy)}; {_cure(link, accuracy, advice)}"
+            f"{_room_text(accuracy)}{_yield_text(accuracy)}; {_cure(link, accuracy, advice, margin)}"
         )
         return [Finding(Severity.ERROR, "ppm-budget", link.id, message)]
     if not r.passes:
         message = (
             f"statistical total (RSS) {format_error(r.rss)} is inside {budget}, but the {worst} breaks it{spread}: "
-            f"a board with every part at its limit fails{_yield_text(accuracy)}; {_cure(link, accuracy, advice)}"
+            f"a board with every part at its limit fails{_yield_text(accuracy)}; {_cure(link, accuracy, advice, margin)}"
         )
         return [Finding(Severity.WARNING, "ppm-worst-case", link.id, message)]
     if accuracy.thin:
         message = (
             f"{worst} is inside {budget} with only {format_error(r.margin)} to spare "
-            f"(less than {_MARGIN_TEXT} of the budget); {_cure(link, accuracy, advice)}"
+            f"(less than {format_margin_warning(margin)} of the budget, the board's margin_warning); "
+            f"{_cure(link, accuracy, advice, margin)}"
         )
         return [Finding(Severity.WARNING, "ppm-margin", link.id, message)]
     return []
@@ -413,7 +419,7 @@ def accuracy_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysi
     advices = {m.reference.id: _advice(m, links, accuracies, analysis, grades) for m in models}
     for link in links:
         if link.id in accuracies:
-            findings += _consumer_findings(link, accuracies[link.id], advices[link.reference])
+            findings += _consumer_findings(link, accuracies[link.id], advices[link.reference], analysis.board.margin_warning)
     for model in models:
         findings += condition_findings(model, analysis.board, links)
         findings += _reference_findings(model, advices[model.reference.id], links)

@@ -3,7 +3,9 @@
 The terminal, Markdown, HTML and CSV renderers draw the same tables, the
 same summary and the same tree from here, so a number reads the same in each.
 Nothing in this module styles anything: status is always a word (``PASS``,
-``warn``, ``FAIL``), so meaning never depends on colour.
+``warn``, ``unchecked``, ``FAIL``), so meaning never depends on colour. A
+consumer with a budget that could not be computed is ``unchecked``, never
+``PASS`` (:mod:`clockplan.verdicts`).
 
 Budget results (``ConsumerResult.accuracy`` and ``.jitter``) join in through
 small optional hooks, documented in ``DEVELOPERS.md``:
@@ -25,6 +27,8 @@ from typing import Any
 
 from clockplan.analysis import Analysis, ConsumerResult
 from clockplan.findings import Finding, Severity
+from clockplan.margins import synthesis_headroom
+from clockplan.verdicts import unchecked_consumers
 from clockplan.units import format_exact, format_frequency, format_ppm
 
 __all__ = [
@@ -34,9 +38,12 @@ __all__ = [
     "TreeNode",
     "Summary",
     "STATUS_WORDS",
+    "VERDICT_WORDS",
     "NO_MARGINS",
+    "NO_MARGINS_UNCHECKED",
     "status_of",
     "consumer_status",
+    "board_verdict",
     "status_codes",
     "format_tolerance",
     "consumer_margins",
@@ -54,10 +61,14 @@ __all__ = [
 ]
 
 #: The words a status can be; reports may colour them but never replace them.
-STATUS_WORDS = ("PASS", "warn", "FAIL")
+STATUS_WORDS = ("PASS", "warn", "unchecked", "FAIL")
+#: The board verdict's words: no error and every budget checked, some budget not checked, an error.
+VERDICT_WORDS = ("PASS", "UNCHECKED", "FAIL")
 
 #: What the summary says when no consumer has a margin to show.
 NO_MARGINS = "none to show (every target is exact and no ppm or jitter budget is set)"
+#: The same when budgets are set but none could be computed.
+NO_MARGINS_UNCHECKED = "none to show (every target is exact; the ppm or jitter budgets set are unchecked)"
 
 
 
@@ -137,11 +148,13 @@ class Summary:
     errors: int
     warnings: int
     consumers: int
+    unchecked: tuple[str, ...] = ()
 
     @property
     def counts(self) -> str:
-        """``'1 error(s), 0 warning(s), 6 consumer(s)'``."""
-        return f"{self.errors} error(s), {self.warnings} warning(s), {self.consumers} consumer(s)"
+        """``'1 error(s), 0 warning(s), 6 consumer(s)'``, and ``', 2 unchecked'`` when budgets were not checked."""
+        text = f"{self.errors} error(s), {self.warnings} warning(s), {self.consumers} consumer(s)"
+        return text + (f", {len(self.unchecked)} unchecked" if self.unchecked else "")
 
     @property
     def facts(self) -> tuple[tuple[str, str], ...]:
@@ -149,13 +162,15 @@ class Summary:
         facts = [("references", "; ".join(self.references)), ("conditions", self.conditions)]
         if self.failing:
             facts.append(("failing", "; ".join(self.failing)))
+        if self.unchecked:
+            facts.append(("unchecked", "; ".join(self.unchecked)))
         return tuple(facts)
 
     @property
     def margin_lines(self) -> tuple[str, ...]:
         """One line per worst margin, e.g. ``'synthesis: uart_clk 32.1 % left (-1.357 % of ±2 %)'``."""
         if not self.margins:
-            return (NO_MARGINS,)
+            return (NO_MARGINS_UNCHECKED if self.unchecked else NO_MARGINS,)
         return tuple(f"{m.kind}: {m.consumer} {m.describe} ({m.text})" for m in self.margins)
 
 
@@ -177,15 +192,26 @@ def _status_findings(analysis: Analysis, consumer_id: str) -> list[Finding]:
 
 
 def consumer_status(analysis: Analysis, consumer_id: str) -> str:
-    """``FAIL`` for an error on the consumer or its chain, ``warn`` for a warning on it, else ``PASS``.
+    """``FAIL`` for an error on the consumer or its chain; ``unchecked`` when a budget it has a limit
+    for could not be computed; ``warn`` for a warning on it; else ``PASS``.
 
     The JSON ``status`` key is the consumer's own findings only (the contract);
-    ``chain_status`` and every human report use this one.
+    ``chain_status`` and every human report use this one. Both say
+    ``unchecked`` rather than pass or warn for a budget not computed.
     """
     severities = {f.severity for f in _status_findings(analysis, consumer_id)}
     if Severity.ERROR in severities:
         return "FAIL"
+    if analysis.consumer(consumer_id).unchecked:
+        return "unchecked"
     return "warn" if Severity.WARNING in severities else "PASS"
+
+
+def board_verdict(analysis: Analysis) -> str:
+    """``FAIL`` on any error finding, else ``UNCHECKED`` when a consumer's budget was not computed, else ``PASS``."""
+    if analysis.has_errors:
+        return "FAIL"
+    return "UNCHECKED" if unchecked_consumers(analysis) else "PASS"
 
 
 def status_codes(analysis: Analysis, consumer_id: str) -> list[str]:
@@ -220,7 +246,7 @@ def _synthesis_margin(analysis: Analysis, result: ConsumerResult) -> Margin | No
         if error == 0:
             return None  # an exact target met exactly: there is no budget to measure room in
         return Margin("synthesis", result.id, -math.inf, f"{format_ppm(error)} off an exact target")
-    headroom = float(1 - abs(error) / allowed)
+    headroom = float(synthesis_headroom(error, allowed))
     shown = f"{float(error) * 100:+.4g} %" if abs(allowed) >= Fraction(1, 1000) else format_ppm(error)
     return Margin("synthesis", result.id, headroom, f"{shown} of {format_tolerance(allowed)}")
 
@@ -445,10 +471,11 @@ def summarize(analysis: Analysis) -> Summary:
         conditions=_conditions(analysis),
         margins=tuple(worst_margins(analysis)),
         failing=tuple(failing),
-        verdict="FAIL" if errors else "PASS",
+        verdict=board_verdict(analysis),
         errors=errors,
         warnings=warnings,
         consumers=len(analysis.consumers),
+        unchecked=tuple(f"{r.id} ({', '.join(r.unchecked)})" for r in analysis.consumers if r.unchecked),
     )
 
 

@@ -35,7 +35,7 @@ _SHAPE = {
     "buffer": ("cds", "#e0f2f1"),
     "consumer": ("box", "#e8f5e9"),
 }
-_STATUS_COLOUR = {"FAIL": ("#c62828", "#ffebee"), "warn": ("#ef6c00", "#fff3e0")}
+_STATUS_COLOUR = {"FAIL": ("#c62828", "#ffebee"), "warn": ("#ef6c00", "#fff3e0"), "unchecked": ("#6a1b9a", "#f3e5f5")}
 
 
 def dot_quote(text: str) -> str:

@@ -32,7 +32,7 @@ __all__ = ["html_table", "html_tree", "clean_svg", "render_html", "build_html"]
 
 _CSS = """
 :root { --fail: #b71c1c; --fail-bg: #ffebee; --warn: #e65100; --warn-bg: #fff3e0; --pass: #1b5e20;
-        --pass-bg: #e8f5e9; --line: #cfd8dc; --muted: #546e7a; }
+        --pass-bg: #e8f5e9; --unchecked: #4a148c; --unchecked-bg: #f3e5f5; --line: #cfd8dc; --muted: #546e7a; }
 * { box-sizing: border-box; }
 body { font: 15px/1.45 system-ui, -apple-system, "Segoe UI", Roboto, "Helvetica Neue", Arial, sans-serif;
        color: #1c2529; margin: 0 auto; padding: 1.5rem 2rem 3rem; max-width: 1600px; background: #fff; }
@@ -41,6 +41,7 @@ h2 { font-size: 1.2rem; margin: 2rem 0 .6rem; border-bottom: 1px solid var(--lin
 .verdict { display: inline-block; font-weight: 700; padding: .15rem .7rem; border-radius: .3rem; margin-right: .5rem; }
 .verdict.PASS { color: var(--pass); background: var(--pass-bg); border: 1px solid var(--pass); }
 .verdict.FAIL { color: var(--fail); background: var(--fail-bg); border: 1px solid var(--fail); }
+.verdict.UNCHECKED { color: var(--unchecked); background: var(--unchecked-bg); border: 1px solid var(--unchecked); }
 dl.summary { display: grid; grid-template-columns: max-content 1fr; gap: .25rem 1rem; margin: 1rem 0; }
 dl.summary dt { font-weight: 600; color: var(--muted); }
 dl.summary dd { margin: 0; }
@@ -55,6 +56,7 @@ td.word { font-weight: 700; white-space: nowrap; }
 td.PASS { color: var(--pass); background: var(--pass-bg); }
 td.warn, td.warning { color: var(--warn); background: var(--warn-bg); }
 td.FAIL, td.error { color: var(--fail); background: var(--fail-bg); }
+td.unchecked { color: var(--unchecked); background: var(--unchecked-bg); }
 td.info { color: #01579b; background: #e1f5fe; }
 code { font-family: ui-monospace, "SFMono-Regular", Menlo, Consolas, monospace; font-size: .9em; }
 .diagram { overflow-x: auto; border: 1px solid var(--line); border-radius: .3rem; padding: .5rem; }
@@ -69,6 +71,7 @@ ul.tree .badge { font-weight: 700; padding: 0 .35rem; border-radius: .2rem; }
 ul.tree .badge.PASS { color: var(--pass); background: var(--pass-bg); }
 ul.tree .badge.warn { color: var(--warn); background: var(--warn-bg); }
 ul.tree .badge.FAIL { color: var(--fail); background: var(--fail-bg); }
+ul.tree .badge.unchecked { color: var(--unchecked); background: var(--unchecked-bg); }
 pre.extra { font-family: ui-monospace, "SFMono-Regular", Menlo, Consolas, monospace; font-size: .82rem;
             background: #f6f8fa; border: 1px solid var(--line); border-radius: .3rem; padding: .6rem; overflow-x: auto; }
 figure { margin: 1rem 0; }

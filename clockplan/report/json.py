@@ -13,6 +13,7 @@ from typing import Any
 
 from clockplan.analysis import CAVEAT, Analysis, ConsumerResult
 from clockplan.units import format_exact
+from clockplan.verdicts import unchecked_consumers
 
 __all__ = ["SCHEMA_VERSION", "analysis_document", "dumps", "number"]
 
@@ -46,6 +47,7 @@ def _consumer(result: ConsumerResult, status: str, chain_status: str) -> dict[st
         "synthesis_error_exact": format_exact(result.synthesis_error) if result.synthesis_error is not None else None,
         "status": status,
         "chain_status": chain_status,
+        "unchecked": list(result.unchecked),
     }
     for extra in (result.accuracy, result.jitter):
         if extra is not None and hasattr(extra, "json_fields"):
@@ -77,7 +79,7 @@ def _plls(analysis: Analysis) -> list[dict[str, Any]]:
 def _chain_status(analysis: Analysis, consumer_id: str) -> str:
     from clockplan.report.content import consumer_status
 
-    return {"PASS": "pass", "warn": "warn", "FAIL": "fail"}[consumer_status(analysis, consumer_id)]
+    return {"PASS": "pass", "warn": "warn", "unchecked": "unchecked", "FAIL": "fail"}[consumer_status(analysis, consumer_id)]
 
 
 def _spur_offset(point) -> Fraction | None:
@@ -88,7 +90,17 @@ def _spur_offset(point) -> Fraction | None:
 
 def _status(analysis: Analysis, node: str) -> str:
     severities = {f.severity.value for f in analysis.findings if f.node == node}
-    return "fail" if "error" in severities else "warn" if "warning" in severities else "pass"
+    if "error" in severities:
+        return "fail"
+    if analysis.consumer(node).unchecked:
+        return "unchecked"
+    return "warn" if "warning" in severities else "pass"
+
+
+def _verdict(analysis: Analysis) -> str:
+    from clockplan.report.content import board_verdict
+
+    return board_verdict(analysis).lower()
 
 
 def analysis_document(analysis: Analysis, command: str = "audit") -> dict[str, Any]:
@@ -111,7 +123,9 @@ def analysis_document(analysis: Analysis, command: str = "audit") -> dict[str, A
             "lifetime_s": board.lifetime_s,
             "assumed_conditions": list(board.unstated),
         },
-        "verdict": "fail" if analysis.has_errors else "pass",
+        "verdict": _verdict(analysis),
+        "unchecked": {"count": len(unchecked_consumers(analysis)), "consumers": list(unchecked_consumers(analysis))},
+        "margin_warning": float(board.margin_warning),
         "consumers": [_consumer(c, _status(analysis, c.id), _chain_status(analysis, c.id)) for c in analysis.consumers],
         "plls": _plls(analysis),
         "dividers": [

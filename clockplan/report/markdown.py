@@ -24,7 +24,8 @@ from clockplan.report.content import (
 
 __all__ = ["escape_cell", "markdown_table", "markdown_summary", "render_markdown"]
 
-_MARK = {"PASS": "✅ PASS", "warn": "⚠️ warn", "FAIL": "❌ **FAIL**", "error": "❌ **error**", "warning": "⚠️ warning",
+_MARK = {"PASS": "✅ PASS", "warn": "⚠️ warn", "unchecked": "❔ **unchecked**", "UNCHECKED": "❔ **UNCHECKED**",
+         "FAIL": "❌ **FAIL**", "error": "❌ **error**", "warning": "⚠️ warning",
          "info": "ℹ️ info"}
 # Characters that start Markdown syntax inside a table cell (GFM spec: tables and inlines).
 # An underscore inside a word cannot open or close emphasis (GFM spec, emphasis rules), so

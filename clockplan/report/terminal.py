@@ -1,7 +1,7 @@
 """Terminal report: rich tables and the clock tree.
 
 Meaning never rests on colour alone: every status is also a word (``PASS``,
-``FAIL``, ``warn``), so the text reads right with ``NO_COLOR`` or when piped.
+``FAIL``, ``warn``, ``unchecked``), so the text reads right with ``NO_COLOR`` or when piped.
 The content comes from :mod:`clockplan.report.content`; this module only
 lays it out and colours the status words.
 """
@@ -32,6 +32,8 @@ __all__ = [
 _WORD_STYLE = {
     "PASS": "green",
     "warn": "yellow",
+    "unchecked": "bold magenta",
+    "UNCHECKED": "bold magenta",
     "FAIL": "bold red",
     "error": "bold red",
     "warning": "yellow",

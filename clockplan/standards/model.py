@@ -17,6 +17,8 @@ from fractions import Fraction
 
 __all__ = [
     "CONFIDENCE_LEVELS",
+    "PEAK_TO_PEAK_BER",
+    "JitterLimit",
     "StandardBudget",
     "gaussian_pp_per_rms",
 ]
@@ -29,6 +31,8 @@ _PPM_PER_UNIT = 10**6
 CONFIDENCE_LEVELS = ("published", "common practice", "from memory", "board")
 
 _DEFAULT_BER = 1e-12
+#: The bit error ratio at which a peak-to-peak jitter limit is read (common practice for serial links).
+PEAK_TO_PEAK_BER = _DEFAULT_BER
 
 
 def gaussian_pp_per_rms(ber: float = _DEFAULT_BER) -> float:
@@ -60,6 +64,32 @@ def gaussian_pp_per_rms(ber: float = _DEFAULT_BER) -> float:
         else:
             high = middle
     return low + high
+
+
+@dataclass(frozen=True)
+class JitterLimit:
+    """One jitter limit of a budget, and the RMS jitter it allows.
+
+    ``kind`` is ``"rms"`` or ``"peak-to-peak"``; ``limit_s`` the figure as
+    written; ``rms_s`` the RMS jitter it allows: the figure itself for an RMS
+    limit, ``limit_s / (2 Q(ber))`` for a peak-to-peak one read as Gaussian
+    (:func:`gaussian_pp_per_rms`), right for random jitter only.
+    """
+
+    kind: str
+    limit_s: float
+    rms_s: float
+    ber: float | None = None
+
+    def estimate_s(self, rms_seconds: float) -> float:
+        """The jitter this limit is held against, in its own kind: RMS, or ``2 Q(ber) sigma`` peak-to-peak."""
+        if self.ber is None:
+            return rms_seconds
+        return rms_seconds * gaussian_pp_per_rms(self.ber)
+
+    def passes(self, rms_seconds: float) -> bool:
+        """Whether an RMS jitter meets this limit."""
+        return rms_seconds <= self.rms_s
 
 
 def _check_range(name: str, value: tuple[Fraction, Fraction] | None) -> None:
@@ -110,6 +140,10 @@ class StandardBudget:
         Other names the entry is found by.
     overridden
         Names of the fields a board replaced.
+    loosened
+        The board's figures that are looser than the standard's, each with
+        both figures (``"jitter 2 ps RMS (the standard: 1 ps)"``): a product
+        built to them may not comply; the analysis warns (``budget-loosened``).
     """
 
     key: str
@@ -128,6 +162,7 @@ class StandardBudget:
     notes: str = ""
     aliases: tuple[str, ...] = ()
     overridden: tuple[str, ...] = ()
+    loosened: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         if self.confidence not in CONFIDENCE_LEVELS:
@@ -191,24 +226,50 @@ class StandardBudget:
             return True
         return self.ppm[0] <= Fraction(fractional_error) <= self.ppm[1]
 
-    def jitter_rms_limit_s(self, ber: float = _DEFAULT_BER) -> float | None:
-        """RMS jitter to plan against: the RMS limit, or a peak-to-peak one read as Gaussian.
+    def jitter_limits(self, ber: float = _DEFAULT_BER) -> tuple[JitterLimit, ...]:
+        """Every jitter limit of the budget, RMS first: each one is judged.
 
-        A peak-to-peak limit is divided by :func:`gaussian_pp_per_rms` (14.07 at
-        ``1e-12``): right for random jitter only, so it is a planning figure.
+        A peak-to-peak limit is read as Gaussian at ``ber``: it allows an RMS
+        jitter of ``limit / (2 Q(ber))`` (:func:`gaussian_pp_per_rms`, 14.07 at
+        ``1e-12``).
 
         Examples
         --------
-        >>> from fractions import Fraction as F
+        >>> b = StandardBudget("x", "x", "x", (), None, jitter_rms_s=10e-12, jitter_pp_s=86e-12)
+        >>> [(limit.kind, round(limit.rms_s * 1e12, 2)) for limit in b.jitter_limits()]
+        [('rms', 10.0), ('peak-to-peak', 6.11)]
+        """
+        limits = []
+        if self.jitter_rms_s is not None:
+            limits.append(JitterLimit("rms", self.jitter_rms_s, self.jitter_rms_s))
+        if self.jitter_pp_s is not None:
+            limits.append(JitterLimit("peak-to-peak", self.jitter_pp_s, self.jitter_pp_s / gaussian_pp_per_rms(ber), ber))
+        return tuple(limits)
+
+    def binding_jitter_limit(self, ber: float = _DEFAULT_BER) -> JitterLimit | None:
+        """The jitter limit that allows the least RMS jitter (the RMS one on a tie), or None."""
+        limits = self.jitter_limits(ber)
+        return min(limits, key=lambda limit: limit.rms_s) if limits else None
+
+    def jitter_rms_limit_s(self, ber: float = _DEFAULT_BER) -> float | None:
+        """RMS jitter to plan against: the stricter of the RMS limit and the peak-to-peak one read as Gaussian.
+
+        Both limits are judged: when a budget gives both (a standard's
+        peak-to-peak figure and a board's RMS one, say), the RMS jitter must
+        meet each, so the smaller RMS equivalent binds. A peak-to-peak limit is
+        divided by :func:`gaussian_pp_per_rms` (14.07 at ``1e-12``): right for
+        random jitter only, so it is a planning figure.
+
+        Examples
+        --------
         >>> b = StandardBudget("x", "x", "x", (), None, jitter_pp_s=86e-12)
         >>> round(b.jitter_rms_limit_s() * 1e12, 2)
         6.11
+        >>> round(StandardBudget("x", "x", "x", (), None, jitter_rms_s=10e-12, jitter_pp_s=86e-12).jitter_rms_limit_s() * 1e12, 2)
+        6.11
         """
-        if self.jitter_rms_s is not None:
-            return self.jitter_rms_s
-        if self.jitter_pp_s is not None:
-            return self.jitter_pp_s / gaussian_pp_per_rms(ber)
-        return None
+        binding = self.binding_jitter_limit(ber)
+        return binding.rms_s if binding is not None else None
 
     def to_json(self) -> dict[str, object]:
         """A JSON-ready dict in the project's convention: exact values as strings, ppm as numbers.
@@ -237,6 +298,7 @@ class StandardBudget:
             "confidence": self.confidence,
             "notes": self.notes,
             "overridden": list(self.overridden),
+            "loosened": list(self.loosened),
         }
 
 

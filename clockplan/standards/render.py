@@ -14,7 +14,7 @@ from rich.table import Table
 from rich.text import Text
 
 from clockplan.errors import BoardError
-from clockplan.standards.model import StandardBudget
+from clockplan.standards.model import StandardBudget, gaussian_pp_per_rms
 from clockplan.standards.table import closest_keys, find_standards, get_standard, normalize_key, standard_keys
 from clockplan.units import format_frequency, format_time
 
@@ -168,9 +168,10 @@ def standard_panel(budget: StandardBudget | str) -> Panel:
     if budget.spread is not None and total is not None:
         row("Total range", format_error_range(total))
     row("Jitter", format_jitter(budget), "jitter", "jitter_pp", "jitter_band", "converter")
-    if budget.jitter_pp_s is not None and budget.jitter_rms_s is None:
-        rms = budget.jitter_rms_limit_s()
-        row("  as RMS", f"{format_time(rms)} (Gaussian, BER 1e-12)" if rms is not None else "—")
+    if budget.jitter_pp_s is not None:
+        pp_rms = budget.jitter_pp_s / gaussian_pp_per_rms()
+        judged = "; both limits are judged" if budget.jitter_rms_s is not None else ""
+        row("  p-p as RMS", f"{format_time(pp_rms)} (Gaussian, BER 1e-12){judged}")
     if budget.jitter_notes:
         row("Jitter method", budget.jitter_notes)
     row("Source", budget.source)

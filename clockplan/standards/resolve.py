@@ -31,7 +31,9 @@ from clockplan.standards import derived
 from clockplan.standards.model import StandardBudget
 from clockplan.standards.table import get_standard
 from clockplan.units import (
+    format_frequency,
     format_ppm,
+    format_time,
     parse_duration,
     parse_frequency,
     parse_number,
@@ -216,20 +218,37 @@ def _decibels(value: Any) -> float:
 _DERIVERS = {"uart": _uart, "can": _can, "rtc": _rtc, "converter": _converter}
 
 
-def _loosened(base: StandardBudget, merged: StandardBudget) -> list[str]:
-    """Fields a board made looser than its standard: a product built to them may not comply."""
+def _error_text(pair: tuple[Fraction, Fraction]) -> str:
+    low, high = pair
+    if low == -high:
+        return "±" + format_ppm(high).lstrip("+")
+    return f"{format_ppm(low)}..{format_ppm(high)}"
+
+
+def _spread_text(pair: tuple[Fraction, Fraction] | None) -> str:
+    return "no spread" if pair is None else _error_text(pair)
+
+
+def _band_text(band: tuple[Fraction, Fraction]) -> str:
+    return f"{format_frequency(band[0])}..{format_frequency(band[1])}"
+
+
+def _loosened(base: StandardBudget, merged: StandardBudget) -> list[tuple[str, str]]:
+    """Fields a board made looser than its standard, with the two figures: a product built to them may not comply."""
     looser = []
     if base.ppm and merged.ppm and (merged.ppm[0] < base.ppm[0] or merged.ppm[1] > base.ppm[1]):
-        looser.append("ppm")
+        looser.append(("ppm", f"ppm {_error_text(merged.ppm)} (the standard: {_error_text(base.ppm)})"))
     if merged.spread and (base.spread is None or merged.spread[0] < base.spread[0] or merged.spread[1] > base.spread[1]):
-        looser.append("spread")
-    for name, board_name in (("jitter_rms_s", "jitter"), ("jitter_pp_s", "jitter_pp")):
+        looser.append(("spread", f"spread {_spread_text(merged.spread)} (the standard: {_spread_text(base.spread)})"))
+    for name, board_name, kind in (("jitter_rms_s", "jitter", "RMS"), ("jitter_pp_s", "jitter_pp", "peak-to-peak")):
         limit, mine = getattr(base, name), getattr(merged, name)
         if limit is not None and (mine is None or mine > limit):
-            looser.append(board_name)
+            shown = "none" if mine is None else format_time(mine)
+            looser.append((board_name, f"{board_name} {shown} {kind} (the standard: {format_time(limit)})"))
     band, mine = base.jitter_band_hz, merged.jitter_band_hz
     if band and mine and (mine[0] > band[0] or mine[1] < band[1]):
-        looser.append("jitter_band")
+        looser.append(("jitter_band", f"jitter_band {_band_text(mine)} (the standard: {_band_text(band)}, a narrower "
+                                      "band counts less noise)"))
     return looser
 
 
@@ -319,8 +338,10 @@ def resolve_budget(standard_key: str | None, overrides: Mapping[str, Any], key: 
         looser = _loosened(base, merged)
         if looser:
             notes.append(
-                f"The board loosens {', '.join(looser)} beyond {base.key}: a product built to it may not comply."
+                f"The board loosens {', '.join(name for name, _ in looser)} beyond {base.key}: "
+                "a product built to it may not comply."
             )
+            merged = dataclasses.replace(merged, loosened=tuple(text for _, text in looser))
         merged = dataclasses.replace(merged, source=f"{base.source}; board overrides {', '.join(changed)} at {key}")
     if notes:
         merged = dataclasses.replace(merged, notes=" ".join(filter(None, [merged.notes, *notes])))

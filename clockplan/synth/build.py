@@ -272,6 +272,7 @@ def parts_board(problem: Problem, parts: TreeParts, name: str | None = None) -> 
         temperature_c=spec.temperature_c,
         lifetime_s=spec.lifetime_s,
         unstated=unstated_conditions(spec.raw_board),
+        margin_warning=spec.margin_warning,
         references=tuple(references),
         plls=tuple(plls),
         dividers=tuple(dividers),

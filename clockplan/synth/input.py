@@ -24,6 +24,7 @@ from clockplan.boardfile import (
     read_reference,
 )
 from clockplan.errors import BoardError
+from clockplan.margins import DEFAULT_MARGIN_WARNING
 from clockplan.parts import Consumer, Reference
 from clockplan.tomlread import (
     Locator,
@@ -86,6 +87,7 @@ class ConsumerList:
     raw_reference: dict[str, Any] | None = None
     source_file: str | None = None
     board_line: int | None = None
+    margin_warning: Fraction = DEFAULT_MARGIN_WARNING
 
 
 def _strings(value: Any) -> tuple[str, ...]:
@@ -187,7 +189,7 @@ def parse_consumer_list(text: str, file: str | None = None) -> ConsumerList:
         return None
 
     doc, ctx = read_document(text, file, _SECTIONS, hint_for)
-    name, temperature, lifetime = read_board_section(doc, ctx)
+    name, temperature, lifetime, margin_warning = read_board_section(doc, ctx)
     consumers, raws = _read_consumers(doc, ctx)
     reference, raw_reference = _read_fixed_reference(doc, ctx)
     if reference is not None and reference.id in {c.id for c in consumers}:
@@ -204,6 +206,7 @@ def parse_consumer_list(text: str, file: str | None = None) -> ConsumerList:
         raw_reference=raw_reference,
         source_file=file,
         board_line=ctx.line_of("board"),
+        margin_warning=margin_warning,
     )
 
 

@@ -70,6 +70,13 @@ def _margin(margin: float | None) -> str:
     return "-" if margin is None else f"{margin * 100:.0f} %"  # spaced like every other percentage clockplan prints
 
 
+def _verdict(proposed: "ProposedTree") -> str:
+    """``FAIL``, or the written board's own verdict: ``UNCHECKED`` when a budget could not be computed, else ``PASS``."""
+    from clockplan.report.content import board_verdict
+
+    return board_verdict(proposed.verified.analysis) if proposed.passes else "FAIL"
+
+
 def comparison_table(result: "SynthesisResult") -> "RenderableType":
     """One column per proposed tree: objective figures, then the parts."""
     from rich.table import Table
@@ -82,7 +89,7 @@ def comparison_table(result: "SynthesisResult") -> "RenderableType":
     descriptions = [describe_tree(result.problem, p.candidate.tree) for p in trees]
     best = trees[0].candidate.cost if trees else None
     rows = [
-        ("verdict", ["PASS" if p.passes else "FAIL" for p in trees]),
+        ("verdict", [_verdict(p) for p in trees]),
         ("parts", [str(p.candidate.cost.parts) for p in trees]),
         ("power", [_power(p.candidate.cost.power_w) for p in trees]),
         ("relative cost", [f"{float(p.candidate.cost.cost):g}" for p in trees]),
@@ -172,7 +179,7 @@ def synthesis_document(result: "SynthesisResult", include_board: bool = True) ->
         "schema": 1,
         "command": "synthesize",
         "board": {"name": spec.name, "file": spec.source_file},
-        "verdict": "pass" if best is not None else "infeasible",
+        "verdict": _verdict(best).lower() if best is not None else "infeasible",
         "objective": ["parts", "power_w", "relative_cost", "worst_margin"],
         "trees": [_tree_fields(result, p) for p in result.trees + result.failing],
         "explanations": result.explanation.json_fields(),
