@@ -18,10 +18,19 @@ Findings:
 ``jitter-budget`` (error, on the consumer)
     the RMS jitter exceeds the budget; names the dominant contributor and
     what would lower it.
-``jitter-data`` (info, on the part lacking data)
-    jitter not computed (no reference phase noise, no PLL loop) for consumers
-    that have a budget, or computed without a part's own noise (a PLL without
-    its noise figures, a buffer without additive jitter), so it is optimistic.
+``jitter-data`` (on the part lacking data)
+    info: jitter not computed (no reference phase noise, no PLL loop) for
+    consumers that have a budget; warning: computed without a part's own
+    noise (a PLL without its noise table, ``fom`` or VCO noise, a buffer
+    without additive jitter), so it is optimistic.
+``noise-assumed`` (warning, on the part)
+    a figure the board leaves out (a PLL's ``output_floor`` or
+    ``flicker_fom``, a divider's ``additive_noise``) is taken at its typical
+    value (:data:`clockplan.jitter.tree.TYPICAL_FIGURES`), never as zero.
+``loop-assumed`` (warning, on the PLL)
+    a fractional-N modulator's noise goes through a loop given only by its
+    bandwidth: the usual third-order passive filter designed for it is
+    assumed; ``loop_filter`` gives the real parts.
 
 Every figure is a planning estimate: the part datasheets and the governing
 standard decide.
@@ -36,7 +45,7 @@ from typing import TYPE_CHECKING, Any
 from clockplan.findings import Finding, Severity
 from clockplan.jitter.chain import log_grid
 from clockplan.jitter.consumer import ConsumerJitter, format_band
-from clockplan.jitter.tree import BoardNoise, MissingNoiseData, NodeNoise
+from clockplan.jitter.tree import Assumption, BoardNoise, MissingNoiseData, NodeNoise
 from clockplan.standards.model import gaussian_pp_per_rms
 from clockplan.units import format_time
 
@@ -142,7 +151,9 @@ def _budget_finding(consumer_id: str, jitter: ConsumerJitter) -> Finding:
 
 
 def _data_findings(
-    missing: dict[str, tuple[MissingNoiseData, list[str]]], unmodelled: dict[str, tuple[str, list[str]]]
+    missing: dict[str, tuple[MissingNoiseData, list[str]]],
+    unmodelled: dict[str, tuple[str, list[str]]],
+    assumed: dict[Assumption, list[str]],
 ) -> list[Finding]:
     findings = []
     for part, (gap, consumers) in missing.items():
@@ -158,11 +169,20 @@ def _data_findings(
     for part, (text, consumers) in unmodelled.items():
         findings.append(
             Finding(
-                Severity.INFO,
+                Severity.WARNING,
                 "jitter-data",
                 part,
                 f"{text}, so the jitter of {', '.join(consumers)} is optimistic; "
                 "give the figures from the datasheet (docs/jitter.md)",
+            )
+        )
+    for assumption, consumers in assumed.items():
+        findings.append(
+            Finding(
+                Severity.WARNING,
+                assumption.code,
+                assumption.part,
+                f"{assumption.text}; it counts in the jitter of {', '.join(consumers)}",
             )
         )
     return findings
@@ -170,7 +190,9 @@ def _data_findings(
 
 def _consumer_jitter(noise: NodeNoise, plan: BandPlan) -> ConsumerJitter:
     result = noise.chain.jitter(*plan.band_hz, budget_seconds=plan.budget_s)
-    notes = plan.notes + tuple(dict.fromkeys(f"{text}." for _, text in noise.unmodelled))
+    notes = plan.notes + tuple(
+        dict.fromkeys([f"{text}." for _, text in noise.unmodelled] + [f"{a.text}." for a in noise.assumed])
+    )
     return ConsumerJitter(result, noise.chain, noise.kinds, plan.source, notes)
 
 
@@ -194,6 +216,7 @@ def jitter_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysis"
     model = BoardNoise(board, graph, analysis.frequencies, _analysis_grid(plans))
     missing: dict[str, tuple[MissingNoiseData, list[str]]] = {}
     unmodelled: dict[str, tuple[str, list[str]]] = {}
+    assumed: dict[Assumption, list[str]] = {}
     findings: list[Finding] = []
     for result in analysis.consumers:
         plan = plans[result.id]
@@ -208,6 +231,8 @@ def jitter_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysis"
         analysis = analysis.with_consumer(dataclasses.replace(result, jitter=jitter))
         for part, text in noise.unmodelled:
             unmodelled.setdefault(part, (text, []))[1].append(result.id)
+        for assumption in dict.fromkeys(noise.assumed):
+            assumed.setdefault(assumption, []).append(result.id)
         if jitter.passes is False:
             findings.append(_budget_finding(result.id, jitter))
-    return analysis.with_findings(findings + _data_findings(missing, unmodelled))
+    return analysis.with_findings(findings + _data_findings(missing, unmodelled, assumed))
