@@ -9,6 +9,7 @@ SI numbers all work. The keys are described in ``docs/jitter.md``.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
@@ -211,6 +212,8 @@ def parse_loop(value: object, key: str) -> LoopResponse:
     ('third-order (assumed)', 5)
     >>> parse_loop({"bandwidth": "100 kHz", "damping": 0.707, "model": "second-order"}, "pll[0].loop").model
     'second-order'
+    >>> parse_loop({"bandwidth": "100 kHz", "damping": 0.707, "model": "third-order"}, "pll[0].loop").model
+    'third-order'
     """
     table = _check_table(value, key, _LOOP_KEYS, 'bandwidth = "100 kHz", damping = 0.707')
     explicit = "open_loop_numerator" in table or "open_loop_denominator" in table
@@ -245,12 +248,14 @@ def parse_loop(value: object, key: str) -> LoopResponse:
                 or "use 'third-order' (the usual passive filter, default) or 'second-order' (idealised)",
             )
         build = passive_filter_loop if model == "third-order" else second_order_loop
-        return build(
+        loop = build(
             bandwidth,
             damping=damping,
             phase_margin_deg=margin,
             bandwidth_is=definition,  # type: ignore[arg-type]
         )
+        # A model the board names is stated, not assumed.
+        return dataclasses.replace(loop, model=model) if "model" in table else loop
     except BoardError:
         raise
     except ClockplanError as err:

@@ -4,9 +4,13 @@
 consumer whose chain has the noise data (:mod:`clockplan.jitter.tree`):
 
 - **band**: the consumer's budget band (its standard's ``jitter_band``, or the
-  board's); without one, the default 12 kHz..20 MHz (the band clock datasheets
-  usually quote, common practice) with its upper edge capped at half the
-  consumer's frequency, stated in the result's notes;
+  board's); a sampling converter's clock (``converter = { snr, f_in }``)
+  without one is integrated from :data:`CONVERTER_BAND_LOW_HZ` to half its
+  sample rate (the clock's frequency), the band whose jitter limits the
+  converter's SNR; any other clock without one over the default
+  12 kHz..20 MHz (the band clock datasheets usually quote, common practice)
+  with its upper edge capped at half the consumer's frequency; either way
+  stated in the result's notes;
 - **budget**: the RMS limit of the budget, or its peak-to-peak limit read as
   Gaussian at a bit error ratio of 1e-12 (:meth:`StandardBudget.jitter_rms_limit_s`);
   a consumer without one still gets its jitter, with no verdict;
@@ -27,10 +31,11 @@ Findings:
     a figure the board leaves out (a PLL's ``output_floor`` or
     ``flicker_fom``, a divider's ``additive_noise``) is taken at its typical
     value (:data:`clockplan.jitter.tree.TYPICAL_FIGURES`), never as zero.
-``loop-assumed`` (warning, on the PLL)
-    a fractional-N modulator's noise goes through a loop given only by its
-    bandwidth: the usual third-order passive filter designed for it is
-    assumed; ``loop_filter`` gives the real parts.
+``loop-model`` (on a fractional-N PLL whose modulator noise is counted)
+    which loop the modulator noise went through: a warning when the loop
+    gives only a bandwidth and the usual third-order passive filter designed
+    for it is assumed, info when the board names the model; ``loop_filter``
+    gives the real parts.
 
 Every figure is a planning estimate: the part datasheets and the governing
 standard decide.
@@ -53,11 +58,20 @@ if TYPE_CHECKING:
     from clockplan.analysis import Analysis, AnalysisOptions
     from clockplan.parts import Consumer
 
-__all__ = ["DEFAULT_BAND_HZ", "KIND_TEXT", "FIXES", "BandPlan", "band_plan", "jitter_stage"]
+__all__ = ["DEFAULT_BAND_HZ", "CONVERTER_BAND_LOW_HZ", "KIND_TEXT", "FIXES", "BandPlan", "band_plan", "jitter_stage"]
 
 #: Integration band when a consumer's budget gives none (common practice: the
 #: band clock datasheets usually quote RMS jitter over).
 DEFAULT_BAND_HZ = (12e3, 20e6)
+
+#: Low edge of a sampling converter's jitter band when it gives none. Phase noise
+#: closer to the carrier than the analysis's frequency bin stays in the signal's
+#: own bin and does not lower the measured SNR; 100 Hz sits below the bin of the
+#: usual captures (tens of thousands of points at megasamples per second give bins
+#: of hundreds of hertz and more), so the band errs on the side of counting too
+#: much (common practice, stated here from memory). Its upper edge is half the
+#: sample rate: wideband jitter beyond it folds back into the first Nyquist zone.
+CONVERTER_BAND_LOW_HZ = 100.0
 
 #: Each kind of contributor in words.
 KIND_TEXT = {
@@ -118,7 +132,19 @@ def band_plan(consumer: "Consumer", clock_hz: Fraction | None) -> BandPlan | Non
         band = (float(budget.jitter_band_hz[0]), float(budget.jitter_band_hz[1]))
         source = "board" if budget.key == "inline" or "jitter_band" in budget.overridden else "standard"
         return BandPlan(band, limit, source, tuple(notes))
-    high = min(DEFAULT_BAND_HZ[1], float(clock_hz if clock_hz is not None else consumer.frequency) / 2)
+    half_clock = float(clock_hz if clock_hz is not None else consumer.frequency) / 2
+    if budget is not None and budget.sampling_clock:
+        if half_clock <= CONVERTER_BAND_LOW_HZ:
+            return None
+        band = (CONVERTER_BAND_LOW_HZ, half_clock)
+        notes.append(
+            f"Sampling-converter clock without a jitter band: integrated over {format_band(band)} "
+            "(a fixed low edge up to half the sample rate, taken as the clock's frequency), where jitter limits "
+            "the converter's SNR (SNR = -20 log10(2 pi f_in sigma)); give converter.jitter_band for the "
+            "converter's own band (e.g. a converter that divides its clock samples at a lower rate)."
+        )
+        return BandPlan(band, limit, "converter", tuple(notes))
+    high = min(DEFAULT_BAND_HZ[1], half_clock)
     if high <= DEFAULT_BAND_HZ[0]:
         return None
     band = (DEFAULT_BAND_HZ[0], high)
@@ -179,7 +205,7 @@ def _data_findings(
     for assumption, consumers in assumed.items():
         findings.append(
             Finding(
-                Severity.WARNING,
+                Severity.INFO if assumption.stated else Severity.WARNING,
                 assumption.code,
                 assumption.part,
                 f"{assumption.text}; it counts in the jitter of {', '.join(consumers)}",
@@ -231,8 +257,9 @@ def jitter_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysis"
         analysis = analysis.with_consumer(dataclasses.replace(result, jitter=jitter))
         for part, text in noise.unmodelled:
             unmodelled.setdefault(part, (text, []))[1].append(result.id)
-        for assumption in dict.fromkeys(noise.assumed):
-            assumed.setdefault(assumption, []).append(result.id)
+        if plan.budget_s is not None:  # an assumption that decides no verdict stays a note
+            for assumption in dict.fromkeys(noise.assumed):
+                assumed.setdefault(assumption, []).append(result.id)
         if jitter.passes is False:
             findings.append(_budget_finding(result.id, jitter))
     return analysis.with_findings(findings + _data_findings(missing, unmodelled, assumed))

@@ -105,11 +105,15 @@ _PLL_SUFFIX_KINDS = {"floor": "pll floor", "VCO": "vco", "modulator": "modulator
 
 @dataclass(frozen=True)
 class Assumption:
-    """A figure the board left out and the model assumed: on ``part``, finding ``code``, in words."""
+    """What the model took for ``part`` (a figure left out, the loop model): finding ``code``, in words.
+
+    ``stated`` marks a model the board chose itself (an info finding, not a warning).
+    """
 
     part: str
     code: str
     text: str
+    stated: bool = False
 
 
 @dataclass(frozen=True)
@@ -257,16 +261,8 @@ class BoardNoise:
             flicker = TYPICAL_FLICKER_FOM_DBC_HZ
             assumed.append(_typical(part.id, f"PLL {part.id} has fom but no flicker_fom", "flicker figure", flicker))
         modulator = noise.modulator_order if fractional else None
-        if modulator is not None and loop.model.endswith("(assumed)"):
-            assumed.append(
-                Assumption(
-                    part.id,
-                    "loop-assumed",
-                    f"the fractional-N modulator noise of {part.id} goes through an assumed loop: {loop.summary} "
-                    "(no loop_filter given); the modulator noise rises with offset, so the real filter's poles "
-                    "above the bandwidth decide it: give loop_filter with the real parts (docs/loop-filter.md)",
-                )
-            )
+        if modulator is not None and loop.model != "loop_filter":
+            assumed.append(_modulator_loop(part.id, loop))
         chain = pll_noise(
             upstream.chain,
             point.vco_hz / point.input_hz,
@@ -348,6 +344,26 @@ class BoardNoise:
             return upstream.then(upstream.chain, "buffer", part.id, text)
         chain = add_buffer(upstream.chain, additive.seconds, name=f"{part.id} buffer", band_hz=additive.band_hz)
         return upstream.then(chain, "buffer", part.id)
+
+
+def _modulator_loop(pll_id: str, loop: LoopResponse) -> Assumption:
+    """Which loop the fractional-N modulator noise of ``pll_id`` went through, and whether it was assumed."""
+    described = loop.summary or loop.model
+    if loop.model == "third-order (assumed)":
+        return Assumption(
+            pll_id,
+            "loop-model",
+            f"the fractional-N modulator noise of {pll_id} goes through an assumed loop, the usual {described} "
+            "(the loop gives only a bandwidth); the modulator noise rises with offset, so the real filter's poles "
+            "above the bandwidth decide it: give loop_filter with the real parts (docs/loop-filter.md)",
+        )
+    return Assumption(
+        pll_id,
+        "loop-model",
+        f"the fractional-N modulator noise of {pll_id} goes through the loop the board states: {described}; "
+        "loop_filter with the real parts models the filter as built (docs/loop-filter.md)",
+        stated=True,
+    )
 
 
 def _typical(part: str, lack: str, what: str, value_dbc_hz: float) -> Assumption:

@@ -110,6 +110,11 @@ class StandardBudget:
         Other names the entry is found by.
     overridden
         Names of the fields a board replaced.
+    sampling_clock
+        True when the jitter limit comes from a sampling converter's SNR
+        (``converter = { snr, f_in }``): without a band of its own, the jitter
+        is integrated over the band that limits the converter's SNR, up to half
+        the sample rate (:func:`clockplan.jitter.stage.band_plan`).
     """
 
     key: str
@@ -128,6 +133,7 @@ class StandardBudget:
     notes: str = ""
     aliases: tuple[str, ...] = ()
     overridden: tuple[str, ...] = ()
+    sampling_clock: bool = False
 
     def __post_init__(self) -> None:
         if self.confidence not in CONFIDENCE_LEVELS:
