@@ -377,16 +377,19 @@ def _typical(part: str, lack: str, what: str, value_dbc_hz: float) -> Assumption
 
 
 def loop_model_of(pll: Pll) -> str | None:
-    """The loop model the jitter stage uses for ``pll``, in words, or None without a loop.
+    """The loop the jitter stage uses for ``pll``, in words, or None without a loop.
 
     Examples
     --------
     >>> from clockplan.boardfile import load_board
-    >>> loop_model_of(load_board("boards/sampling-receiver.toml").part("conv_synth"))
+    >>> board = load_board("boards/sampling-receiver.toml")
+    >>> loop_model_of(board.part("conv_synth"))
     'loop_filter: designed order-3 passive filter (its own transfer function)'
+    >>> loop_model_of(board.part("cleaner"))[:60]
+    'third-order passive-filter loop designed for 20 kHz (closed-'
     """
     if pll.loop is not None:
-        return f"{pll.loop.model}: {pll.loop.summary}" if pll.loop.summary else pll.loop.model
+        return pll.loop.summary or pll.loop.model
     if pll.loop_filter is not None:
         how = "as built" if pll.loop_filter.fixed is not None else "designed"
         return f"loop_filter: {how} order-{pll.loop_filter.order} passive filter (its own transfer function)"
