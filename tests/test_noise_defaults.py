@@ -444,12 +444,12 @@ def test_defaults_table_in_the_docs_matches_the_code():
     section = text.split("## Defaults clockplan assumes", 1)[1].split("\n## ", 1)[0]
     rows = {line.split("|")[1].strip(): line for line in section.splitlines() if line.startswith("| `")}
     checks = {
-        "`noise.output_floor`": (f"{TYPICAL_OUTPUT_FLOOR_DBC_HZ:g} dBc/Hz", "noise-assumed"),
-        "`noise.flicker_fom`": (f"{TYPICAL_FLICKER_FOM_DBC_HZ:g} dBc/Hz", "noise-assumed"),
+        "`noise.output_floor` (PLL)": (f"{TYPICAL_OUTPUT_FLOOR_DBC_HZ:g} dBc/Hz", "noise-assumed"),
+        "`noise.flicker_fom` (PLL with `fom`)": (f"{TYPICAL_FLICKER_FOM_DBC_HZ:g} dBc/Hz", "noise-assumed"),
         "`additive_noise` (divider)": (f"{TYPICAL_DIVIDER_FLOOR_DBC_HZ:g} dBc/Hz", "noise-assumed"),
-        "`load.stray`": (f"{float(TYPICAL_STRAY_F) * 1e12:g} pF ± {float(TYPICAL_STRAY_TOLERANCE_F) * 1e12:g} pF", "stray-assumed"),
-        "`converter.jitter_band`": (f"{CONVERTER_BAND_LOW_HZ:g} Hz", None),
-        "`loop.model`": ("third-order", "loop-model"),
+        "`load.stray` (passive crystal)": (f"{float(TYPICAL_STRAY_F) * 1e12:g} pF ± {float(TYPICAL_STRAY_TOLERANCE_F) * 1e12:g} pF", "stray-assumed"),
+        "`converter.jitter_band` (consumer)": (f"{CONVERTER_BAND_LOW_HZ:g} Hz", None),
+        "`loop.model` (PLL `loop` with a bandwidth)": ("third-order", "loop-model"),
     }
     for key, (value, code) in checks.items():
         assert key in rows, key
