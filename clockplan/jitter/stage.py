@@ -203,6 +203,8 @@ def _data_findings(
             )
         )
     for assumption, consumers in assumed.items():
+        if not assumption.code:
+            continue
         findings.append(
             Finding(
                 Severity.INFO if assumption.stated else Severity.WARNING,

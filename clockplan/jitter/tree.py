@@ -107,7 +107,8 @@ _PLL_SUFFIX_KINDS = {"floor": "pll floor", "VCO": "vco", "modulator": "modulator
 class Assumption:
     """What the model took for ``part`` (a figure left out, the loop model): finding ``code``, in words.
 
-    ``stated`` marks a model the board chose itself (an info finding, not a warning).
+    ``stated`` marks a model the board chose itself (an info finding, not a warning);
+    an empty ``code`` is a note on the consumers only.
     """
 
     part: str
@@ -263,6 +264,10 @@ class BoardNoise:
         modulator = noise.modulator_order if fractional else None
         if modulator is not None and loop.model != "loop_filter":
             assumed.append(_modulator_loop(part.id, loop))
+        elif loop.model == "third-order (assumed)":
+            # No modulator for the extra poles to decide: a note on the consumers, no finding.
+            text = f"the loop of {part.id} is assumed: the usual {loop.summary}; loop_filter gives the real parts"
+            assumed.append(Assumption(part.id, "", text, stated=True))
         chain = pll_noise(
             upstream.chain,
             point.vco_hz / point.input_hz,
