@@ -27,7 +27,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
-from functools import cached_property
+from functools import cached_property, lru_cache
 from typing import Literal
 
 import numpy as np
@@ -326,6 +326,12 @@ def _closed_loop_3db_hz(num: np.ndarray, den: np.ndarray, crossover_hz: float) -
     return math.sqrt(low * high)
 
 
+@lru_cache(maxsize=256)
+def _unit_3db_ratio(margin_deg: float, pole_ratio: float) -> float:
+    """Closed-loop -3 dB frequency over the crossover of the passive-filter loop (it depends on the shape only)."""
+    return _closed_loop_3db_hz(*_unit_passive_open_loop(1.0, margin_deg, pole_ratio), 1.0)
+
+
 def passive_filter_loop(
     bandwidth_hz: float,
     *,
@@ -390,8 +396,7 @@ def passive_filter_loop(
         crossover = bandwidth
     elif bandwidth_is == "closed_loop_3db":
         # The shape scales with the crossover: find the 3 dB point of a unit design, then rescale.
-        unit_3db = _closed_loop_3db_hz(*_unit_passive_open_loop(1.0, margin, ratio), 1.0)
-        crossover = bandwidth / unit_3db
+        crossover = bandwidth / _unit_3db_ratio(margin, ratio)
     else:
         raise ClockplanError(
             f"unknown bandwidth definition {bandwidth_is!r}",
