@@ -66,7 +66,7 @@ def test_board_fragment_reads_into_jitter_types():
     assert spare.floor_dbc_hz == -168.0
     assert [(s.offset_hz, s.dbc) for s in spare.spurs] == [(250e3, -100.0)]
     loop = parse_loop(BOARD["pll"][0]["loop"], "pll[0].loop")
-    # A bandwidth-style loop is the usual third-order passive filter by default (issue 14.6).
+    # A bandwidth-style loop is the usual third-order passive filter by default.
     expected = passive_filter_loop(150e3, phase_margin_deg=60.0, bandwidth_is="crossover")
     np.testing.assert_allclose(loop.closed_den, expected.closed_den, rtol=1e-15)
     assert loop.model == "third-order (assumed)" and "60.0° phase margin" in loop.summary

@@ -87,7 +87,7 @@ frequency = "100 MHz"
 
 
 # Parts made ideal on purpose: a figure left out is no longer zero but a typical one with a
-# warning (issue 22.3), so the closed-form tests below state their negligible floors.
+# warning, so the closed-form tests below state their negligible floors.
 NEGLIGIBLE = '"-300 dBc/Hz"'
 IDEAL_PLL = f"output_floor = {NEGLIGIBLE}, flicker_fom = \"-400 dBc/Hz\""
 
@@ -378,6 +378,10 @@ def test_parts_without_their_own_noise_make_the_figure_optimistic():
     analysis = analyze(_board(pll_noise=""))  # pll_a has no noise table, fan no additive jitter
     notes = {f.node: f.message for f in analysis.findings if f.code == "jitter-data"}
     assert set(notes) == {"pll_a", "fan"} and "optimistic" in notes["pll_a"]
+    # An optimistic figure is a warning (never zero in silence), and the
+    # output floor the missing table leaves out is a typical one, named.
+    assert {f.severity.value for f in analysis.findings if f.code == "jitter-data"} == {"warning"}
+    assert [f.node for f in analysis.findings if f.code == "noise-assumed"] == ["pll_a"]
     assert any("pll_a has no noise table" in n for n in analysis.consumer("load").jitter.notes)
 
 
