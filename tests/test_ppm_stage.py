@@ -261,7 +261,7 @@ def _mcu_yield_by_integration() -> float:
     """The gateway MCU's yield, integrated with scipy: uniform temperature, uniform trim and supply error.
 
     The sum of the uniform ±0.5 % trim and ±0.1 % supply errors is trapezoidal (the convolution of two
-    uniform densities, a handbook result), on ±0.6 % with a flat top on ±0.4 %.
+    uniform densities: a trapezoid, elementary probability), on ±0.6 % with a flat top on ±0.4 %.
     """
     from scipy import integrate, stats
 
