@@ -10,8 +10,8 @@ verdict the independent figure gives. References outside the code under test:
   charge-pump loop-filter result, e.g. Banerjee, *PLL Performance, Simulation, and
   Design*, the loop-filter design chapters);
 - the jitter-limited SNR of a sampling converter, ``SNR = -20 log10(2 pi f_in sigma_t)``
-  (Kester, *Data Conversion Handbook*, Analog Devices / Newnes 2005, and Analog
-  Devices' tutorial MT-008 on converter clock jitter), with the clock's jitter counted
+  (W. Kester (ed.), *Data Conversion Handbook*, Newnes 2005, the chapter on
+  sampling-clock jitter), with the clock's jitter counted
   up to half the sample rate;
 - flat noise L over a band integrates to ``sigma_phi**2 = 2 * 10**(L/10) * (f2 - f1)``
   (definition of L(f), IEEE Std 1139);
@@ -238,7 +238,7 @@ def test_converter_clock_is_judged_up_to_half_the_sample_rate():
     expected = _flat_jitter(-150, 245.76e6, band)
     assert jitter.rms_seconds == pytest.approx(expected, rel=1e-6)
     assert expected == pytest.approx(321e-15, abs=0.5e-15)
-    # Kester / MT-008: 75 dB at 100 MHz allows 10**(-75/20) / (2 pi 100 MHz) = 283 fs.
+    # Kester's handbook: 75 dB at 100 MHz allows 10**(-75/20) / (2 pi 100 MHz) = 283 fs.
     budget = 10 ** (-75 / 20) / (2 * math.pi * 100e6)
     assert jitter.budget_seconds == pytest.approx(budget, rel=1e-12)
     # Over 12 kHz..20 MHz (the old default) the same clock shows 130 fs and passed;
