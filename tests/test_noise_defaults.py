@@ -456,3 +456,44 @@ def test_defaults_table_in_the_docs_matches_the_code():
         assert value in rows[key], (key, rows[key])
         if code:
             assert f"`{code}`" in rows[key], key
+
+
+# --------------------------------------------------------------------------- more branches
+
+
+def test_passive_loop_takes_its_pole_ratio():
+    loop = passive_filter_loop(100e3, phase_margin_deg=55, bandwidth_is="crossover", pole_ratio=0.25)
+    poles = np.sort(-1 / np.roots(loop.open_den[:-2]).real)
+    assert poles[0] / poles[1] == pytest.approx(0.25, rel=1e-9)
+    gain_db, phase_margin = _open_loop_db_and_phase(loop, 100e3)
+    assert gain_db == pytest.approx(0.0, abs=1e-9) and phase_margin == pytest.approx(55.0, abs=1e-7)
+
+
+def test_an_assumed_loop_without_a_modulator_is_a_note_only():
+    text = _receiver_with_loop(None).replace('n = "29.4912"', "n = 30")
+    jitter = analyze(parse_board(text)).consumer("adc_clk").jitter
+    assert any(note.startswith("the loop of conv_synth is assumed") for note in jitter.notes)
+    assert any(note.startswith("the loop of cleaner is assumed") for note in jitter.notes)
+
+
+def test_loop_model_in_the_json_for_every_kind_of_loop():
+    text = Path(RECEIVER).read_text()
+    built = text.replace('phase_margin = 55\n', 'phase_margin = 55\nr1 = "910 Ω"\nc1 = "5.6 nF"\nc2 = "270 pF"\nr3 = "6.2 kΩ"\nc3 = "39 pF"\n', 1)
+    assert built != text
+    bare = text.replace('loop = { bandwidth = "20 kHz", damping = 0.707 }\n', "")
+    assert bare != text
+    plls = {p["id"]: p for p in analysis_document(analyze(parse_board(built)))["plls"]}
+    assert plls["conv_synth"]["loop"] == "loop_filter: as built order-3 passive filter (its own transfer function)"
+    plls = {p["id"]: p for p in analysis_document(analyze(parse_board(bare)))["plls"]}
+    assert plls["cleaner"]["loop_model"] is None and plls["cleaner"]["loop"] is None
+    polynomial = text.replace(
+        'loop = { bandwidth = "20 kHz", damping = 0.707 }',
+        "loop = { open_loop_numerator = [1.2e5, 2.0e10], open_loop_denominator = [1, 0, 0] }",
+    )
+    plls = {p["id"]: p for p in analysis_document(analyze(parse_board(polynomial)))["plls"]}
+    assert plls["cleaner"]["loop_model"] == plls["cleaner"]["loop"] == "open-loop polynomials"
+
+
+def test_stray_assumption_without_a_budget_stays_silent():
+    analysis = analyze(parse_board(CRYSTAL.format(stray="").replace('ppm = "±50 ppm"\n', "")))
+    assert _codes(analysis, "stray-assumed") == []
