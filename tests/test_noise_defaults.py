@@ -497,3 +497,12 @@ def test_loop_model_in_the_json_for_every_kind_of_loop():
 def test_stray_assumption_without_a_budget_stays_silent():
     analysis = analyze(parse_board(CRYSTAL.format(stray="").replace('ppm = "±50 ppm"\n', "")))
     assert _codes(analysis, "stray-assumed") == []
+
+
+def test_uncounted_noise_without_a_budget_stays_a_note():
+    text = _chain(f"output_floor = {QUIET}").replace('jitter = "10 ps"\n', "")
+    analysis = analyze(parse_board(text))
+    assert _codes(analysis, "jitter-data") == []
+    assert any("is not counted" in note for note in analysis.consumer("load").jitter.notes)
+    budgeted = analyze(parse_board(_chain(f"output_floor = {QUIET}")))
+    assert _codes(budgeted, "jitter-data") == [("warning", "pll_a")]

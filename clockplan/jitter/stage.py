@@ -70,7 +70,8 @@ DEFAULT_BAND_HZ = (12e3, 20e6)
 #: usual captures (tens of thousands of points at megasamples per second give bins
 #: of hundreds of hertz and more), so the band errs on the side of counting too
 #: much (common practice, stated here from memory). Its upper edge is half the
-#: sample rate: wideband jitter beyond it folds back into the first Nyquist zone.
+#: sample rate; clock noise beyond it folds back too and is not counted (a clock
+#: with a high far-out floor needs a wider ``converter.jitter_band``).
 CONVERTER_BAND_LOW_HZ = 100.0
 
 #: Each kind of contributor in words.
@@ -257,9 +258,9 @@ def jitter_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysis"
             continue
         jitter = _consumer_jitter(noise, plan)
         analysis = analysis.with_consumer(dataclasses.replace(result, jitter=jitter))
-        for part, text in noise.unmodelled:
-            unmodelled.setdefault(part, (text, []))[1].append(result.id)
-        if plan.budget_s is not None:  # an assumption that decides no verdict stays a note
+        if plan.budget_s is not None:  # a gap or an assumption that decides no verdict stays a note
+            for part, text in noise.unmodelled:
+                unmodelled.setdefault(part, (text, []))[1].append(result.id)
             for assumption in dict.fromkeys(noise.assumed):
                 assumed.setdefault(assumption, []).append(result.id)
         if jitter.passes is False:
