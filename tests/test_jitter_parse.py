@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from clockplan.errors import BoardError
-from clockplan.jitter.loop import second_order_loop
+from clockplan.jitter.loop import passive_filter_loop, second_order_loop
 from clockplan.jitter.parse import (
     parse_additive_noise,
     parse_additive_jitter,
@@ -66,8 +66,14 @@ def test_board_fragment_reads_into_jitter_types():
     assert spare.floor_dbc_hz == -168.0
     assert [(s.offset_hz, s.dbc) for s in spare.spurs] == [(250e3, -100.0)]
     loop = parse_loop(BOARD["pll"][0]["loop"], "pll[0].loop")
-    expected = second_order_loop(150e3, phase_margin_deg=60.0, bandwidth_is="crossover")
+    # A bandwidth-style loop is the usual third-order passive filter by default.
+    expected = passive_filter_loop(150e3, phase_margin_deg=60.0, bandwidth_is="crossover")
     np.testing.assert_allclose(loop.closed_den, expected.closed_den, rtol=1e-15)
+    assert loop.model == "third-order (assumed)" and "60.0° phase margin" in loop.summary
+    idealised = parse_loop({**BOARD["pll"][0]["loop"], "model": "second-order"}, "pll[0].loop")
+    expected = second_order_loop(150e3, phase_margin_deg=60.0, bandwidth_is="crossover")
+    np.testing.assert_allclose(idealised.closed_den, expected.closed_den, rtol=1e-15)
+    assert idealised.model == "second-order"
     noise = parse_pll_noise(BOARD["pll"][0]["noise"], "pll[0].noise")
     assert (noise.fom_dbc_hz, noise.flicker_fom_dbc_hz, noise.modulator_order) == (-226.0, -266.0, 3)
     assert noise.vco is not None and noise.vco.offsets_hz.tolist() == [1e4, 1e6, 1e7]
@@ -127,6 +133,10 @@ def test_misspelt_key_gets_a_suggestion():
         ({"bandwidth": "100 kHz", "phase_margin": "sixty"}, "loop.phase_margin"),
         ({"bandwidth": "100 kHz", "damping": 1, "bandwidth_is": "unity"}, "loop.bandwidth_is"),
         ({"bandwidth": "100 kHz", "dampign": 1}, "loop.dampign"),
+        ({"bandwidth": "100 kHz", "damping": 1, "model": "third"}, "loop.model"),
+        ({"bandwidth": "100 kHz", "damping": -1, "model": "second-order"}, "loop.damping"),
+        ({"bandwidth": "100 kHz", "phase_margin": 95, "model": "second-order"}, "loop.phase_margin"),
+        ({"open_loop_numerator": [1e9], "open_loop_denominator": [1, 0, 0], "model": "second-order"}, "loop.model"),
         ({"open_loop_numerator": [1e9]}, "loop.open_loop_denominator"),
         ({"open_loop_numerator": [1e9], "open_loop_denominator": [1, 0, 0, 0]}, "loop"),
         ({"open_loop_numerator": [1e9, "x"], "open_loop_denominator": [1, 0, 0]}, "loop.open_loop_numerator[1]"),

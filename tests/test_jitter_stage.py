@@ -86,12 +86,22 @@ frequency = "100 MHz"
 """
 
 
+# Parts made ideal on purpose: a figure left out is no longer zero but a typical one with a
+# warning, so the closed-form tests below state their negligible floors.
+NEGLIGIBLE = '"-300 dBc/Hz"'
+IDEAL_PLL = f"output_floor = {NEGLIGIBLE}, flicker_fom = \"-400 dBc/Hz\""
+
+
+def _pll_noise(figures: str = "") -> str:
+    return f"noise = {{ {figures + ', ' if figures else ''}{IDEAL_PLL} }}"
+
+
 def _chain_text(**changes) -> str:
     fields = {
         "ref_level": -150,
-        "pll_noise": "",
+        "pll_noise": _pll_noise(),
         "ratio": 4,
-        "divider_noise": "",
+        "divider_noise": f"additive_noise = {NEGLIGIBLE}",
         "buffer_noise": "",
         "budget": "10 ps",
     }
@@ -172,6 +182,7 @@ id = "div"
 input = "ref"
 ratio = [1, 8]
 settings = { ratio = 5 }
+additive_noise = "-300 dBc/Hz"
 
 [[consumer]]
 id = "clk"
@@ -189,7 +200,7 @@ jitter_band = ["10 kHz", "5 MHz"]
 def test_fom_floor_follows_the_normalised_figure():
     # Floor at the VCO: FOM + 10 log10(10 MHz) + 20 log10(100) = -226 + 70 + 40 = -116 dBc/Hz;
     # at the /10 output -136 dBc/Hz; it adds in power to the carried reference (-130 dBc/Hz).
-    jitter = analyze(_board(pll_noise='noise = { fom = "-226 dBc/Hz" }')).consumer("direct").jitter
+    jitter = analyze(_board(pll_noise=_pll_noise('fom = "-226 dBc/Hz"'))).consumer("direct").jitter
     floor_density = jitter.chain.contributor("pll_a floor")
     assert 10 * math.log10(floor_density[0]) == pytest.approx(-136.0, abs=1e-6)
     assert _curve_at(jitter, 10.0) == pytest.approx(10 * math.log10(10**-13 + 10**-13.6), abs=1e-6)
@@ -198,9 +209,9 @@ def test_fom_floor_follows_the_normalised_figure():
 @pytest.mark.parametrize(
     ("pll_noise", "dominant", "kind"),
     [
-        ('noise = { fom = "-240 dBc/Hz" }', "ref reference", "reference"),  # floor 14 dB below the reference
-        ('noise = { fom = "-216 dBc/Hz" }', "pll_a floor", "pll floor"),  # floor 4 dB above it
-        ('noise = { fom = "-240 dBc/Hz", vco_phase_noise = [["1 kHz", -50], ["1 MHz", -110], ["10 MHz", -130]] }',
+        (_pll_noise('fom = "-240 dBc/Hz"'), "ref reference", "reference"),  # floor 14 dB below the reference
+        (_pll_noise('fom = "-216 dBc/Hz"'), "pll_a floor", "pll floor"),  # floor 4 dB above it
+        (_pll_noise('fom = "-240 dBc/Hz", vco_phase_noise = [["1 kHz", -50], ["1 MHz", -110], ["10 MHz", -130]]'),
          "pll_a VCO", "vco"),
     ],
 )
@@ -227,7 +238,7 @@ def test_broken_budget_is_an_error_naming_the_dominant_contributor():
 
 
 def test_cascade_multiplies_through_both_plls():
-    text = _chain_text(pll_noise='noise = { fom = "-230 dBc/Hz" }') + """
+    text = _chain_text(pll_noise=_pll_noise('fom = "-230 dBc/Hz"')) + """
 [[pll]]
 id = "pll_b"
 input = "pll_a.out"
@@ -237,7 +248,7 @@ n = [8, 100]
 outputs.hi = { divider = [1, 16] }
 settings = { r = 1, n = 20, outputs = { hi = 4 } }
 loop = { bandwidth = "1 MHz", damping = 1.0 }
-noise = { fom = "-226 dBc/Hz" }
+noise = { fom = "-226 dBc/Hz", output_floor = "-300 dBc/Hz", flicker_fom = "-400 dBc/Hz" }
 
 [[consumer]]
 id = "fast"
@@ -364,22 +375,28 @@ def test_pll_without_a_loop_stops_the_chain():
 
 
 def test_parts_without_their_own_noise_make_the_figure_optimistic():
-    analysis = analyze(_board())  # pll_a has no noise table, fan no additive jitter
+    analysis = analyze(_board(pll_noise=""))  # pll_a has no noise table, fan no additive jitter
     notes = {f.node: f.message for f in analysis.findings if f.code == "jitter-data"}
     assert set(notes) == {"pll_a", "fan"} and "optimistic" in notes["pll_a"]
+    # An optimistic figure is a warning (never zero in silence), and the
+    # output floor the missing table leaves out is a typical one, named.
+    assert {f.severity.value for f in analysis.findings if f.code == "jitter-data"} == {"warning"}
+    assert [f.node for f in analysis.findings if f.code == "noise-assumed"] == ["pll_a"]
     assert any("pll_a has no noise table" in n for n in analysis.consumer("load").jitter.notes)
 
 
 # --------------------------------------------------------------------------- loop filter
 
 
-def _receiver_without_filter() -> str:
-    # The same loop as a second-order approximation with the same crossover and margin.
+def _receiver_without_filter(model: str = "second-order") -> str:
+    # The same loop, given by its crossover and margin only: the idealised second-order loop
+    # (model = "second-order"), or the default assumed third-order passive filter (model = None).
     text = Path(RECEIVER).read_text()
     block = re.search(r"\[pll\.loop_filter\].*?\n\n", text, re.S).group(0)
     bandwidth = re.search(r'bandwidth = "([^"]+)"', block).group(1)
     margin = re.search(r"phase_margin = (\S+)", block).group(1)
-    loop = f'loop = {{ bandwidth = "{bandwidth}", phase_margin = {margin}, bandwidth_is = "crossover" }}\n'
+    chosen = f', model = "{model}"' if model else ""
+    loop = f'loop = {{ bandwidth = "{bandwidth}", phase_margin = {margin}, bandwidth_is = "crossover"{chosen} }}\n'
     return text.replace(block, "\n").replace('noise = { fom = "-227', loop + 'noise = { fom = "-227')
 
 
@@ -443,7 +460,7 @@ def test_loop_filter_noise_matches_an_independent_integration():
         (('outputs = 2\n', 'outputs = 2\nadditive_jitter_band = ["12 kHz", "20 MHz"]\n'),
          "buffer[0].additive_jitter_band", "without additive_jitter"),
         (('outputs = 2\n', 'outputs = 2\nadditive_jitter = "fast"\n'), "buffer[0].additive_jitter", "unit"),
-        (('ratio = [1, 64]\n', 'ratio = [1, 64]\nadditive_noise = "-150 dBm"\n'), "divider[0].additive_noise", "unit"),
+        (('additive_noise = "-300 dBc/Hz"', 'additive_noise = "-150 dBm"'), "divider[0].additive_noise", "unit"),
         (('loop = { bandwidth = "100 kHz", damping = 0.707 }', 'loop = { bandwidth = "100 kHz", dampin = 0.7 }'),
          "pll[0].loop.dampin", "unknown key"),
     ],

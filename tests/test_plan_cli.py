@@ -58,7 +58,7 @@ def test_loop_bandwidth_option_feeds_the_spur_flag(capsys, tmp_path):
     from pathlib import Path
 
     text = Path("boards/edge-router.toml").read_text(encoding="utf-8")
-    loop = 'loop = { bandwidth = "100 kHz", damping = 0.707 }\n'
+    loop = 'loop = { bandwidth = "100 kHz", damping = 0.707, model = "third-order" }\n'
     assert loop in text
     board = tmp_path / "no-audio-loop.toml"
     board.write_text(text.replace(loop, ""), encoding="utf-8")

@@ -52,7 +52,8 @@ class ConsumerJitter:
         Contributor name -> ``(kind, part id)``
         (:data:`clockplan.jitter.tree.CONTRIBUTOR_KINDS`).
     band_source
-        Where the band comes from: ``"standard"``, ``"board"`` or ``"default"``.
+        Where the band comes from: ``"standard"``, ``"board"``, ``"converter"``
+        (derived from a sampling converter's sample rate) or ``"default"``.
     notes
         What the figure assumes (default band, peak-to-peak limit read as RMS,
         parts whose noise is not counted); reports print them.

@@ -27,24 +27,33 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
-from functools import cached_property
+from functools import cached_property, lru_cache
 from typing import Literal
 
 import numpy as np
 
 from clockplan.errors import ClockplanError
 from clockplan.jitter._checks import positive_number
+from clockplan.units import format_frequency
 
 __all__ = [
     "BandwidthDefinition",
     "LoopResponse",
     "loop_from_open_loop",
+    "LOOP_MODELS",
     "second_order_loop",
+    "passive_filter_loop",
     "damping_from_phase_margin",
     "phase_margin_from_damping",
 ]
 
 BandwidthDefinition = Literal["closed_loop_3db", "crossover"]
+
+#: What a loop given by its bandwidth may be: the usual third-order passive
+#: filter loop (the default) or the idealised type-II second-order loop.
+LOOP_MODELS = ("third-order", "second-order")
+
+_BANDWIDTH_TEXT = {"closed_loop_3db": "closed-loop -3 dB", "crossover": "open-loop crossover"}
 
 
 def _coefficients(values: object, key: str) -> np.ndarray:
@@ -82,6 +91,11 @@ class LoopResponse:
     ----------
     open_num, open_den
         Coefficients of ``G(s) = open_num(s) / open_den(s)``, highest power first.
+    model
+        What the loop is, for reports: ``"open-loop polynomials"``,
+        ``"second-order"``, ``"third-order (assumed)"``, ``"loop_filter"``.
+    summary
+        The loop in words (bandwidth, margin, what was assumed).
 
     Examples
     --------
@@ -92,6 +106,8 @@ class LoopResponse:
 
     open_num: np.ndarray
     open_den: np.ndarray
+    model: str = "open-loop polynomials"
+    summary: str = ""
 
     def __post_init__(self) -> None:
         num = _coefficients(self.open_num, "open_loop_numerator")
@@ -277,4 +293,118 @@ def second_order_loop(
             hint="use 'closed_loop_3db' or 'crossover'",
         )
     wn = 2.0 * math.pi * bandwidth / ratio
-    return LoopResponse(np.array([2.0 * zeta * wn, wn * wn]), np.array([1.0, 0.0, 0.0]))
+    summary = f"type-II second-order loop, {format_frequency(bandwidth)} ({_BANDWIDTH_TEXT[bandwidth_is]}), damping {zeta:.3g}"
+    return LoopResponse(np.array([2.0 * zeta * wn, wn * wn]), np.array([1.0, 0.0, 0.0]), "second-order", summary)
+
+
+def _unit_passive_open_loop(crossover_hz: float, phase_margin_deg: float, pole_ratio: float) -> tuple[np.ndarray, np.ndarray]:
+    """Open loop of the third-order passive filter designed for a crossover and margin, scaled so ``den(0)`` terms are O(1)."""
+    from clockplan.loopfilter.design import LoopSpec, design_filter
+    from clockplan.loopfilter.response import open_loop_polynomials
+
+    # The loop's shape does not depend on the charge pump, VCO gain or N (they
+    # only scale the capacitors): a unit loop constant gives the same G(s).
+    spec = LoopSpec(1.0, 1.0, 1, 1.0)
+    design = design_filter(spec, crossover_hz, phase_margin_deg, order=3, pole_ratio=pole_ratio)
+    num, den = open_loop_polynomials(design, spec)
+    scale = float(den[-3])  # A0: divide through so the s**2 coefficient is 1
+    return num / scale, den / scale
+
+
+def _closed_loop_3db_hz(num: np.ndarray, den: np.ndarray, crossover_hz: float) -> float:
+    """The highest frequency where ``|H|**2 >= 1/2`` (above any peaking), by bisection."""
+    loop = LoopResponse(num, den)
+    grid = np.geomspace(crossover_hz / 1e3, crossover_hz * 1e3, 6001)
+    above = np.flatnonzero(loop.closed_loop_power(grid) >= 0.5)
+    low, high = float(grid[above[-1]]), float(grid[above[-1] + 1])
+    for _ in range(80):
+        middle = math.sqrt(low * high)
+        if float(loop.closed_loop_power([middle])[0]) >= 0.5:
+            low = middle
+        else:
+            high = middle
+    return math.sqrt(low * high)
+
+
+@lru_cache(maxsize=256)
+def _unit_3db_ratio(margin_deg: float, pole_ratio: float) -> float:
+    """Closed-loop -3 dB frequency over the crossover of the passive-filter loop (it depends on the shape only)."""
+    return _closed_loop_3db_hz(*_unit_passive_open_loop(1.0, margin_deg, pole_ratio), 1.0)
+
+
+def passive_filter_loop(
+    bandwidth_hz: float,
+    *,
+    damping: float | None = None,
+    phase_margin_deg: float | None = None,
+    bandwidth_is: BandwidthDefinition = "closed_loop_3db",
+    pole_ratio: float | None = None,
+) -> LoopResponse:
+    """The loop of a charge-pump PLL with the usual third-order passive filter.
+
+    ``G(s) = K (1 + s Tz) / (s**2 (1 + s T1) (1 + s T3))``: the type-II
+    second-order loop with the filter's shunt capacitor pole ``T1`` and an
+    extra RC pole ``T3 = pole_ratio * T1``, designed by
+    :func:`clockplan.loopfilter.design.design_filter` for the phase margin at
+    the crossover. Unlike :func:`second_order_loop`, whose ``|H|`` falls only
+    20 dB/decade, this loop falls 60 dB/decade above its bandwidth: the
+    difference decides a fractional-N modulator's noise, which rises with
+    offset.
+
+    Parameters
+    ----------
+    bandwidth_hz
+        The loop bandwidth in Hz.
+    damping, phase_margin_deg
+        Exactly one: the phase margin, or a damping factor read as the phase
+        margin of the second-order loop with that damping
+        (:func:`phase_margin_from_damping`; 0.707 gives 65.5 degrees).
+    bandwidth_is
+        ``"closed_loop_3db"`` (default: where ``|H|`` is 3 dB down) or
+        ``"crossover"`` (where ``|G| = 1``, the design method's bandwidth).
+    pole_ratio
+        ``T3 / T1``; :data:`clockplan.loopfilter.design.DEFAULT_POLE_RATIO` by default.
+
+    Examples
+    --------
+    >>> loop = passive_filter_loop(100e3, phase_margin_deg=60)
+    >>> round(float(10 * np.log10(loop.closed_loop_power([100e3])[0])), 3)
+    -3.01
+    >>> loop.open_den.size - 1  # s**2 (1 + s T1) (1 + s T3)
+    4
+    """
+    from clockplan.loopfilter.design import DEFAULT_POLE_RATIO
+
+    if (damping is None) == (phase_margin_deg is None):
+        raise ClockplanError(
+            "give exactly one of damping and phase margin",
+            key="loop",
+            hint="e.g. damping = 0.707, or phase_margin = 60 (degrees)",
+        )
+    margin = phase_margin_from_damping(damping) if damping is not None else float(phase_margin_deg)  # type: ignore[arg-type]
+    if not (math.isfinite(margin) and 0.0 < margin < 90.0):
+        raise ClockplanError(
+            f"phase margin {phase_margin_deg!r} degrees is outside 0..90",
+            key="phase_margin",
+            hint="a passive-filter loop has a phase margin strictly between 0 and 90 degrees; 45 to 70 is usual",
+        )
+    bandwidth = positive_number(
+        bandwidth_hz, key="bandwidth", what="loop bandwidth", hint="give the loop bandwidth in Hz, e.g. 100e3"
+    )
+    ratio = DEFAULT_POLE_RATIO if pole_ratio is None else float(pole_ratio)
+    if bandwidth_is == "crossover":
+        crossover = bandwidth
+    elif bandwidth_is == "closed_loop_3db":
+        # The shape scales with the crossover: find the 3 dB point of a unit design, then rescale.
+        crossover = bandwidth / _unit_3db_ratio(margin, ratio)
+    else:
+        raise ClockplanError(
+            f"unknown bandwidth definition {bandwidth_is!r}",
+            key="bandwidth_is",
+            hint="use 'closed_loop_3db' or 'crossover'",
+        )
+    summary = (
+        f"third-order passive-filter loop designed for {format_frequency(bandwidth)} ({_BANDWIDTH_TEXT[bandwidth_is]}), "
+        f"{margin:.1f}° phase margin, extra pole at T3/T1 = {ratio:g}"
+    )
+    return LoopResponse(*_unit_passive_open_loop(crossover, margin, ratio), "third-order (assumed)", summary)

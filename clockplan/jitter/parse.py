@@ -9,6 +9,7 @@ SI numbers all work. The keys are described in ``docs/jitter.md``.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
@@ -18,7 +19,7 @@ import numpy as np
 
 from clockplan.errors import BoardError, ClockplanError, UnitError, did_you_mean
 from clockplan.jitter.chain import DEFAULT_BUFFER_BAND_HZ
-from clockplan.jitter.loop import LoopResponse, loop_from_open_loop, second_order_loop
+from clockplan.jitter.loop import LOOP_MODELS, LoopResponse, loop_from_open_loop, passive_filter_loop, second_order_loop
 from clockplan.jitter.profile import PhaseNoiseProfile, Spur, find_bad_point
 from clockplan.units import parse_dbc, parse_frequency, parse_number, parse_time
 
@@ -184,23 +185,41 @@ def _parse_polynomial(value: object, key: str) -> list[float]:
     return [float(_read(parse_number, c, f"{key}[{i}]")) for i, c in enumerate(value)]
 
 
-_LOOP_KEYS = ("bandwidth", "damping", "phase_margin", "bandwidth_is", "open_loop_numerator", "open_loop_denominator")
+_LOOP_KEYS = (
+    "bandwidth",
+    "damping",
+    "phase_margin",
+    "bandwidth_is",
+    "model",
+    "open_loop_numerator",
+    "open_loop_denominator",
+)
 
 
 def parse_loop(value: object, key: str) -> LoopResponse:
     """Read a PLL loop: bandwidth with damping or phase margin, or open-loop polynomials.
 
+    A bandwidth-style loop is modelled by ``model``: ``"third-order"`` (the
+    default: the usual third-order passive filter designed for that bandwidth
+    and margin, :func:`~clockplan.jitter.loop.passive_filter_loop`) or
+    ``"second-order"`` (the idealised type-II loop,
+    :func:`~clockplan.jitter.loop.second_order_loop`).
+
     Examples
     --------
     >>> loop = parse_loop({"bandwidth": "100 kHz", "phase_margin": "60 deg"}, "pll[0].loop")
-    >>> loop.closed_den.size
-    3
+    >>> loop.model, loop.closed_den.size
+    ('third-order (assumed)', 5)
+    >>> parse_loop({"bandwidth": "100 kHz", "damping": 0.707, "model": "second-order"}, "pll[0].loop").model
+    'second-order'
+    >>> parse_loop({"bandwidth": "100 kHz", "damping": 0.707, "model": "third-order"}, "pll[0].loop").model
+    'third-order'
     """
     table = _check_table(value, key, _LOOP_KEYS, 'bandwidth = "100 kHz", damping = 0.707')
     explicit = "open_loop_numerator" in table or "open_loop_denominator" in table
     try:
         if explicit:
-            for name in ("bandwidth", "damping", "phase_margin", "bandwidth_is"):
+            for name in ("bandwidth", "damping", "phase_margin", "bandwidth_is", "model"):
                 if name in table:
                     raise BoardError(
                         f"{name!r} cannot go with explicit open-loop polynomials",
@@ -220,12 +239,23 @@ def parse_loop(value: object, key: str) -> LoopResponse:
         damping = None if "damping" not in table else float(_read(parse_number, table["damping"], f"{key}.damping"))
         margin = None if "phase_margin" not in table else _parse_degrees(table["phase_margin"], f"{key}.phase_margin")
         definition = table.get("bandwidth_is", "closed_loop_3db")
-        return second_order_loop(
+        model = table.get("model", LOOP_MODELS[0])
+        if model not in LOOP_MODELS:
+            raise BoardError(
+                f"unknown loop model {model!r}",
+                key=f"{key}.model",
+                hint=did_you_mean(str(model), LOOP_MODELS)
+                or "use 'third-order' (the usual passive filter, default) or 'second-order' (idealised)",
+            )
+        build = passive_filter_loop if model == "third-order" else second_order_loop
+        loop = build(
             bandwidth,
             damping=damping,
             phase_margin_deg=margin,
             bandwidth_is=definition,  # type: ignore[arg-type]
         )
+        # A model the board names is stated, not assumed.
+        return dataclasses.replace(loop, model=model) if "model" in table else loop
     except BoardError:
         raise
     except ClockplanError as err:

@@ -4,9 +4,13 @@
 consumer whose chain has the noise data (:mod:`clockplan.jitter.tree`):
 
 - **band**: the consumer's budget band (its standard's ``jitter_band``, or the
-  board's); without one, the default 12 kHz..20 MHz (the band clock datasheets
-  usually quote, common practice) with its upper edge capped at half the
-  consumer's frequency, stated in the result's notes;
+  board's); a sampling converter's clock (``converter = { snr, f_in }``)
+  without one is integrated from :data:`CONVERTER_BAND_LOW_HZ` to half its
+  sample rate (the clock's frequency), the band whose jitter limits the
+  converter's SNR; any other clock without one over the default
+  12 kHz..20 MHz (the band clock datasheets usually quote, common practice)
+  with its upper edge capped at half the consumer's frequency; either way
+  stated in the result's notes;
 - **budget**: the RMS limit of the budget, or its peak-to-peak limit read as
   Gaussian at a bit error ratio of 1e-12 (:meth:`StandardBudget.jitter_rms_limit_s`);
   a consumer without one still gets its jitter, with no verdict;
@@ -26,10 +30,20 @@ Findings:
     the rest of the jitter cannot be computed, but the time deviation of a
     spread it inherits (and its allowance does not cover) already breaks the
     budget by itself; names the spreading part.
-``jitter-data`` (info, on the part lacking data)
-    jitter not computed (no reference phase noise, no PLL loop) for consumers
-    that have a budget, or computed without a part's own noise (a PLL without
-    its noise figures, a buffer without additive jitter), so it is optimistic.
+``jitter-data`` (on the part lacking data)
+    info: jitter not computed (no reference phase noise, no PLL loop) for
+    consumers that have a budget; warning: computed without a part's own
+    noise (a PLL without its noise table, ``fom`` or VCO noise, a buffer
+    without additive jitter), so it is optimistic.
+``noise-assumed`` (warning, on the part)
+    a figure the board leaves out (a PLL's ``output_floor`` or
+    ``flicker_fom``, a divider's ``additive_noise``) is taken at its typical
+    value (:data:`clockplan.jitter.tree.TYPICAL_FIGURES`), never as zero.
+``loop-model`` (on a fractional-N PLL whose modulator noise is counted)
+    which loop the modulator noise went through: a warning when the loop
+    gives only a bandwidth and the usual third-order passive filter designed
+    for it is assumed, info when the board names the model; ``loop_filter``
+    gives the real parts.
 
 Every figure is a planning estimate: the part datasheets and the governing
 standard decide.
@@ -49,7 +63,7 @@ from clockplan.jitter.chain import log_grid
 from clockplan.jitter.consumer import ConsumerJitter, format_band
 from clockplan.jitter.result import JitterResult
 from clockplan.jitter.spread import SQUARE_WAVE_FACTOR
-from clockplan.jitter.tree import BoardNoise, MissingNoiseData, NodeNoise
+from clockplan.jitter.tree import Assumption, BoardNoise, MissingNoiseData, NodeNoise
 from clockplan.margins import format_margin_warning, is_thin
 from clockplan.spreading import SpreadSource, spread_allowance, spreads_on_chain
 from clockplan.standards.model import PEAK_TO_PEAK_BER, JitterLimit, gaussian_pp_per_rms
@@ -59,11 +73,21 @@ if TYPE_CHECKING:
     from clockplan.analysis import Analysis, AnalysisOptions
     from clockplan.parts import Consumer
 
-__all__ = ["DEFAULT_BAND_HZ", "KIND_TEXT", "FIXES", "BandPlan", "band_plan", "jitter_stage"]
+__all__ = ["DEFAULT_BAND_HZ", "CONVERTER_BAND_LOW_HZ", "KIND_TEXT", "FIXES", "BandPlan", "band_plan", "jitter_stage"]
 
 #: Integration band when a consumer's budget gives none (common practice: the
 #: band clock datasheets usually quote RMS jitter over).
 DEFAULT_BAND_HZ = (12e3, 20e6)
+
+#: Low edge of a sampling converter's jitter band when it gives none. Phase noise
+#: closer to the carrier than the analysis's frequency bin stays in the signal's
+#: own bin and does not lower the measured SNR; 100 Hz sits below the bin of the
+#: usual captures (tens of thousands of points at megasamples per second give bins
+#: of hundreds of hertz and more), so the band errs on the side of counting too
+#: much (common practice, stated here from memory). Its upper edge is half the
+#: sample rate; clock noise beyond it folds back too and is not counted (a clock
+#: with a high far-out floor needs a wider ``converter.jitter_band``).
+CONVERTER_BAND_LOW_HZ = 100.0
 
 #: Each kind of contributor in words.
 KIND_TEXT = {
@@ -152,7 +176,19 @@ def band_plan(consumer: "Consumer", clock_hz: Fraction | None) -> BandPlan | Non
         band = (float(budget.jitter_band_hz[0]), float(budget.jitter_band_hz[1]))
         source = "board" if budget.key == "inline" or "jitter_band" in budget.overridden else "standard"
         return BandPlan(band, limit, source, tuple(notes), limits)
-    high = min(DEFAULT_BAND_HZ[1], float(clock_hz if clock_hz is not None else consumer.frequency) / 2)
+    half_clock = float(clock_hz if clock_hz is not None else consumer.frequency) / 2
+    if budget is not None and budget.sampling_clock:
+        if half_clock <= CONVERTER_BAND_LOW_HZ:
+            return None
+        band = (CONVERTER_BAND_LOW_HZ, half_clock)
+        notes.append(
+            f"Sampling-converter clock without a jitter band: integrated over {format_band(band)} "
+            "(a fixed low edge up to half the sample rate, taken as the clock's frequency), where jitter limits "
+            "the converter's SNR (SNR = -20 log10(2 pi f_in sigma)); give converter.jitter_band for the "
+            "converter's own band (e.g. a converter that divides its clock samples at a lower rate)."
+        )
+        return BandPlan(band, limit, "converter", tuple(notes), limits)
+    high = min(DEFAULT_BAND_HZ[1], half_clock)
     if high <= DEFAULT_BAND_HZ[0]:
         return None
     band = (DEFAULT_BAND_HZ[0], high)
@@ -218,7 +254,9 @@ def _budget_finding(consumer_id: str, jitter: ConsumerJitter) -> Finding:
 
 
 def _data_findings(
-    missing: dict[str, tuple[MissingNoiseData, list[str]]], unmodelled: dict[str, tuple[str, list[str]]]
+    missing: dict[str, tuple[MissingNoiseData, list[str]]],
+    unmodelled: dict[str, tuple[str, list[str]]],
+    assumed: dict[Assumption, list[str]],
 ) -> list[Finding]:
     findings = []
     for part, (gap, consumers) in missing.items():
@@ -234,11 +272,22 @@ def _data_findings(
     for part, (text, consumers) in unmodelled.items():
         findings.append(
             Finding(
-                Severity.INFO,
+                Severity.WARNING,
                 "jitter-data",
                 part,
                 f"{text}, so the jitter of {', '.join(consumers)} is optimistic; "
                 "give the figures from the datasheet (docs/jitter.md)",
+            )
+        )
+    for assumption, consumers in assumed.items():
+        if not assumption.code:
+            continue
+        findings.append(
+            Finding(
+                Severity.INFO if assumption.stated else Severity.WARNING,
+                assumption.code,
+                assumption.part,
+                f"{assumption.text}; it counts in the jitter of {', '.join(consumers)}",
             )
         )
     return findings
@@ -285,7 +334,9 @@ def _consumer_jitter(noise: NodeNoise, plan: BandPlan, source: SpreadSource | No
         notes += (_spread_note(source, covered, seconds),)
         if covered:
             result = _without(result, spread_names)
-    notes += tuple(dict.fromkeys(f"{text}." for _, text in noise.unmodelled))
+    notes += tuple(
+        dict.fromkeys([f"{text}." for _, text in noise.unmodelled] + [f"{a.text}." for a in noise.assumed])
+    )
     return ConsumerJitter(result, noise.chain, noise.kinds, plan.source, notes, plan.limits)
 
 
@@ -338,6 +389,7 @@ def jitter_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysis"
     model = BoardNoise(board, graph, analysis.frequencies, _analysis_grid(plans))
     missing: dict[str, tuple[MissingNoiseData, list[str]]] = {}
     unmodelled: dict[str, tuple[str, list[str]]] = {}
+    assumed: dict[Assumption, list[str]] = {}
     findings: list[Finding] = []
     for result in analysis.consumers:
         plan = plans[result.id]
@@ -354,11 +406,14 @@ def jitter_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysis"
             continue
         jitter = _consumer_jitter(noise, plan, source, covered)
         analysis = analysis.with_consumer(dataclasses.replace(result, jitter=jitter))
-        for part, text in noise.unmodelled:
-            unmodelled.setdefault(part, (text, []))[1].append(result.id)
+        if plan.budget_s is not None:  # a gap or an assumption that decides no verdict stays a note
+            for part, text in noise.unmodelled:
+                unmodelled.setdefault(part, (text, []))[1].append(result.id)
+            for assumption in dict.fromkeys(noise.assumed):
+                assumed.setdefault(assumption, []).append(result.id)
         if jitter.passes is False:
             findings.append(_budget_finding(result.id, jitter))
         thin = _margin_finding(result.id, jitter, board.margin_warning)
         if thin is not None:
             findings.append(thin)
-    return analysis.with_findings(findings + _data_findings(missing, unmodelled))
+    return analysis.with_findings(findings + _data_findings(missing, unmodelled, assumed))

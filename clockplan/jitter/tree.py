@@ -18,10 +18,21 @@ and carries the noise down, one operation per part
   (:mod:`clockplan.jitter.spread`), which dividers and buffers pass and a PLL
   further down filters by its closed-loop response, like any spur.
 
+A physical figure the board leaves out is never taken as zero: a PLL's
+``output_floor``, its ``flicker_fom`` (when its ``fom`` is given) and a plain
+divider's ``additive_noise`` take the typical figures in :data:`TYPICAL_FIGURES`
+(common practice), and the node records the assumption (:attr:`NodeNoise.assumed`)
+for a warning finding.
+
 The loop comes from the PLL's ``loop`` (bandwidth and damping or phase
 margin, or open-loop polynomials) or from its ``loop_filter``, designed (or
 taken as built) for the N and PFD frequency of the plan: the filter's own
-transfer function then replaces the bandwidth-and-damping approximation.
+transfer function then replaces the bandwidth-and-damping model. A loop
+given by its bandwidth is the usual third-order passive filter designed for
+it (:func:`clockplan.jitter.loop.passive_filter_loop`) unless it says
+``model = "second-order"``; when a fractional-N modulator's noise goes
+through such an assumed loop, the node records it for a warning that points
+to ``loop_filter``.
 Cascades work because a PLL's input is whatever node feeds it.
 
 Each node's result is computed once (chains below a PLL share it). Where the
@@ -40,7 +51,7 @@ import numpy as np
 from clockplan.errors import BoardError, ClockplanError
 from clockplan.frequency import Frequencies, PllOperatingPoint
 from clockplan.jitter.chain import NoiseChain, add_buffer, add_noise, add_tones, divide, pll as pll_noise, source_chain
-from clockplan.jitter.loop import LoopResponse, loop_from_open_loop
+from clockplan.jitter.loop import LoopResponse
 from clockplan.parts import Board, Buffer, Divider, Pll, PllOutput, Reference
 
 if TYPE_CHECKING:
@@ -48,7 +59,37 @@ if TYPE_CHECKING:
 
     from clockplan.loopfilter.evaluate import LoopFilterResult
 
-__all__ = ["CONTRIBUTOR_KINDS", "MissingNoiseData", "NodeNoise", "BoardNoise"]
+__all__ = [
+    "CONTRIBUTOR_KINDS",
+    "TYPICAL_FIGURES",
+    "TYPICAL_OUTPUT_FLOOR_DBC_HZ",
+    "TYPICAL_FLICKER_FOM_DBC_HZ",
+    "TYPICAL_DIVIDER_FLOOR_DBC_HZ",
+    "Assumption",
+    "MissingNoiseData",
+    "NodeNoise",
+    "BoardNoise",
+    "loop_model_of",
+]
+
+#: A PLL output's additive white floor (divider and driver) when the noise table
+#: gives no ``output_floor``: the noisy end of the -150..-165 dBc/Hz that clock
+#: outputs usually reach (common practice, from memory).
+TYPICAL_OUTPUT_FLOOR_DBC_HZ = -150.0
+#: A PLL's normalised flicker (1/f) figure when its noise table gives ``fom`` but
+#: no ``flicker_fom``: the noisy end of the -270..-260 dBc/Hz usual for
+#: integrated synthesizers (common practice, from memory).
+TYPICAL_FLICKER_FOM_DBC_HZ = -260.0
+#: A plain divider's additive white floor without ``additive_noise``: the noisy
+#: end of the -150..-160 dBc/Hz usual for logic dividers (common practice, from memory).
+TYPICAL_DIVIDER_FLOOR_DBC_HZ = -150.0
+
+#: Each typical figure: board key, value, unit, finding code (docs/board-format.md lists them).
+TYPICAL_FIGURES = (
+    ("pll noise.output_floor", TYPICAL_OUTPUT_FLOOR_DBC_HZ, "dBc/Hz", "noise-assumed"),
+    ("pll noise.flicker_fom", TYPICAL_FLICKER_FOM_DBC_HZ, "dBc/Hz", "noise-assumed"),
+    ("divider additive_noise", TYPICAL_DIVIDER_FLOOR_DBC_HZ, "dBc/Hz", "noise-assumed"),
+)
 
 #: What a contributor is, for naming the dominant one and suggesting a fix.
 CONTRIBUTOR_KINDS = (
@@ -65,6 +106,20 @@ CONTRIBUTOR_KINDS = (
 
 # Contributor-name suffixes that chain.pll gives, and their kinds.
 _PLL_SUFFIX_KINDS = {"floor": "pll floor", "VCO": "vco", "modulator": "modulator"}
+
+
+@dataclass(frozen=True)
+class Assumption:
+    """What the model took for ``part`` (a figure left out, the loop model): finding ``code``, in words.
+
+    ``stated`` marks a model the board chose itself (an info finding, not a warning);
+    an empty ``code`` is a note on the consumers only.
+    """
+
+    part: str
+    code: str
+    text: str
+    stated: bool = False
 
 
 @dataclass(frozen=True)
@@ -94,19 +149,30 @@ class NodeNoise:
     unmodelled
         ``(part id, text)`` for each part upstream whose own noise is not
         counted for lack of data (the figure is then optimistic).
+    assumed
+        Figures upstream that the board left out and the model assumed
+        (typical noise figures, an assumed loop).
     """
 
     chain: NoiseChain
     kinds: Mapping[str, tuple[str, str]]
     unmodelled: tuple[tuple[str, str], ...] = ()
+    assumed: tuple[Assumption, ...] = ()
 
-    def then(self, chain: NoiseChain, kind: str, part: str, unmodelled: str | None = None) -> "NodeNoise":
+    def then(
+        self,
+        chain: NoiseChain,
+        kind: str,
+        part: str,
+        unmodelled: str | None = None,
+        assumed: tuple[Assumption, ...] = (),
+    ) -> "NodeNoise":
         """The next node's noise: ``chain`` with its new contributors tagged ``kind`` of ``part``."""
         kinds = dict(self.kinds)
         for name in chain.names:
             kinds.setdefault(name, (kind, part))
         extra = ((part, unmodelled),) if unmodelled else ()
-        return NodeNoise(chain, kinds, self.unmodelled + extra)
+        return NodeNoise(chain, kinds, self.unmodelled + extra, self.assumed + assumed)
 
 
 @dataclass(eq=False)
@@ -165,8 +231,12 @@ class BoardNoise:
             return self._pll_output(node, part, upstream)
         if isinstance(part, Divider):
             ratio = self.frequencies.nodes[parent] / self.frequencies.nodes[node]
-            chain = divide(upstream.chain, ratio, floor_dbc_hz=part.additive_noise, name=part.id)
-            return upstream.then(chain, "divider floor", part.id)
+            floor, assumed = part.additive_noise, ()
+            if floor is None:
+                floor = TYPICAL_DIVIDER_FLOOR_DBC_HZ
+                assumed = (_typical(part.id, f"divider {part.id} has no additive_noise", "additive floor", floor),)
+            chain = divide(upstream.chain, ratio, floor_dbc_hz=floor, name=part.id)
+            return upstream.then(chain, "divider floor", part.id, assumed=assumed)
         if isinstance(part, Buffer):
             return self._buffer(part, upstream)
         return upstream  # a consumer sees its source's clock
@@ -192,6 +262,18 @@ class BoardNoise:
         noise = part.noise if part.noise is not None else PllNoise()
         # A fractional-N loop that spreads runs its modulator even at a whole N: it sweeps N.
         fractional = point.setting.n.denominator != 1 or (part.spread is not None and part.mode == "fractional")
+        assumed: list[Assumption] = []
+        flicker = noise.flicker_fom_dbc_hz
+        if flicker is None and noise.fom_dbc_hz is not None:
+            flicker = TYPICAL_FLICKER_FOM_DBC_HZ
+            assumed.append(_typical(part.id, f"PLL {part.id} has fom but no flicker_fom", "flicker figure", flicker))
+        modulator = noise.modulator_order if fractional else None
+        if modulator is not None and loop.model != "loop_filter":
+            assumed.append(_modulator_loop(part.id, loop))
+        elif loop.model == "third-order (assumed)":
+            # No modulator for the extra poles to decide: a note on the consumers, no finding.
+            text = f"the loop of {part.id} is assumed: the usual {loop.summary}; loop_filter gives the real parts"
+            assumed.append(Assumption(part.id, "", text, stated=True))
         chain = pll_noise(
             upstream.chain,
             point.vco_hz / point.input_hz,
@@ -199,16 +281,21 @@ class BoardNoise:
             name=part.id,
             vco=noise.vco,
             fom_dbc_hz=noise.fom_dbc_hz,
-            flicker_fom_dbc_hz=noise.flicker_fom_dbc_hz,
+            flicker_fom_dbc_hz=flicker,
             f_pfd_hz=float(point.pfd_hz),
-            modulator_order=noise.modulator_order if fractional else None,
+            modulator_order=modulator,
         )
         kinds = dict(upstream.kinds)
         for name in chain.names:
             if name not in kinds:
                 kinds[name] = (_PLL_SUFFIX_KINDS[name.rsplit(" ", 1)[1]], part.id)
         missing = _missing_pll_figures(part, fractional)
-        result = NodeNoise(chain, kinds, upstream.unmodelled + (((part.id, missing),) if missing else ()))
+        result = NodeNoise(
+            chain,
+            kinds,
+            upstream.unmodelled + (((part.id, missing),) if missing else ()),
+            upstream.assumed + tuple(assumed),
+        )
         if part.id in self.loop_filters:
             result = result.then(self._filter_noise(part.id, chain), "loop filter", part.id)
         return self._with_spread(result, part.spread, part.id)
@@ -240,7 +327,7 @@ class BoardNoise:
         key = f"pll[{self.board.plls.index(part)}].loop_filter"
         try:
             result = evaluate_loop_filter(part.loop_filter, part.loop_filter.spec(point.setting.n, point.pfd_hz))
-            loop = loop_from_open_loop(*result.open_loop())
+            loop = LoopResponse(*result.open_loop(), "loop_filter", loop_model_of(part))
         except ClockplanError as err:
             raise BoardError(
                 f"the loop filter of {part.id} cannot be built for N = {point.setting.n}: {err.message}",
@@ -266,8 +353,12 @@ class BoardNoise:
         owner = self.board.part(pll_id)
         ratio = self.frequencies.plls[pll_id].setting.dividers[part.name]
         floor = owner.noise.output_floor_dbc_hz if owner.noise is not None else None
+        assumed: tuple[Assumption, ...] = ()
+        if floor is None:
+            floor = TYPICAL_OUTPUT_FLOOR_DBC_HZ
+            assumed = (_typical(pll_id, f"PLL {pll_id} has no output_floor", "output floor", floor),)
         chain = divide(upstream.chain, ratio, floor_dbc_hz=floor, name=f"{node} output")
-        return self._with_spread(upstream.then(chain, "output floor", node), part.spread, node)
+        return self._with_spread(upstream.then(chain, "output floor", node, assumed=assumed), part.spread, node)
 
     def _buffer(self, part: Buffer, upstream: NodeNoise) -> NodeNoise:
         additive: Any = part.additive_jitter
@@ -276,6 +367,56 @@ class BoardNoise:
             return upstream.then(upstream.chain, "buffer", part.id, text)
         chain = add_buffer(upstream.chain, additive.seconds, name=f"{part.id} buffer", band_hz=additive.band_hz)
         return upstream.then(chain, "buffer", part.id)
+
+
+def _modulator_loop(pll_id: str, loop: LoopResponse) -> Assumption:
+    """Which loop the fractional-N modulator noise of ``pll_id`` went through, and whether it was assumed."""
+    described = loop.summary or loop.model
+    if loop.model == "third-order (assumed)":
+        return Assumption(
+            pll_id,
+            "loop-model",
+            f"the fractional-N modulator noise of {pll_id} goes through an assumed loop, the usual {described} "
+            "(the loop gives only a bandwidth); the modulator noise rises with offset, so the real filter's poles "
+            "above the bandwidth decide it: give loop_filter with the real parts (docs/loop-filter.md)",
+        )
+    return Assumption(
+        pll_id,
+        "loop-model",
+        f"the fractional-N modulator noise of {pll_id} goes through the loop the board states: {described}; "
+        "loop_filter with the real parts models the filter as built (docs/loop-filter.md)",
+        stated=True,
+    )
+
+
+def _typical(part: str, lack: str, what: str, value_dbc_hz: float) -> Assumption:
+    return Assumption(
+        part,
+        "noise-assumed",
+        f"{lack}: a typical {what} of {value_dbc_hz:g} dBc/Hz is assumed (common practice, "
+        "the noisy end of the usual range; docs/board-format.md, Defaults clockplan assumes); "
+        "give the datasheet figure",
+    )
+
+
+def loop_model_of(pll: Pll) -> str | None:
+    """The loop the jitter stage uses for ``pll``, in words, or None without a loop.
+
+    Examples
+    --------
+    >>> from clockplan.boardfile import load_board
+    >>> board = load_board("boards/sampling-receiver.toml")
+    >>> loop_model_of(board.part("conv_synth"))
+    'loop_filter: designed order-3 passive filter (its own transfer function)'
+    >>> loop_model_of(board.part("cleaner"))[:60]
+    'third-order passive-filter loop designed for 20 kHz (closed-'
+    """
+    if pll.loop is not None:
+        return pll.loop.summary or pll.loop.model
+    if pll.loop_filter is not None:
+        how = "as built" if pll.loop_filter.fixed is not None else "designed"
+        return f"loop_filter: {how} order-{pll.loop_filter.order} passive filter (its own transfer function)"
+    return None
 
 
 def _missing_pll_figures(part: Pll, fractional: bool) -> str | None:

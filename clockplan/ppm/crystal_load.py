@@ -10,6 +10,11 @@ resonance sits above series resonance by
     f_L / f_s = sqrt(1 + C1 / (C0 + CL))   ~   1 + C1 / (2 (C0 + CL))
 
 and the pulling is the ratio of the two load resonances minus one.
+
+A board that gives no ``stray`` capacitance gets :data:`TYPICAL_STRAY_F`
+± :data:`TYPICAL_STRAY_TOLERANCE_F` (pins, traces and the oscillator's
+input: a few pF on a typical board, common practice), never 0 pF, and the
+accuracy stage warns (``stray-assumed``).
 """
 
 from __future__ import annotations
@@ -22,6 +27,8 @@ from clockplan.errors import BoardError
 from clockplan.eseries import exact_values as series_values
 
 __all__ = [
+    "TYPICAL_STRAY_F",
+    "TYPICAL_STRAY_TOLERANCE_F",
     "CrystalLoad",
     "CapacitorChoice",
     "series_load",
@@ -30,6 +37,15 @@ __all__ = [
     "pulling",
     "nearest_load_capacitors",
 ]
+
+
+#: Stray capacitance assumed when a board gives none: 3 pF (pin, trace and
+#: oscillator-input capacitance of a typical board are 2-5 pF; common practice,
+#: from memory).
+TYPICAL_STRAY_F = Fraction(3, 10**12)
+#: The uncertainty that goes with it when the board gives none either: ±2 pF, so
+#: the assumed stray spans 1-5 pF.
+TYPICAL_STRAY_TOLERANCE_F = Fraction(2, 10**12)
 
 
 def series_load(cap_a: Fraction, cap_b: Fraction, stray: Fraction) -> Fraction:
@@ -104,6 +120,8 @@ class CrystalLoad:
         Fractional tolerance of each load capacitor (e.g. 5 % C0G: ``1/20``).
     stray_tolerance
         Uncertainty of the stray estimate, ± F.
+    stray_assumed
+        True when the board gave no ``stray`` and :data:`TYPICAL_STRAY_F` was taken.
     """
 
     specified_load: Fraction
@@ -114,6 +132,7 @@ class CrystalLoad:
     stray: Fraction = Fraction(0)
     cap_tolerance: Fraction = Fraction(0)
     stray_tolerance: Fraction = Fraction(0)
+    stray_assumed: bool = False
 
     def __post_init__(self) -> None:
         for name in ("specified_load", "motional_c1", "cap_a", "cap_b"):

@@ -15,7 +15,7 @@ from typing import Any, TypeVar
 from clockplan.errors import BoardError, ClockplanError, did_you_mean
 from clockplan.ppm.accuracy import ConsumerBudget
 from clockplan.ppm.aging import NO_AGING, AgingLinear, AgingLog, AgingModel
-from clockplan.ppm.crystal_load import CrystalLoad
+from clockplan.ppm.crystal_load import TYPICAL_STRAY_F, TYPICAL_STRAY_TOLERANCE_F, CrystalLoad
 from clockplan.ppm.oscillator import DISTRIBUTIONS, OSCILLATOR_KINDS, OscillatorPower, OscillatorSpec, trim_range
 from clockplan.ppm.spread import SpreadAllowance, SpreadSpectrum
 from clockplan.ppm.temperature import (
@@ -263,6 +263,14 @@ def parse_crystal_load(value: Any, key: str) -> CrystalLoad:
         raise BoardError("capacitors needs the two load capacitors", key=f"{key}.capacitors", hint="capacitors = ['18 pF', '18 pF']")
     caps = [_read(parse_quantity, c, f"{key}.capacitors[{i}]", "F") for i, c in enumerate(capacitors)]
     tolerance = _magnitude(table.get("capacitor_tolerance", "0 %"), f"{key}.capacitor_tolerance")
+    # No stray given: a typical board's few pF (never 0 pF), with a warning from the accuracy stage.
+    assumed = "stray" not in table
+    stray = TYPICAL_STRAY_F if assumed else farads("stray")
+    stray_tolerance = (
+        farads("stray_tolerance")
+        if "stray_tolerance" in table
+        else (TYPICAL_STRAY_TOLERANCE_F if assumed else Fraction(0))
+    )
     try:
         return CrystalLoad(
             specified_load=farads("specified"),
@@ -270,9 +278,10 @@ def parse_crystal_load(value: Any, key: str) -> CrystalLoad:
             shunt_c0=farads("c0"),
             cap_a=caps[0],
             cap_b=caps[1],
-            stray=farads("stray", "0 pF"),
+            stray=stray,
             cap_tolerance=tolerance,
-            stray_tolerance=farads("stray_tolerance", "0 pF"),
+            stray_tolerance=stray_tolerance,
+            stray_assumed=assumed,
         )
     except BoardError as err:
         raise err.located(key=key) from None

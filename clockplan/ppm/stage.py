@@ -286,6 +286,10 @@ def _consumer_findings(
     return []
 
 
+def _pf(farads: Fraction) -> str:
+    return f"{float(farads) * 1e12:g} pF"
+
+
 def _reference_findings(model: ReferenceModel, advice: ReferenceAdvice, links: Sequence[ConsumerLink]) -> list[Finding]:
     ref = model.reference
     findings = []
@@ -303,6 +307,16 @@ def _reference_findings(model: ReferenceModel, advice: ReferenceAdvice, links: S
             f"error of {', '.join(advice.consumers) or 'its consumers'} is not checked; {datasheet_keys}"
         )
         findings.append(Finding(Severity.INFO, "ppm-no-data", ref.id, message))
+    load = model.spec.crystal_load if model.spec is not None else None
+    if load is not None and load.stray_assumed and judged:
+        low, high = load.pulling_range()
+        message = (
+            f"no stray capacitance in the crystal's load table: a typical {_pf(load.stray)} ± "
+            f"{_pf(load.stray_tolerance)} is assumed (pins, traces and the oscillator input; common practice, "
+            f"docs/board-format.md, Defaults clockplan assumes), which pulls it {format_error(low)} to "
+            f"{format_error(high)}; give load.stray (and stray_tolerance) for this board's layout"
+        )
+        findings.append(Finding(Severity.WARNING, "stray-assumed", ref.id, message))
     if advice.oven_power is not None:
         power = advice.oven_power
         message = (

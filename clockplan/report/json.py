@@ -55,9 +55,19 @@ def _consumer(result: ConsumerResult, status: str, chain_status: str) -> dict[st
     return doc
 
 
+def _loop_model(pll: Any) -> tuple[str | None, str | None]:
+    """The PLL's loop model (short key) and the loop in words, as the jitter stage uses them."""
+    if pll.loop is None and pll.loop_filter is None:
+        return None, None
+    from clockplan.jitter.tree import loop_model_of
+
+    return (pll.loop.model if pll.loop is not None else "loop_filter"), loop_model_of(pll)
+
+
 def _plls(analysis: Analysis) -> list[dict[str, Any]]:
     plls = []
     for pll in analysis.board.plls:
+        model, summary = _loop_model(pll)
         setting = analysis.settings.plls.get(pll.id)
         point = analysis.frequencies.plls.get(pll.id)
         plls.append(
@@ -71,6 +81,8 @@ def _plls(analysis: Analysis) -> list[dict[str, Any]]:
                 "vco_hz_exact": format_exact(point.vco_hz) if point else None,
                 "outputs": dict(setting.dividers) if setting else {},
                 "spur_offset_hz": number(_spur_offset(point)) if point else None,
+                "loop_model": model,
+                "loop": summary,
             }
         )
     return plls

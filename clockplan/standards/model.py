@@ -144,6 +144,11 @@ class StandardBudget:
         The board's figures that are looser than the standard's, each with
         both figures (``"jitter 2 ps RMS (the standard: 1 ps)"``): a product
         built to them may not comply; the analysis warns (``budget-loosened``).
+    sampling_clock
+        True when the jitter limit comes from a sampling converter's SNR
+        (``converter = { snr, f_in }``): without a band of its own, the jitter
+        is integrated over the band that limits the converter's SNR, up to half
+        the sample rate (:func:`clockplan.jitter.stage.band_plan`).
     """
 
     key: str
@@ -163,6 +168,7 @@ class StandardBudget:
     aliases: tuple[str, ...] = ()
     overridden: tuple[str, ...] = ()
     loosened: tuple[str, ...] = ()
+    sampling_clock: bool = False
 
     def __post_init__(self) -> None:
         if self.confidence not in CONFIDENCE_LEVELS:

@@ -325,14 +325,21 @@ def resolve_budget(standard_key: str | None, overrides: Mapping[str, Any], key: 
             )
         value, note = _DERIVERS[kind](_check_table(kind, overrides[kind], path), path, overrides)
         fields["ppm" if target == "ppm" else "jitter_rms_s"] = value
-        if kind == "converter" and "jitter_band" in overrides[kind]:
-            fields["jitter_band_hz"] = _pair(f"{path}.jitter_band", parse_frequency, overrides[kind]["jitter_band"])
+        if kind == "converter":
+            fields["sampling_clock"] = True
+            if "jitter_band" in overrides[kind]:
+                fields["jitter_band_hz"] = _pair(f"{path}.jitter_band", parse_frequency, overrides[kind]["jitter_band"])
+            elif "jitter_band" not in overrides and base is not None and base.jitter_band_hz is not None:
+                # The standard's band belongs to its own limit, not to the converter's SNR:
+                # the jitter stage derives the converter's band from its sample rate.
+                fields["jitter_band_hz"] = None
         given[target] = kind
         notes.append(note)
     if base is None and not fields:
         return None
     start = base or _inline_base(key)
-    changed = tuple(sorted(set(given.values()) | ({"jitter_band"} if "jitter_band_hz" in fields else set())))
+    band_given = fields.get("jitter_band_hz") is not None
+    changed = tuple(sorted(set(given.values()) | ({"jitter_band"} if band_given else set())))
     merged = dataclasses.replace(start, **fields, overridden=changed if base else ())
     if base is not None and changed:
         looser = _loosened(base, merged)
