@@ -16,7 +16,9 @@ from typing import Any, TypeVar
 
 from clockplan.errors import BoardError, did_you_mean
 from clockplan.parts import (
+    ACCURACY_POLICIES,
     REFERENCE_KINDS,
+    WORST_CASE,
     Board,
     Buffer,
     Consumer,
@@ -54,6 +56,7 @@ __all__ = [
     "load_board",
     "parse_board",
     "read_board_section",
+    "read_accuracy_policy",
     "read_reference",
     "read_consumer",
     "read_denominator",
@@ -110,8 +113,25 @@ def read_board_section(doc: dict, ctx: Locator) -> tuple[str, tuple[float, float
     temperature = reader.get("temperature", _temperature_range, (25.0, 25.0))
     lifetime = reader.get("lifetime", parse_duration, 0.0)
     reader.raw("description")
+    reader.raw("accuracy_policy")  # read by read_accuracy_policy
     reader.finish()
     return name, temperature, lifetime
+
+
+def accuracy_policy(value: Any) -> str:
+    """``"worst-case"`` or ``"statistical"`` (case and surrounding spaces ignored)."""
+    text = nonempty_text(value).lower()
+    if text not in ACCURACY_POLICIES:
+        hint = did_you_mean(text, ACCURACY_POLICIES) or "policies: " + ", ".join(ACCURACY_POLICIES)
+        raise BoardError(f"unknown accuracy policy {value!r}", hint=hint)
+    return text
+
+
+def read_accuracy_policy(doc: dict, ctx: Locator) -> str:
+    """The board's ``[board] accuracy_policy``: how frequency-error budgets are judged (default worst case)."""
+    if "board" not in doc:
+        return WORST_CASE
+    return TableReader(doc["board"], "board", ctx).get("accuracy_policy", accuracy_policy, WORST_CASE)
 
 
 
@@ -300,6 +320,7 @@ def parse_board(text: str, file: str | None = None) -> Board:
     """
     doc, ctx = read_document(text, file, _SECTIONS, _section_hint)
     name, temperature, lifetime = read_board_section(doc, ctx)
+    policy = read_accuracy_policy(doc, ctx)
     pins: dict[str, dict[str, Any]] = {}
     references = tuple(finish_part(r, read_reference(r)) for r in _array_of_tables(doc, "reference", ctx))
     plls = []
@@ -330,6 +351,7 @@ def parse_board(text: str, file: str | None = None) -> Board:
         pins=pins,
         source_file=file,
         lines=_line_table(ctx, doc),
+        accuracy_policy=policy,
     )
     _check_unique_ids(board, ctx)
     from clockplan.graph import build_graph

@@ -30,10 +30,19 @@ __all__ = [
     "Settings",
     "Board",
     "REFERENCE_KINDS",
+    "ACCURACY_POLICIES",
+    "WORST_CASE",
+    "STATISTICAL",
 ]
 
 #: Oscillator kinds a reference can be (see docs/board-format.md).
 REFERENCE_KINDS = ("crystal", "xo", "vcxo", "tcxo", "ocxo", "mems", "rc")
+
+#: How a frequency-error budget is judged (``[board] accuracy_policy``, docs/frequency-accuracy.md):
+#: every tolerance at its limit (the default), or the statistical (RSS) total on request.
+WORST_CASE = "worst-case"
+STATISTICAL = "statistical"
+ACCURACY_POLICIES = (WORST_CASE, STATISTICAL)
 
 
 @dataclass(frozen=True)
@@ -257,7 +266,9 @@ class Board:
 
     ``given`` holds settings fixed by the file (partial: ``pll_partial`` keeps
     per-PLL pins such as a fixed R when N is left open). ``lines`` maps key
-    paths to line numbers for error messages.
+    paths to line numbers for error messages. ``accuracy_policy`` says how
+    frequency-error budgets are judged: :data:`WORST_CASE` (the default) or
+    :data:`STATISTICAL`.
     """
 
     name: str
@@ -271,6 +282,7 @@ class Board:
     pins: Mapping[str, Mapping[str, Any]] = field(default_factory=dict)
     source_file: str | None = None
     lines: Mapping[str, int] = field(default_factory=dict)
+    accuracy_policy: str = WORST_CASE
 
     def part(self, part_id: str) -> Any:
         """Return the part (reference, PLL, divider, buffer or consumer) with this id."""

@@ -17,6 +17,7 @@ from dataclasses import dataclass, field
 from fractions import Fraction
 from typing import TYPE_CHECKING, Any, NamedTuple
 
+from clockplan.parts import WORST_CASE
 from clockplan.ppm.accuracy import AccuracyResult, ConsumerBudget, Contribution, compose
 from clockplan.ppm.aging import SECONDS_PER_YEAR
 from clockplan.ppm.display import format_error, format_limits
@@ -165,6 +166,8 @@ class ConsumerAccuracy:
     is ``None`` when the consumer has no frequency-error budget: the error is
     then shown, not judged. ``basis`` says whether the reference's figures
     come from the board file or are typical grade figures assumed for its kind.
+    ``policy`` is the board's ``accuracy_policy``: ``passes`` is always the
+    worst case, ``verdict_passes`` the verdict under the policy.
     """
 
     reference: str
@@ -181,6 +184,7 @@ class ConsumerAccuracy:
     yield_standard_error: float | None = None
     spec: OscillatorSpec | None = field(default=None, compare=False, repr=False)
     sampled_reference_errors: "np.ndarray | None" = field(default=None, compare=False, repr=False)
+    policy: str = WORST_CASE
 
     @property
     def judged(self) -> bool:
@@ -194,6 +198,11 @@ class ConsumerAccuracy:
     @property
     def rss_passes(self) -> bool | None:
         return self.result.rss_passes if self.judged else None
+
+    @property
+    def verdict_passes(self) -> bool | None:
+        """Inside the budget under the board's ``policy``: the worst case (default) or the statistical total."""
+        return self.passes if self.policy == WORST_CASE else self.rss_passes
 
     @property
     def thin(self) -> bool:
@@ -372,6 +381,8 @@ class ConsumerAccuracy:
             "ppm_rss_margin": ppm_number(r.rss_margin) if self.judged else None,
             "ppm_pass": self.passes,
             "ppm_rss_pass": self.rss_passes,
+            "ppm_policy": self.policy,
+            "ppm_policy_pass": self.verdict_passes,
             "ppm_at_25c": ppm_number(self.at_25c.worst_case) if self.at_25c else None,
             "ppm_pass_at_25c": self.at_25c.passes if self.at_25c and self.judged else None,
             "ppm_checked": r.checked,

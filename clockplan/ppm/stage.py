@@ -23,6 +23,7 @@ from typing import TYPE_CHECKING
 
 from clockplan.errors import BoardError
 from clockplan.findings import Finding, Severity
+from clockplan.parts import WORST_CASE
 from clockplan.ppm.accuracy import AccuracyResult, ConsumerBudget, consumer_accuracy
 from clockplan.ppm.board import (
     GRADE_RANK,
@@ -94,6 +95,7 @@ def _accuracy(model: ReferenceModel, link: ConsumerLink, analysis: "Analysis") -
         lifetime_s=board.lifetime_s,
         required_margin=DEFAULT_MARGIN * budget.half_width,
         spec=model.spec,
+        policy=board.accuracy_policy,
     )
 
 
@@ -223,6 +225,9 @@ def _cure(link: ConsumerLink, accuracy: ConsumerAccuracy, advice: ReferenceAdvic
     return "fix: " + _advice_text(advice)
 
 
+_STATISTICAL_KEY = 'accuracy_policy = "statistical"'
+
+
 def _consumer_findings(link: ConsumerLink, accuracy: ConsumerAccuracy, advice: ReferenceAdvice) -> list[Finding]:
     r = accuracy.result
     worst = f"worst case {format_error(r.worst_case)} {_at(r.worst_temperature_c)}{_assumed(accuracy)}"
@@ -237,10 +242,20 @@ def _consumer_findings(link: ConsumerLink, accuracy: ConsumerAccuracy, advice: R
             f"{_room_text(accuracy)}{_yield_text(accuracy)}; {_cure(link, accuracy, advice)}"
         )
         return [Finding(Severity.ERROR, "ppm-budget", link.id, message)]
+    if not r.passes and accuracy.policy == WORST_CASE:
+        # The default policy: a board with every part at its limit must pass; the RSS total hides the corner.
+        message = (
+            f"{worst} breaks {budget}{spread} (worst-case policy: every tolerance at its limit); the statistical "
+            f"total (RSS) {format_error(r.rss)} is inside it, but a board with its parts at their limits fails"
+            f"{_room_text(accuracy)}{_yield_text(accuracy)}; {_cure(link, accuracy, advice)} "
+            f"(or, if a statistical verdict is acceptable for this product, set [board] {_STATISTICAL_KEY})"
+        )
+        return [Finding(Severity.ERROR, "ppm-budget", link.id, message)]
     if not r.passes:
         message = (
-            f"statistical total (RSS) {format_error(r.rss)} is inside {budget}, but the {worst} breaks it{spread}: "
-            f"a board with every part at its limit fails{_yield_text(accuracy)}; {_cure(link, accuracy, advice)}"
+            f"statistical total (RSS) {format_error(r.rss)} is inside {budget}, the verdict the board asks for "
+            f"({_STATISTICAL_KEY}), but the {worst} breaks it{spread}: a board with every part at its limit "
+            f"fails{_yield_text(accuracy)}; {_cure(link, accuracy, advice)}"
         )
         return [Finding(Severity.WARNING, "ppm-worst-case", link.id, message)]
     if accuracy.thin:

@@ -34,6 +34,7 @@ __all__ = [
     "TreeNode",
     "Summary",
     "STATUS_WORDS",
+    "POLICY_TEXT",
     "NO_MARGINS",
     "status_of",
     "consumer_status",
@@ -55,6 +56,15 @@ __all__ = [
 
 #: The words a status can be; reports may colour them but never replace them.
 STATUS_WORDS = ("PASS", "warn", "FAIL")
+
+#: How the summary names the board's ``accuracy_policy`` (docs/frequency-accuracy.md).
+POLICY_TEXT = {
+    "worst-case": "worst case (every tolerance at its limit, at the worst temperature and age; the default)",
+    "statistical": (
+        "statistical total (RSS), as the board asks (accuracy_policy = \"statistical\"): "
+        "a board with its parts at their limits may still fail"
+    ),
+}
 
 #: What the summary says when no consumer has a margin to show.
 NO_MARGINS = "none to show (every target is exact and no ppm or jitter budget is set)"
@@ -138,6 +148,7 @@ class Summary:
     errors: int
     warnings: int
     consumers: int
+    accuracy_policy: str | None = None
 
     @property
     def counts(self) -> str:
@@ -148,6 +159,8 @@ class Summary:
     def facts(self) -> tuple[tuple[str, str], ...]:
         """The summary's ``(label, text)`` lines after the title (which names the board and its file)."""
         facts = [("references", "; ".join(self.references)), ("conditions", self.conditions)]
+        if self.accuracy_policy is not None:
+            facts.append(("ppm policy", POLICY_TEXT.get(self.accuracy_policy, self.accuracy_policy)))
         if self.failing:
             facts.append(("failing", "; ".join(self.failing)))
         return tuple(facts)
@@ -451,7 +464,14 @@ def summarize(analysis: Analysis) -> Summary:
         errors=errors,
         warnings=warnings,
         consumers=len(analysis.consumers),
+        accuracy_policy=_applied_policy(analysis),
     )
+
+
+def _applied_policy(analysis: Analysis) -> str | None:
+    """The board's accuracy policy when some frequency-error budget was judged under it, else None."""
+    judged = any(getattr(r.accuracy, "judged", False) for r in analysis.consumers)
+    return analysis.board.accuracy_policy if judged else None
 
 
 @dataclass(frozen=True)

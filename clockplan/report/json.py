@@ -104,7 +104,7 @@ def analysis_document(analysis: Analysis, command: str = "audit") -> dict[str, A
     doc: dict[str, Any] = {
         "schema": SCHEMA_VERSION,
         "command": command,
-        "board": {"name": board.name, "file": board.source_file},
+        "board": {"name": board.name, "file": board.source_file, "accuracy_policy": board.accuracy_policy},
         "verdict": "fail" if analysis.has_errors else "pass",
         "consumers": [_consumer(c, _status(analysis, c.id), _chain_status(analysis, c.id)) for c in analysis.consumers],
         "plls": _plls(analysis),

@@ -18,12 +18,13 @@ from typing import Any
 
 from clockplan.boardfile import (
     finish_part,
+    read_accuracy_policy,
     read_board_section,
     read_consumer,
     read_reference,
 )
 from clockplan.errors import BoardError
-from clockplan.parts import Consumer, Reference
+from clockplan.parts import WORST_CASE, Consumer, Reference
 from clockplan.tomlread import (
     Locator,
     TableReader,
@@ -77,6 +78,7 @@ class ConsumerList:
     fixed_reference: Reference | None = None
     raw_reference: dict[str, Any] | None = None
     source_file: str | None = None
+    accuracy_policy: str = WORST_CASE
 
 
 def _strings(value: Any) -> tuple[str, ...]:
@@ -194,6 +196,7 @@ def parse_consumer_list(text: str, file: str | None = None) -> ConsumerList:
         fixed_reference=reference,
         raw_reference=raw_reference,
         source_file=file,
+        accuracy_policy=read_accuracy_policy(doc, ctx),
     )
 
 
