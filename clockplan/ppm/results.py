@@ -424,6 +424,10 @@ class ConsumerAccuracy:
         return cells
 
 
+def _hz(value: Fraction) -> int | float:
+    return value.numerator if value.denominator == 1 else float(value)
+
+
 def _power_json(power: OscillatorPower | None) -> dict[str, Any] | None:
     if power is None:
         return None
@@ -439,6 +443,8 @@ def _grade_json(grade: Grade, fits: bool | None) -> dict[str, Any]:
         "fits": fits,
         "tolerance_ppm": [ppm_number(spec.initial[0]), ppm_number(spec.initial[1])],
         "stability_ppm": [ppm_number(band.lo), ppm_number(band.hi)] if hasattr(band, "lo") else None,
+        "rank": grade.rank,
+        "frequency_range_hz": None if grade.frequency_range is None else [_hz(f) for f in grade.frequency_range],
         "power": _power_json(spec.power),
         "summary": grade.summary(),
     }
@@ -481,7 +487,7 @@ class ReferenceAdvice:
             return "re-plan" if self.unreachable else "not checked"
         if self.advice.grade is None:
             return "no grade fits"
-        rank = [g.name for g in self.grades].index(self.advice.grade.name)
+        rank = self.advice.grade.rank
         if self.failing:
             return "upgrade" if self.current_rank is None or rank > self.current_rank else "better part"
         if self.thin:
@@ -496,7 +502,7 @@ class ReferenceAdvice:
         grade = self.advice.grade if self.advice is not None else None
         if grade is None or self.current_rank is None or self.verdict != "fits":
             return False
-        return [g.name for g in self.grades].index(grade.name) > self.current_rank
+        return grade.rank > self.current_rank
 
     def json_fields(self) -> dict[str, Any]:
         """One entry of the top-level ``references`` list."""
@@ -537,6 +543,7 @@ def _reference_note(ref: ReferenceAdvice) -> str:
         notes.append("this part's own figures do better than its grade's typical ones")
     if ref.oven_power is not None:
         notes.append(_oven_text(ref.oven_power))
+    notes.extend(ref.notes)
     return "; ".join(notes)
 
 

@@ -23,7 +23,7 @@ from typing import TYPE_CHECKING
 
 from clockplan.errors import BoardError
 from clockplan.findings import Finding, Severity
-from clockplan.parts import WORST_CASE
+from clockplan.parts import WORST_CASE, Consumer
 from clockplan.ppm.accuracy import AccuracyResult, ConsumerBudget, consumer_accuracy
 from clockplan.ppm.board import (
     GRADE_RANK,
@@ -34,7 +34,14 @@ from clockplan.ppm.board import (
     reference_models,
 )
 from clockplan.ppm.display import format_error, format_limits
-from clockplan.ppm.grades import DEFAULT_MARGIN, Grade, advise_grade, load_grades
+from clockplan.ppm.grades import (
+    ALWAYS_ON_BELOW_HZ,
+    DEFAULT_MARGIN,
+    Grade,
+    advise_grade,
+    applicable_grades,
+    load_grades,
+)
 from clockplan.ppm.montecarlo import ConsumerChain, monte_carlo_yield
 from clockplan.ppm.oscillator import OscillatorSpec
 from clockplan.ppm.results import (
@@ -137,6 +144,12 @@ def _fits(result: AccuracyResult) -> bool:
     return result.passes and result.margin >= DEFAULT_MARGIN * result.budget.half_width
 
 
+def _always_on(consumer: Consumer) -> bool:
+    """A kHz timekeeping or sleep clock (common practice): below 1 MHz, or held to a real-time-clock budget."""
+    family = getattr(consumer.budget, "family", "")
+    return consumer.frequency < ALWAYS_ON_BELOW_HZ or family == "RTC"
+
+
 def _advice(
     model: ReferenceModel, links: Sequence[ConsumerLink], accuracies: dict[str, ConsumerAccuracy],
     analysis: "Analysis", grades: Sequence[Grade],
@@ -155,7 +168,9 @@ def _advice(
         ConsumerChain(0, link.synthesis_error, link.budget, link.spread, name=link.id)
         for link in judged if link.id not in unreachable
     ]
-    advice = advise_grade(0, fixable, board.temperature_c, board.lifetime_s, grades=grades) if fixable else None
+    always_on = [link.id for link in judged if _always_on(board.part(link.id))]
+    offered, notes = applicable_grades(grades, ref.frequency, always_on)
+    advice = advise_grade(0, fixable, board.temperature_c, board.lifetime_s, grades=offered) if fixable else None
     failing = tuple(
         link.id for link in judged
         if link.id not in unreachable and link.id in accuracies and not accuracies[link.id].passes
@@ -172,10 +187,11 @@ def _advice(
         failing=failing,
         thin=thin,
         advice=advice,
-        grades=tuple(grades),
+        grades=offered,
         current_rank=GRADE_RANK.get(ref.kind),
         unreachable=unreachable,
         oven_power=oven,
+        notes=notes,
     )
 
 
@@ -183,8 +199,13 @@ def _advice(
 
 
 def _advice_text(advice: ReferenceAdvice) -> str:
+    if not advice.grades:
+        return f"no oscillator grade in the table is commonly made at the frequency of {advice.id}: choose the part from its datasheet"
     if advice.advice is None or advice.advice.grade is None:
-        return f"no oscillator grade up to an OCXO keeps every consumer of {advice.id} inside its budget with margin"
+        return (
+            f"no oscillator grade up to {advice.grades[-1].label} keeps every consumer of {advice.id} "
+            "inside its budget with margin"
+        )
     return (
         f"use {_grade_text(advice.advice.grade)}: it keeps every consumer of {advice.id} inside its budget "
         f"with {_MARGIN_TEXT} margin"
