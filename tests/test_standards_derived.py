@@ -121,9 +121,9 @@ def test_uart_longer_frames_tolerate_less():
 @pytest.mark.parametrize(
     ("clock", "divider", "baud", "percent"),
     [
-        (16_000_000, 9, 115200, -3.5),  # common baud-rate tables: 16 MHz, UBRR 8 -> -3.5 %
-        (16_000_000, 104, 9600, 0.2),   # 16 MHz, UBRR 103 -> +0.2 %
-        (8_000_000, 4, 115200, 8.5),    # 8 MHz, UBRR 3 -> +8.5 %
+        (16_000_000, 9, 115200, -3.5),  # common baud-rate tables: 16 MHz, divisor register 8 (divider 9) -> -3.5 %
+        (16_000_000, 104, 9600, 0.2),   # 16 MHz, divisor register 103 -> +0.2 %
+        (8_000_000, 4, 115200, 8.5),    # 8 MHz, divisor register 3 -> +8.5 %
     ],
 )
 def test_uart_baud_error_matches_common_baud_tables(clock, divider, baud, percent):
