@@ -132,6 +132,13 @@ ppm = "±1 ppm"
 '''
     _, advice = _advice(text)
     assert "ocxo" not in [g.name for g in advice.grades]
+    # A budget derived from a timekeeping target is a real-time clock too, at any frequency.
+    derived = text.replace('standard = "RTC"\nppm = "±1 ppm"', 'rtc = { drift = "0.1 s", per = "day" }')
+    assert 'rtc = {' in derived
+    assert "ocxo" not in [g.name for g in _advice(derived)[1].grades]
+    # The same budget written as a plain ppm figure on a megahertz consumer is not: the oven is offered.
+    plain = text.replace('standard = "RTC"\nppm = "±1 ppm"', 'ppm = "±1 ppm"')
+    assert "ocxo" in [g.name for g in _advice(plain)[1].grades]
 
 
 def test_a_kilohertz_crystal_without_data_is_assumed_a_watch_crystal():

@@ -144,10 +144,16 @@ def _fits(result: AccuracyResult) -> bool:
     return result.passes and result.margin >= DEFAULT_MARGIN * result.budget.half_width
 
 
+#: The note a budget derived from a timekeeping target carries (``rtc = { drift, per }``, clockplan.standards).
+_RTC_NOTE = "RTC target"
+
+
 def _always_on(consumer: Consumer) -> bool:
-    """A kHz timekeeping or sleep clock (common practice): below 1 MHz, or held to a real-time-clock budget."""
-    family = getattr(consumer.budget, "family", "")
-    return consumer.frequency < ALWAYS_ON_BELOW_HZ or family == "RTC"
+    """A kHz timekeeping or sleep clock (common practice): below 1 MHz, or held to a real-time-clock budget
+    (the ``rtc-32k`` standard's family, or a budget derived from a timekeeping target)."""
+    budget = consumer.budget
+    real_time = getattr(budget, "family", "") == "RTC" or _RTC_NOTE in getattr(budget, "notes", "")
+    return consumer.frequency < ALWAYS_ON_BELOW_HZ or real_time
 
 
 def _advice(
