@@ -34,7 +34,7 @@ def test_grades_are_ordered_least_demanding_first():
 
 
 def test_ocxo_power_matches_the_stated_oven_figures():
-    # Common practice (stated in the issue): an oven draws about 8 W (12 V, 0.7 A) while warming
+    # Common practice (a rough figure, from memory): an oven draws about 8 W (12 V, 0.7 A) while warming
     # and about 2 W once at temperature.
     power = _grade("ocxo").spec.power
     assert power.warmup_w == supply_power(Fraction(12), Fraction(7, 10)) == Fraction(42, 5)

@@ -179,9 +179,11 @@ def test_sampled_errors_follow_the_uniform_tolerance():
     errors, budget, _ = accuracy.monte_carlo_errors()
     assert len(errors) == 40_000 and budget == (-10e-6, 10e-6)
     assert errors.min() >= -20e-6 and errors.max() <= 20e-6
-    # Uniform on ±a: mean 0, standard deviation a / sqrt(3) (handbook); the mean within 4 standard errors.
-    assert abs(errors.mean()) < 4 * (20e-6 / np.sqrt(3)) / np.sqrt(len(errors))
-    assert errors.std() == pytest.approx(20e-6 / np.sqrt(3), rel=0.02)
+    # Uniform on ±a: mean 0 and the standard deviation scipy.stats.uniform gives (a / sqrt(3));
+    # the mean within 4 standard errors.
+    reference = stats.uniform(loc=-20e-6, scale=40e-6)
+    assert abs(errors.mean()) < 4 * reference.std() / np.sqrt(len(errors))
+    assert errors.std() == pytest.approx(reference.std(), rel=0.02)
     assert stats.kstest(errors, stats.uniform(loc=-20e-6, scale=40e-6).cdf).pvalue > 1e-3
     # The histogram's share inside the budget is the yield counted on the same boards (analytic 1/2).
     inside = np.mean((errors >= budget[0]) & (errors <= budget[1]))

@@ -263,7 +263,7 @@ _MCU_POINTS = [(-40.0, -0.015), (0.0, -0.005), (25.0, 0.0), (85.0, 0.006)]  # th
 
 def _mcu_spread():
     """The sum of the MCU's uniform ±0.5 % trim and ±0.1 % supply errors: trapezoidal (the convolution of
-    two uniform densities, a handbook result), on ±0.6 % with a flat top on ±0.4 %."""
+    two uniform densities: a trapezoid, elementary probability), on ±0.6 % with a flat top on ±0.4 %."""
     from scipy import stats
 
     trim, supply = 0.005, 0.001

@@ -53,7 +53,7 @@ REFERENCE_TEMPERATURE_C = 25.0
 
 # AT-cut coefficients about 25 °C (Bechmann 1956, Proc. IRE 44; the
 # higher-order values of Bechmann, Ballato & Lukaszek 1962, Proc. IRE 50,
-# as reproduced in the frequency-control handbooks). Values quoted from memory
+# as reproduced in later frequency-control literature). Values quoted from memory
 # and marked so in the tests that check them.
 #: First-order coefficient per minute of arc of cut-angle offset, 1/°C.
 AT_CUT_LINEAR_PER_ARCMIN = -5.15e-6 / 60.0
