@@ -201,4 +201,15 @@ def test_the_terminal_advice_table_names_what_was_left_out(tmp_path, capsys):
     main(["audit", str(path), "--no-color", "--width", "250"])
     out = capsys.readouterr().out
     advice = out[out.index("Reference advice"):]
-    assert "real-time-clock TCXO" in advice and "left out: rc, xo, tcxo, ocxo" in advice and "OCXO" not in advice
+    assert "real-time-clock TCXO" in advice and "left out: ocxo" in advice and "OCXO" not in advice
+
+
+@pytest.mark.parametrize("hz, note", [
+    (Fraction(25_000_000), None),                   # the whole megahertz ladder: nothing worth saying
+    (Fraction(4_000_000), "left out: ocxo"),        # below the oven's 5 MHz: the top rung is missing
+    (Fraction(32_768), "left out: ocxo"),
+    (Fraction(500_000_000), "no grade in the table is commonly made at 500 MHz"),
+])
+def test_the_advice_notes_a_frequency_only_where_it_changes_the_ladder(hz, note):
+    _, notes = applicable_grades(load_grades(), hz)
+    assert notes == (() if note is None else (notes[0],)) and (note is None or note in notes[0])

@@ -145,11 +145,17 @@ def applicable_grades(
     ['lf-rc', 'watch-crystal', 'rtc-tcxo']
     """
     kept = [g for g in grades if g.made_at(frequency_hz)]
+    at = format_quantity(frequency_hz, "Hz", 6)
     notes = []
-    if len(kept) < len(grades):
+    # Say so where it changes the advice: the ladder's upper rungs, or every grade, are not made at this frequency.
+    top = max((g.rank for g in kept), default=-1)
+    missing = [g.name for g in grades if g not in kept and g.rank > top]
+    if not kept and grades:
+        notes.append(f"no grade in the table is commonly made at {at} (frequency ranges are common practice)")
+    elif missing:
         notes.append(
-            f"only grades commonly made at {format_quantity(frequency_hz, 'Hz', 6)} are advised "
-            f"(frequency ranges are common practice); left out: {', '.join(g.name for g in grades if g not in kept)}"
+            f"only grades commonly made at {at} are advised (frequency ranges are common practice); "
+            f"left out: {', '.join(missing)}"
         )
     hot = [g for g in kept if g.spec.runs_hot]
     if always_on and hot:
