@@ -90,19 +90,29 @@ def _naive_draw(rnd: random.Random, limits, normal: bool) -> float:
             return value
 
 
-def _naive_temperature(model, t: float, rnd: random.Random) -> float:
+def _naive_temperature_extremes(model, temperature) -> tuple[float, float]:
+    """The lowest and highest temperature error over the range: a band's edges, a curve's extremes on a fine grid
+    refined around its lowest and highest grid points (plain Python, independent of the models' exact extremes)."""
     if isinstance(model, StabilityBand):
-        return rnd.uniform(float(model.lo), float(model.hi))
-    if isinstance(model, AtCutCurve):
-        dt = t - model.reference_c
-        return ((model.a3 * dt + model.a2) * dt + model.a1) * dt
-    if isinstance(model, TuningForkCurve):
-        return model.coefficient * (t - model.turnover_c) ** 2
-    points = model.points
-    for (t0, e0), (t1, e1) in zip(points, points[1:]):
-        if t <= t1:
-            return e0 + (e1 - e0) * (t - t0) / (t1 - t0)
-    return points[-1][1]
+        return float(model.lo), float(model.hi)
+    lo_t, hi_t = temperature
+
+    def error(t: float) -> float:
+        if isinstance(model, AtCutCurve):
+            dt = t - model.reference_c
+            return ((model.a3 * dt + model.a2) * dt + model.a1) * dt
+        if isinstance(model, TuningForkCurve):
+            return model.coefficient * (t - model.turnover_c) ** 2
+        points = model.points
+        for (t0, e0), (t1, e1) in zip(points, points[1:]):
+            if t <= t1:
+                return e0 + (e1 - e0) * (t - t0) / (t1 - t0)
+        return points[-1][1]
+
+    grid = [lo_t + (hi_t - lo_t) * k / 2000 for k in range(2001)]
+    grid += [t for t, _ in getattr(model, "points", ()) if lo_t <= t <= hi_t]  # a table's corners exactly
+    values = [error(t) for t in grid]
+    return min(values), max(values)
 
 
 def _naive_pulling(load: CrystalLoad, rnd: random.Random) -> float:
@@ -116,24 +126,29 @@ def _naive_pulling(load: CrystalLoad, rnd: random.Random) -> float:
 
 
 def naive_yield(references, consumers, samples: int, seed: int, temperature=TEMPERATURE, lifetime=LIFETIME) -> list[float]:
-    """The same model, one board and one reference at a time in plain Python."""
+    """The same model, one board and one reference at a time in plain Python.
+
+    Each board is judged over the whole temperature range (the temperature term's extremes) and at the
+    start and end of its life (aging 0, then the drawn end-of-life drift).
+    """
     rnd = random.Random(seed)
     windows = [reference_window(c) for c in consumers]
+    extremes = [_naive_temperature_extremes(spec.temperature, temperature) for spec in references]
     passed = [0] * len(consumers)
     for _ in range(samples):
-        t = rnd.uniform(*temperature)
-        errors = []
-        for spec in references:
+        spans = []
+        for spec, (t_low, t_high) in zip(references, extremes):
             normal = spec.distribution == "normal"
-            error = _naive_temperature(spec.temperature, t, rnd) + _naive_draw(rnd, spec.initial, normal)
-            error += _naive_draw(rnd, spec.aging.drift(lifetime), normal)
-            error += _naive_draw(rnd, spec.supply_sensitivity, normal) + _naive_draw(rnd, spec.load_sensitivity, normal)
+            fixed = _naive_draw(rnd, spec.initial, normal)
+            aging = _naive_draw(rnd, spec.aging.drift(lifetime), normal)
+            fixed += _naive_draw(rnd, spec.supply_sensitivity, normal) + _naive_draw(rnd, spec.load_sensitivity, normal)
             if spec.crystal_load is not None:
-                error += _naive_pulling(spec.crystal_load, rnd)
-            errors.append(error)
+                fixed += _naive_pulling(spec.crystal_load, rnd)
+            spans.append((fixed + t_low + min(aging, 0.0), fixed + t_high + max(aging, 0.0)))
         for k, consumer in enumerate(consumers):
             lo, hi = windows[k]
-            passed[k] += lo <= errors[consumer.reference] <= hi
+            low, high = spans[consumer.reference]
+            passed[k] += lo <= low and high <= hi
     return [p / samples for p in passed]
 
 

@@ -16,7 +16,9 @@ from typing import Any, TypeVar
 
 from clockplan.errors import BoardError, did_you_mean
 from clockplan.parts import (
+    ACCURACY_POLICIES,
     REFERENCE_KINDS,
+    WORST_CASE,
     Board,
     Buffer,
     Consumer,
@@ -57,6 +59,7 @@ __all__ = [
     "read_board_section",
     "CONDITION_KEYS",
     "unstated_conditions",
+    "read_accuracy_policy",
     "read_reference",
     "read_consumer",
     "read_denominator",
@@ -131,8 +134,25 @@ def read_board_section(doc: dict, ctx: Locator) -> tuple[str, tuple[float, float
     lifetime = reader.get("lifetime", parse_duration, 0.0)
     margin_warning = reader.get("margin_warning", parse_margin_warning, DEFAULT_MARGIN_WARNING)
     reader.raw("description")
+    reader.raw("accuracy_policy")  # read by read_accuracy_policy
     reader.finish()
     return name, temperature, lifetime, margin_warning
+
+
+def accuracy_policy(value: Any) -> str:
+    """``"worst-case"`` or ``"statistical"`` (case and surrounding spaces ignored)."""
+    text = nonempty_text(value).lower()
+    if text not in ACCURACY_POLICIES:
+        hint = did_you_mean(text, ACCURACY_POLICIES) or "policies: " + ", ".join(ACCURACY_POLICIES)
+        raise BoardError(f"unknown accuracy policy {value!r}", hint=hint)
+    return text
+
+
+def read_accuracy_policy(doc: dict, ctx: Locator) -> str:
+    """The board's ``[board] accuracy_policy``: how frequency-error budgets are judged (default worst case)."""
+    if "board" not in doc:
+        return WORST_CASE
+    return TableReader(doc["board"], "board", ctx).get("accuracy_policy", accuracy_policy, WORST_CASE)
 
 
 
@@ -355,6 +375,7 @@ def parse_board(text: str, file: str | None = None) -> Board:
     """
     doc, ctx = read_document(text, file, _SECTIONS, _section_hint)
     name, temperature, lifetime, margin_warning = read_board_section(doc, ctx)
+    policy = read_accuracy_policy(doc, ctx)
     pins: dict[str, dict[str, Any]] = {}
     references = tuple(finish_part(r, read_reference(r)) for r in _array_of_tables(doc, "reference", ctx))
     plls = []
@@ -387,6 +408,7 @@ def parse_board(text: str, file: str | None = None) -> Board:
         lines=_line_table(ctx, doc),
         unstated=unstated_conditions(doc.get("board")),
         margin_warning=margin_warning,
+        accuracy_policy=policy,
     )
     _check_unique_ids(board, ctx)
     from clockplan.graph import build_graph

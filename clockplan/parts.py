@@ -32,10 +32,19 @@ __all__ = [
     "Settings",
     "Board",
     "REFERENCE_KINDS",
+    "ACCURACY_POLICIES",
+    "WORST_CASE",
+    "STATISTICAL",
 ]
 
 #: Oscillator kinds a reference can be (see docs/board-format.md).
 REFERENCE_KINDS = ("crystal", "xo", "vcxo", "tcxo", "ocxo", "mems", "rc")
+
+#: How a frequency-error budget is judged (``[board] accuracy_policy``, docs/frequency-accuracy.md):
+#: every tolerance at its limit (the default), or the statistical (RSS) total on request.
+WORST_CASE = "worst-case"
+STATISTICAL = "statistical"
+ACCURACY_POLICIES = (WORST_CASE, STATISTICAL)
 
 
 @dataclass(frozen=True)
@@ -277,6 +286,8 @@ class Board:
     the accuracy stage refuses a board whose models depend on one of them.
     ``margin_warning`` is the share of a budget below which a passing consumer
     warns (:mod:`clockplan.margins`).
+    ``accuracy_policy`` says how frequency-error budgets are judged:
+    :data:`WORST_CASE` (the default) or :data:`STATISTICAL`.
     """
 
     name: str
@@ -292,6 +303,7 @@ class Board:
     lines: Mapping[str, int] = field(default_factory=dict)
     unstated: tuple[str, ...] = ()
     margin_warning: Fraction = DEFAULT_MARGIN_WARNING
+    accuracy_policy: str = WORST_CASE
 
     def part(self, part_id: str) -> Any:
         """Return the part (reference, PLL, divider, buffer or consumer) with this id."""

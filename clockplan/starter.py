@@ -27,6 +27,7 @@ STARTER_BOARD = '''\
 name = {name}
 temperature = ["-40 C", "85 C"]   # operating range [coldest, hottest]
 lifetime = "10 years"             # how long the reference ages
+# accuracy_policy = "statistical" # ppm budgets are judged worst case unless you ask for the RSS total
 
 # A reference oscillator: the root of every clock chain.
 [[reference]]

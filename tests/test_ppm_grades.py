@@ -6,7 +6,7 @@ import pytest
 
 from clockplan.ppm.accuracy import PLANNING_NOTE, ConsumerBudget
 from clockplan.ppm.aging import SECONDS_PER_YEAR
-from clockplan.ppm.grades import advise_grade, load_grades
+from clockplan.ppm.grades import advise_grade, applicable_grades, load_grades
 from clockplan.ppm.montecarlo import ConsumerChain
 from clockplan.ppm.oscillator import supply_power, trim_range
 from clockplan.ppm.spread import SpreadAllowance, SpreadSpectrum
@@ -20,10 +20,16 @@ def _grade(name):
     return next(g for g in load_grades() if g.name == name)
 
 
+MHZ25 = Fraction(25_000_000)
+
+
 def test_grades_are_ordered_least_demanding_first():
     grades = load_grades()
-    assert [g.name for g in grades] == ["rc", "xo", "tcxo", "ocxo"]
-    spans = [g.spec.initial[1] + g.spec.temperature.hi for g in grades]
+    ranks = [g.rank for g in grades]
+    assert ranks == sorted(ranks)  # the table climbs the ladder
+    ladder = applicable_grades(grades, MHZ25)[0]
+    assert [g.name for g in ladder] == ["rc", "xo", "tcxo", "ocxo"]
+    spans = [g.spec.initial[1] + g.spec.temperature.hi for g in ladder]
     assert spans == sorted(spans, reverse=True)  # each step up is tighter
 
 
@@ -59,7 +65,7 @@ def test_ten_hz_trim_on_ten_mhz_covers_one_ppm():
 )
 def test_advice_picks_the_least_demanding_grade(budget, expected):
     consumer = ConsumerChain(0, Fraction(0), ConsumerBudget(parse_ppm(budget)))
-    advice = advise_grade(0, [consumer], INDUSTRIAL, TEN_YEARS)
+    advice = advise_grade(0, [consumer], INDUSTRIAL, TEN_YEARS, frequency_hz=MHZ25)
     assert advice.grade.name == expected
     names = [name for name, _ in advice.tried]
     assert names[-1] == expected and all(not fits for _, fits in advice.tried[:-1])
@@ -70,13 +76,13 @@ def test_advice_checks_margin_by_hand():
     # XO grade over ten years: 20 + 25 + (3 + 9 * 1) = 57 ppm worst case.
     # Budget ±70 ppm keeps 13 ppm = 18.6 % margin: not the default 20 %, so the advice steps up.
     consumer = ConsumerChain(0, Fraction(0), ConsumerBudget(parse_ppm("±70 ppm")))
-    assert advise_grade(0, [consumer], INDUSTRIAL, TEN_YEARS).grade.name == "tcxo"
-    assert advise_grade(0, [consumer], INDUSTRIAL, TEN_YEARS, margin=Fraction(1, 10)).grade.name == "xo"
+    assert advise_grade(0, [consumer], INDUSTRIAL, TEN_YEARS, frequency_hz=MHZ25).grade.name == "tcxo"
+    assert advise_grade(0, [consumer], INDUSTRIAL, TEN_YEARS, margin=Fraction(1, 10), frequency_hz=MHZ25).grade.name == "xo"
 
 
 def test_oven_advice_says_it_runs_hot_and_draws_watts():
     consumer = ConsumerChain(0, Fraction(0), ConsumerBudget(parse_ppm("±2 ppm")))
-    text = advise_grade(0, [consumer], INDUSTRIAL, TEN_YEARS).text
+    text = advise_grade(0, [consumer], INDUSTRIAL, TEN_YEARS, frequency_hz=MHZ25).text
     assert "runs hot" in text and "draws watts" in text
     assert "8.4 W warming" in text and "2 W at temperature" in text and "warm-up 5 min" in text
     assert PLANNING_NOTE in text
@@ -85,8 +91,8 @@ def test_oven_advice_says_it_runs_hot_and_draws_watts():
 def test_only_downstream_consumers_count_and_impossible_budgets_get_no_grade():
     tight = ConsumerChain(1, Fraction(0), ConsumerBudget(parse_ppm("±0.01 ppm")))
     loose = ConsumerChain(0, Fraction(0), ConsumerBudget(parse_ppm("±5 %")))
-    assert advise_grade(0, [loose, tight], INDUSTRIAL, TEN_YEARS).grade.name == "rc"
-    none = advise_grade(1, [loose, tight], INDUSTRIAL, TEN_YEARS)
+    assert advise_grade(0, [loose, tight], INDUSTRIAL, TEN_YEARS, frequency_hz=MHZ25).grade.name == "rc"
+    none = advise_grade(1, [loose, tight], INDUSTRIAL, TEN_YEARS, frequency_hz=MHZ25)
     assert none.grade is None and len(none.tried) == 4
     assert "No grade" in none.text and PLANNING_NOTE in none.text
 
@@ -96,4 +102,4 @@ def test_spread_consumer_advice_uses_the_allowance():
     pcie = ConsumerChain(
         0, Fraction(0), ConsumerBudget(parse_ppm("±300 ppm"), allowance), SpreadSpectrum("down", 5000 * PPM, Fraction(31_500))
     )
-    assert advise_grade(0, [pcie], INDUSTRIAL, TEN_YEARS).grade.name == "xo"
+    assert advise_grade(0, [pcie], INDUSTRIAL, TEN_YEARS, frequency_hz=MHZ25).grade.name == "xo"

@@ -52,20 +52,36 @@ def test_normal_part_is_truncated_normal_at_three_sigma():
 
 
 def test_two_uniform_terms_add_to_a_triangle():
-    # Initial ±10 ppm plus a ±10 ppm band: the sum is triangular on ±20 ppm (scipy.stats.triang).
-    spec = OscillatorSpec("tcxo", parse_ppm("±10 ppm"), StabilityBand(*parse_ppm("±10 ppm")))
+    # Initial ±10 ppm plus a ±10 ppm supply sensitivity: the sum is triangular on ±20 ppm (scipy.stats.triang).
+    spec = OscillatorSpec("tcxo", parse_ppm("±10 ppm"), supply_sensitivity=parse_ppm("±10 ppm"))
     triangle = stats.triang(c=0.5, loc=-20e-6, scale=40e-6)
     result = monte_carlo_yield([spec], [ConsumerChain(0, Fraction(0), _budget("±10 ppm"))], ROOM, 0.0, samples=SAMPLES, seed=13)
     assert _within(result.yields[0], triangle.cdf(10e-6) - triangle.cdf(-10e-6))  # 0.75
 
 
-def test_temperature_is_uniform_over_the_range_through_the_curve():
-    # Tuning fork, no other error: inside -100 ppm where |T - 25| < sqrt(100/0.034); T uniform on -40..85.
+def test_a_stability_band_counts_with_its_full_width_on_every_board():
+    # A ±10 ppm band says only where the frequency stays: every board may reach both edges, so with a
+    # uniform ±10 ppm initial tolerance a ±15 ppm budget holds where |initial| <= 5 ppm (uniform CDF: 1/2).
+    # The old draw, one uniform band value per board, gave the triangle's 1 - 25/400 = 0.9375.
+    spec = OscillatorSpec("tcxo", parse_ppm("±10 ppm"), StabilityBand(*parse_ppm("±10 ppm")))
+    result = monte_carlo_yield([spec], [ConsumerChain(0, Fraction(0), _budget("±15 ppm"))], (-40, 85), 0.0,
+                               samples=SAMPLES, seed=13)
+    uniform = stats.uniform(loc=-10e-6, scale=20e-6)
+    assert _within(result.yields[0], uniform.cdf(5e-6) - uniform.cdf(-5e-6))
+    assert not _within(result.yields[0], 0.9375)
+
+
+def test_a_curve_counts_over_the_whole_range_not_at_one_drawn_temperature():
+    # Tuning fork, no other error, on -40..85 °C: -143.65 ppm at -40 °C (common practice, -0.034 ppm/°C²),
+    # so no board keeps inside ±100 ppm everywhere and every board keeps inside ±150 ppm.
+    # One drawn temperature per board (the old method) reported the share of the range inside ±100 ppm.
     fork = OscillatorSpec("crystal", (Fraction(0), Fraction(0)), TuningForkCurve())
+    chains = [ConsumerChain(0, Fraction(0), _budget("±100 ppm")), ConsumerChain(0, Fraction(0), _budget("±150 ppm"))]
+    result = monte_carlo_yield([fork], chains, (-40, 85), 0.0, samples=SAMPLES, seed=14)
+    assert result.yields == (0.0, 1.0)
     half = np.sqrt(100 / 0.034)
-    inside = min(85.0, 25 + half) - max(-40.0, 25 - half)
-    result = monte_carlo_yield([fork], [ConsumerChain(0, Fraction(0), _budget("±100 ppm"))], (-40, 85), 0.0, samples=SAMPLES, seed=14)
-    assert _within(result.yields[0], inside / 125.0)
+    old = (min(85.0, 25 + half) - max(-40.0, 25 - half)) / 125.0
+    assert old > 0.6  # what the old method reported for a board that fails at -40 °C every time
 
 
 def test_yield_is_one_when_worst_case_fits_and_agrees_with_worst_case_edges():

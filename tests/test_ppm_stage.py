@@ -10,6 +10,7 @@ check; the Monte Carlo against a yield integrated with scipy.
 import io
 import json
 from fractions import Fraction
+from pathlib import Path
 
 import pytest
 
@@ -262,24 +263,42 @@ def test_bad_accuracy_keys_are_located(old, new, key):
 # --------------------------------------------------------------------------- Monte Carlo
 
 
-def _mcu_yield_by_integration() -> float:
-    """The gateway MCU's yield, integrated with scipy: uniform temperature, uniform trim and supply error.
+_MCU_POINTS = [(-40.0, -0.015), (0.0, -0.005), (25.0, 0.0), (85.0, 0.006)]  # the gateway's RC table
 
-    The sum of the uniform ±0.5 % trim and ±0.1 % supply errors is trapezoidal (the convolution of two
-    uniform densities: a trapezoid, elementary probability), on ±0.6 % with a flat top on ±0.4 %.
+
+def _mcu_spread():
+    """The sum of the MCU's uniform ±0.5 % trim and ±0.1 % supply errors: trapezoidal (the convolution of
+    two uniform densities: a trapezoid, elementary probability), on ±0.6 % with a flat top on ±0.4 %."""
+    from scipy import stats
+
+    trim, supply = 0.005, 0.001
+    return stats.trapezoid(supply / (trim + supply), trim / (trim + supply), loc=-(trim + supply), scale=2 * (trim + supply))
+
+
+def _mcu_yield_everywhere(points=_MCU_POINTS) -> float:
+    """The share of MCUs inside the CAN budget at every temperature: closed form.
+
+    A linear table's extremes are at its points; a board passes when its fixed error c (trim plus
+    supply) keeps c + lowest >= -B and c + highest <= B, i.e. c in [-B - lowest, B - highest].
     """
-    from scipy import integrate, stats
+    budget = 1 / 102
+    lowest, highest = min(e for _, e in points), max(e for _, e in points)
+    spread = _mcu_spread()
+    return max(0.0, spread.cdf(budget - highest) - spread.cdf(-budget - lowest))
+
+
+def _mcu_yield_at_one_drawn_temperature() -> float:
+    """What the old method estimated (one uniform temperature per board), integrated with scipy."""
+    from scipy import integrate
 
     budget = 1 / 102
-    trim, supply = 0.005, 0.001
-    spread = stats.trapezoid(supply / (trim + supply), trim / (trim + supply), loc=-(trim + supply), scale=2 * (trim + supply))
-    points = [(-40.0, -0.015), (0.0, -0.005), (25.0, 0.0), (85.0, 0.006)]
+    spread = _mcu_spread()
 
     def drift(t: float) -> float:
-        for (t0, e0), (t1, e1) in zip(points, points[1:]):
+        for (t0, e0), (t1, e1) in zip(_MCU_POINTS, _MCU_POINTS[1:]):
             if t <= t1:
                 return e0 + (e1 - e0) * (t - t0) / (t1 - t0)
-        return points[-1][1]
+        return _MCU_POINTS[-1][1]
 
     def inside(t: float) -> float:
         return spread.cdf(budget - drift(t)) - spread.cdf(-budget - drift(t))
@@ -295,11 +314,27 @@ def test_monte_carlo_yield_matches_integration_and_is_reproducible():
     again = analyze(board, options=AnalysisOptions(samples=200_000, seed=11))
     mcu = first.consumer("mcu").accuracy
     assert mcu.yield_fraction == again.consumer("mcu").accuracy.yield_fraction
-    assert mcu.yield_fraction == pytest.approx(_mcu_yield_by_integration(), abs=4 * mcu.yield_standard_error)
+    # At -40 °C the RC is 1.5 % slow: no trim inside ±0.5 % keeps it in ±0.98 %, so no board passes everywhere.
+    assert _mcu_yield_everywhere() == 0.0 and mcu.yield_fraction == 0.0
+    # The old method (one drawn temperature per board) reported about 83 %: far outside the sampling error.
+    assert _mcu_yield_at_one_drawn_temperature() == pytest.approx(0.826, abs=0.001)
     assert first.consumer("phy0").accuracy.yield_fraction == 1.0  # worst case inside: every board passes
     assert seen[-1] == 1.0 and seen == sorted(seen)
     summary = first.extras["monte_carlo"]
     assert summary.samples == 200_000 and summary.seed == 11 and summary.board_yield <= mcu.yield_fraction
+
+
+def test_monte_carlo_yield_of_a_milder_rc_matches_the_closed_form_and_depends_on_the_seed():
+    # The same MCU with an invented milder RC curve (-0.6 % at -40 °C, +0.5 % at 85 °C): boards pass
+    # where trim plus supply lies in [-0.38 %, +0.48 %] (closed form on the trapezoid).
+    points = [(-40.0, -0.006), (25.0, 0.0), (85.0, 0.005)]
+    text = Path("boards/industrial-gateway.toml").read_text(encoding="utf-8").replace(
+        '[[-40, "-1.5 %"], [0, "-0.5 %"], [25, "0 %"], [85, "+0.6 %"]]', '[[-40, "-0.6 %"], [25, "0 %"], [85, "+0.5 %"]]')
+    board = parse_board(text)
+    mcu = analyze(board, options=AnalysisOptions(samples=200_000, seed=11)).consumer("mcu").accuracy
+    expected = _mcu_yield_everywhere(points)
+    assert 0.5 < expected < 0.99
+    assert mcu.yield_fraction == pytest.approx(expected, abs=5 * mcu.yield_standard_error)
     other = analyze(board, options=AnalysisOptions(samples=200_000, seed=12)).consumer("mcu").accuracy
     assert other.yield_fraction != mcu.yield_fraction
 

@@ -26,7 +26,7 @@ from clockplan.ppm.crystal_load import (
     series_load,
     trim_sensitivity,
 )
-from clockplan.ppm.grades import DEFAULT_MARGIN, Grade, GradeAdvice, advise_grade, load_grades
+from clockplan.ppm.grades import DEFAULT_MARGIN, Grade, GradeAdvice, advise_grade, applicable_grades, load_grades
 from clockplan.ppm.montecarlo import ConsumerChain, MonteCarloResult, monte_carlo_yield
 from clockplan.ppm.oscillator import OSCILLATOR_KINDS, OscillatorPower, OscillatorSpec, supply_power, trim_range
 from clockplan.ppm.parse import (
@@ -62,6 +62,7 @@ __all__ = [
     "Grade",
     "GradeAdvice",
     "advise_grade",
+    "applicable_grades",
     "load_grades",
     "ConsumerChain",
     "MonteCarloResult",

@@ -11,11 +11,13 @@ Consumers on different references get their own chains.
 
 A reference without accuracy keys gets the typical figures of its kind's
 grade (``clockplan/data/oscillator_grades.toml``) where the kind has one
-(``rc``, ``crystal``, ``xo``, ``tcxo``, ``ocxo``), always marked as assumed;
-a ``vcxo`` or ``mems`` without figures is not checked. Figures whose
-stability band is not rated over the board's temperature range (the
-board's or the typical grade's) are not used either: the band says nothing
-outside its rated range (basis ``unrated-band``; the stage reports it).
+(``rc``, ``crystal``, ``xo``, ``tcxo``, ``ocxo``), the one commonly made at
+its frequency (a 32.768 kHz crystal is a tuning-fork watch crystal, not a
+megahertz AT-cut one), always marked as assumed; a ``vcxo`` or ``mems``
+without figures is not checked. Figures whose stability band is not rated
+over the board's temperature range (the board's or the typical grade's) are
+not used either: the band says nothing outside its rated range (basis
+``unrated-band``; the stage reports it).
 """
 
 from __future__ import annotations
@@ -53,8 +55,15 @@ __all__ = [
     "board_chains",
 ]
 
-#: The grade whose typical figures stand in for a reference of this kind without accuracy data.
-TYPICAL_GRADE = {"rc": "rc", "crystal": "xo", "xo": "xo", "tcxo": "tcxo", "ocxo": "ocxo"}
+#: The grades whose typical figures stand in for a reference of this kind without accuracy data: the
+#: first one commonly made at the reference's frequency, else the last (the megahertz grade).
+TYPICAL_GRADE = {
+    "rc": ("lf-rc", "rc"),
+    "crystal": ("watch-crystal", "xo"),
+    "xo": ("xo",),
+    "tcxo": ("rtc-tcxo", "tcxo"),
+    "ocxo": ("ocxo",),
+}
 #: Where each kind sits on the grade ladder (on-chip RC < crystal/XO < TCXO < OCXO).
 GRADE_RANK = {"rc": 0, "crystal": 1, "xo": 1, "vcxo": 1, "mems": 1, "tcxo": 2, "ocxo": 3}
 
@@ -119,6 +128,15 @@ def _key(board: "Board", index: int, name: str) -> tuple[str, int | None]:
     return key, board.lines.get(key) or board.lines.get(f"reference[{index}]")
 
 
+def _typical_grade(reference: "Reference", by_name: dict[str, Grade]) -> Grade | None:
+    """The typical grade for a reference without data: its kind's grade made at its frequency."""
+    candidates = [by_name[name] for name in TYPICAL_GRADE.get(reference.kind, ()) if name in by_name]
+    made = [grade for grade in candidates if grade.made_at(reference.frequency)]
+    if made:
+        return made[0]
+    return candidates[-1] if candidates else None
+
+
 def reference_models(board: "Board", grades: Sequence[Grade]) -> tuple[ReferenceModel, ...]:
     """Each reference's figures: the board's, else its kind's typical grade, else none.
 
@@ -154,8 +172,7 @@ def reference_models(board: "Board", grades: Sequence[Grade]) -> tuple[Reference
                 models.append(ReferenceModel(reference, index, spec, BASIS_BOARD))
             else:
                 models.append(ReferenceModel(reference, index, None, BASIS_UNRATED, unrated=spec))
-        elif reference.kind in TYPICAL_GRADE and TYPICAL_GRADE[reference.kind] in by_name:
-            grade = by_name[TYPICAL_GRADE[reference.kind]]
+        elif (grade := _typical_grade(reference, by_name)) is not None:
             if band_rated_over(grade.spec, board.temperature_c):
                 models.append(ReferenceModel(reference, index, grade.spec, BASIS_TYPICAL, grade))
             else:

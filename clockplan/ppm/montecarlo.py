@@ -1,17 +1,29 @@
-"""Monte Carlo yield: how many boards keep every consumer inside its budget.
+"""Monte Carlo yield: how many boards keep every consumer inside its budget everywhere.
 
 Each simulated board draws, for each reference, its initial tolerance, its
-aging at the end of the board's lifetime, its supply and load sensitivity
-(uniform, or normal with the limits at ±3 sigma and parts outside screened
-out, as the part's ``distribution`` says) and its crystal-load component
-values (uniform within tolerance). One operating temperature is drawn
-uniformly over the range per board and shared by all its references: they sit
-on the same board. Curve models are evaluated at that temperature; a
-stability band is drawn uniformly inside the band (see
-:mod:`clockplan.ppm.temperature`).
+aging drift at the end of the board's lifetime, its supply and load
+sensitivity (uniform, or normal with the limits at ±3 sigma and parts outside
+screened out, as the part's ``distribution`` says) and its crystal-load
+component values (uniform within tolerance).
 
-Boards are judged at the end of their lifetime, where aging has run its full
-course. The run is reproducible for a given seed and chunk size.
+A board must work at every temperature of its rated range and on every day
+of its life, so each simulated board is judged over all of them, not at one
+drawn operating point:
+
+* temperature: a curve model is a deterministic function of temperature, so
+  the board's error over the range runs between the curve's lowest and highest
+  value on the range (the same exact extremes the worst case uses); a
+  stability band does not say how a part's frequency moves inside it, so every
+  board is taken to reach both band edges somewhere over its range
+  (conservative; see :mod:`clockplan.ppm.temperature`);
+* lifetime: the aging drift runs from 0 at the start of life to the drawn
+  end-of-life value, one way (each part's drift keeps its sign, the common
+  practice for quartz aging), so the board is judged at the start and at the
+  end of its life.
+
+A consumer passes on a board when the board's lowest and highest error both
+fall inside its window; the board passes when every consumer does. The run is
+reproducible for a given seed and chunk size.
 """
 
 from __future__ import annotations
@@ -29,7 +41,14 @@ from clockplan.ppm.accuracy import ConsumerBudget
 from clockplan.ppm.oscillator import SIGMA_PER_LIMIT, OscillatorSpec
 from clockplan.ppm.spread import SpreadSpectrum, spread_fits
 
-__all__ = ["ConsumerChain", "MonteCarloResult", "reference_window", "sample_reference_errors", "monte_carlo_yield"]
+__all__ = [
+    "ConsumerChain",
+    "MonteCarloResult",
+    "reference_window",
+    "sample_reference_errors",
+    "sample_reference_spans",
+    "monte_carlo_yield",
+]
 
 ProgressCallback = Callable[[int, int], None]
 
@@ -58,9 +77,11 @@ class ConsumerChain:
 class MonteCarloResult:
     """Fraction of boards inside budget, per consumer and for the whole board.
 
-    ``reference_errors`` holds, per reference, the sampled fractional error of
-    the first ``kept`` boards (empty unless ``keep_errors`` was asked for), so
-    a report can draw the distribution the yields were counted on.
+    ``reference_errors`` holds, per reference, an array of shape ``(kept, 2)``:
+    the lowest and highest fractional error of each of the first ``kept``
+    boards over its temperature range and lifetime (empty unless
+    ``keep_errors`` was asked for), so a report can draw the distribution the
+    yields were counted on.
     """
 
     samples: int
@@ -134,10 +155,25 @@ def _crystal_pulling(spec: OscillatorSpec, rng: np.random.Generator, size: int) 
     return np.sqrt((1 + c1 / (c0 + actual)) / (1 + c1 / (c0 + float(load.specified_load)))) - 1
 
 
+def _fixed_terms(spec: OscillatorSpec, lifetime_s: float, rng: np.random.Generator, size: int) -> tuple:
+    """Each board's terms that do not move over its life, and its end-of-life aging drift."""
+    normal = spec.distribution == "normal"
+    fixed = _draw(rng, spec.initial, normal, size)
+    aging = _draw(rng, spec.aging.drift(lifetime_s), normal, size)
+    fixed = fixed + _draw(rng, spec.supply_sensitivity, normal, size)
+    fixed = fixed + _draw(rng, spec.load_sensitivity, normal, size)
+    return fixed + _crystal_pulling(spec, rng, size), aging
+
+
 def sample_reference_errors(
     spec: OscillatorSpec, temps_c: np.ndarray, lifetime_s: float, rng: np.random.Generator
 ) -> np.ndarray:
-    """Fractional error of one reference on each simulated board (vectorized).
+    """Fractional error of one reference on each simulated board at one temperature each, at end of life.
+
+    One operating point per board: not what a yield is judged on (a board must
+    work at every temperature and on every day of its life, see
+    :func:`sample_reference_spans`). A stability band is drawn uniformly inside
+    the band.
 
     Examples
     --------
@@ -147,13 +183,35 @@ def sample_reference_errors(
     >>> bool(np.all(np.abs(errors) <= 20e-6))
     True
     """
-    size = temps_c.shape[0]
-    normal = spec.distribution == "normal"
-    errors = spec.temperature.sample(temps_c, rng) + _draw(rng, spec.initial, normal, size)
-    errors = errors + _draw(rng, spec.aging.drift(lifetime_s), normal, size)
-    errors = errors + _draw(rng, spec.supply_sensitivity, normal, size)
-    errors = errors + _draw(rng, spec.load_sensitivity, normal, size)
-    return errors + _crystal_pulling(spec, rng, size)
+    temperature = spec.temperature.sample(temps_c, rng)
+    fixed, aging = _fixed_terms(spec, lifetime_s, rng, temps_c.shape[0])
+    return temperature + fixed + aging
+
+
+def sample_reference_spans(
+    spec: OscillatorSpec, temperature_range: tuple[float, float], lifetime_s: float,
+    rng: np.random.Generator, size: int,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Lowest and highest fractional error of one reference on each simulated board (vectorized).
+
+    Over the whole temperature range (a curve's exact extremes on the range; a
+    band's edges) and over the whole life (aging 0 at the start, the drawn
+    drift at the end), see the module notes.
+
+    Examples
+    --------
+    >>> from clockplan.ppm.temperature import TuningForkCurve
+    >>> from clockplan.units import parse_ppm
+    >>> fork = OscillatorSpec("crystal", parse_ppm("±20 ppm"), TuningForkCurve())
+    >>> low, high = sample_reference_spans(fork, (-40, 85), 0.0, np.random.default_rng(1), 1000)
+    >>> bool(np.all(high - low >= 143e-6))  # every board sees the whole parabola: 0 at 25 °C, -144 ppm at -40 °C
+    True
+    """
+    extremes = spec.temperature.extremes(*temperature_range)
+    fixed, aging = _fixed_terms(spec, lifetime_s, rng, size)
+    low = fixed + float(extremes.low) + np.minimum(aging, 0.0)
+    high = fixed + float(extremes.high) + np.maximum(aging, 0.0)
+    return np.broadcast_to(low, (size,)), np.broadcast_to(high, (size,))
 
 
 def monte_carlo_yield(
@@ -168,7 +226,10 @@ def monte_carlo_yield(
     keep_errors: int = 0,
     deadline: float | None = None,
 ) -> MonteCarloResult:
-    """Fraction of simulated boards on which each consumer stays inside its budget.
+    """Fraction of simulated boards on which each consumer stays inside its budget everywhere.
+
+    Every board is judged over the whole temperature range and at the start
+    and end of its life (module notes).
 
     Parameters
     ----------
@@ -188,9 +249,9 @@ def monte_carlo_yield(
     chunk
         Boards simulated per vectorized step (bounds memory).
     keep_errors
-        Keep each reference's sampled error for the first ``keep_errors``
-        boards (``MonteCarloResult.reference_errors``), for histograms. The
-        draws are the same with or without it.
+        Keep each reference's lowest and highest error for the first
+        ``keep_errors`` boards (``MonteCarloResult.reference_errors``), for
+        histograms. The draws are the same with or without it.
     deadline
         A ``time.monotonic()`` instant: once it has passed, the run stops after
         the chunk in progress (at least one chunk always runs). The result then
@@ -215,9 +276,8 @@ def monte_carlo_yield(
                 f"but the board has {len(references)}",
                 hint="index the board's references from 0",
             )
-    t_lo, t_hi = temperature_range
     for spec in references:
-        spec.temperature.extremes(t_lo, t_hi)  # refuses a table that does not span the range
+        spec.temperature.extremes(*temperature_range)  # refuses a table that does not span the range
     windows = [reference_window(c) for c in consumers]
     # Consumers with the same reference and window pass or fail together.
     distinct = sorted({(c.reference, w) for c, w in zip(consumers, windows)})
@@ -226,19 +286,20 @@ def monte_carlo_yield(
     board_passed = 0
     rng = np.random.default_rng(seed)
     kept = min(max(0, keep_errors), samples)
-    stored = [np.empty(kept) for _ in references]
+    stored = [np.empty((kept, 2)) for _ in references]
     done = 0
     while done < samples:
         size = min(chunk, samples - done)
-        temps = rng.uniform(t_lo, t_hi, size) if t_hi > t_lo else np.full(size, float(t_lo))
-        errors = [sample_reference_errors(spec, temps, lifetime_s, rng) for spec in references]
+        spans = [sample_reference_spans(spec, temperature_range, lifetime_s, rng, size) for spec in references]
         if done < kept:
             take = min(size, kept - done)
-            for store, values in zip(stored, errors):
-                store[done:done + take] = values[:take]
+            for store, (low, high) in zip(stored, spans):
+                store[done:done + take, 0] = low[:take]
+                store[done:done + take, 1] = high[:take]
         board_ok = np.ones(size, dtype=bool)
         for i, (ref, (lo, hi)) in enumerate(distinct):
-            ok = (errors[ref] >= lo) & (errors[ref] <= hi)
+            low, high = spans[ref]
+            ok = (low >= lo) & (high <= hi)
             passed[i] += np.count_nonzero(ok)
             board_ok &= ok
         board_passed += int(np.count_nonzero(board_ok))

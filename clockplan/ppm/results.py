@@ -18,6 +18,7 @@ from fractions import Fraction
 from typing import TYPE_CHECKING, Any, NamedTuple
 
 from clockplan.margins import is_thin
+from clockplan.parts import WORST_CASE
 from clockplan.ppm.accuracy import AccuracyResult, ConsumerBudget, Contribution, compose
 from clockplan.ppm.aging import SECONDS_PER_YEAR
 from clockplan.ppm.display import format_error, format_limits
@@ -42,7 +43,11 @@ __all__ = [
     "ReferenceAdvice",
     "ReferenceAdvices",
     "MonteCarloSummary",
+    "JUDGED_AT",
 ]
+
+#: Where every simulated board is judged (``clockplan.ppm.montecarlo``).
+JUDGED_AT = "over the whole temperature range, at start and end of life"
 
 #: Where a reference's accuracy figures come from.
 BASIS_BOARD = "board"
@@ -141,11 +146,13 @@ class TemperatureCurve(NamedTuple):
 class SampledErrors(NamedTuple):
     """A consumer's Monte Carlo errors and the budget they are held against (``monte_carlo_errors()``).
 
-    ``errors`` is the clock's carrier error on each kept board (the reference's
-    sampled error through the exact synthesis error). When a spread counts as
-    error, ``budget`` is the carrier range that keeps the whole sweep inside
-    the consumer's budget, and ``note`` says so; the share of ``errors``
-    inside ``budget`` is then the yield on those boards either way.
+    ``errors`` is the clock's carrier error on each kept board at the board's
+    worst condition for this consumer: of its lowest and highest error over
+    the temperature range and the lifetime (the reference's sampled extremes
+    through the exact synthesis error), the one nearer its budget limit. The
+    share of ``errors`` inside ``budget`` is then the yield on those boards.
+    When a spread counts as error, ``budget`` is the carrier range that keeps
+    the whole sweep inside the consumer's budget, and ``note`` says so.
     """
 
     errors: "np.ndarray"
@@ -163,6 +170,8 @@ class ConsumerAccuracy:
     is ``None`` when the consumer has no frequency-error budget: the error is
     then shown, not judged. ``basis`` says whether the reference's figures
     come from the board file or are typical grade figures assumed for its kind.
+    ``policy`` is the board's ``accuracy_policy``: ``passes`` is always the
+    worst case, ``verdict_passes`` the verdict under the policy.
     """
 
     reference: str
@@ -181,6 +190,7 @@ class ConsumerAccuracy:
     spread_source: str | None = None
     spread_key: str | None = None
     sampled_reference_errors: "np.ndarray | None" = field(default=None, compare=False, repr=False)
+    policy: str = WORST_CASE
 
     @property
     def judged(self) -> bool:
@@ -194,6 +204,11 @@ class ConsumerAccuracy:
     @property
     def rss_passes(self) -> bool | None:
         return self.result.rss_passes if self.judged else None
+
+    @property
+    def verdict_passes(self) -> bool | None:
+        """Inside the budget under the board's ``policy``: the worst case (default) or the statistical total."""
+        return self.passes if self.policy == WORST_CASE else self.rss_passes
 
     @property
     def thin(self) -> bool:
@@ -287,10 +302,14 @@ class ConsumerAccuracy:
         return TemperatureCurve(temps, errors, budget, (low, high), "; ".join(notes))
 
     def monte_carlo_errors(self) -> SampledErrors | None:
-        """The Monte Carlo's sampled carrier errors of this consumer and its budget (the plots' hook).
+        """The Monte Carlo's sampled carrier errors of this consumer (worst condition per board) and its budget.
+
+        The plots' hook (see :class:`SampledErrors`).
 
         None unless the run kept samples (``--samples``) and the consumer has a budget.
         """
+        import numpy as np
+
         samples = self.sampled_reference_errors
         if samples is None or not self.judged:
             return None
@@ -301,7 +320,12 @@ class ConsumerAccuracy:
         if sweep_low or sweep_high:
             low, high = (1 + low) / (1 + sweep_low) - 1, (1 + high) / (1 + sweep_high) - 1
             note = "; ".join(filter(None, (note, "budget narrowed by the spread sweep, which counts as error")))
-        return SampledErrors(compose(samples, synthesis), (float(low), float(high)), note)
+        low, high = float(low), float(high)
+        lowest, highest = compose(samples[:, 0], synthesis), compose(samples[:, 1], synthesis)
+        # Each board's worst condition: the extreme nearer its limit. It is inside the budget exactly
+        # when both extremes are, so the histogram's share inside is the yield.
+        worst = np.where(lowest - low < high - highest, lowest, highest)
+        return SampledErrors(worst, (low, high), note)
 
 
     def contributions(self) -> list[tuple[str, Number | str]]:
@@ -367,6 +391,8 @@ class ConsumerAccuracy:
             "ppm_rss_margin": ppm_number(r.rss_margin) if self.judged else None,
             "ppm_pass": self.passes,
             "ppm_rss_pass": self.rss_passes,
+            "ppm_policy": self.policy,
+            "ppm_policy_pass": self.verdict_passes,
             "ppm_at_25c": ppm_number(self.at_25c.worst_case) if self.at_25c else None,
             "ppm_pass_at_25c": self.at_25c.passes if self.at_25c and self.judged else None,
             "ppm_checked": r.checked,
@@ -410,6 +436,10 @@ class ConsumerAccuracy:
         return cells
 
 
+def _hz(value: Fraction) -> int | float:
+    return value.numerator if value.denominator == 1 else float(value)
+
+
 def _power_json(power: OscillatorPower | None) -> dict[str, Any] | None:
     if power is None:
         return None
@@ -426,6 +456,8 @@ def _grade_json(grade: Grade, fits: bool | None) -> dict[str, Any]:
         "tolerance_ppm": [ppm_number(spec.initial[0]), ppm_number(spec.initial[1])],
         "stability_ppm": [ppm_number(band.lo), ppm_number(band.hi)] if hasattr(band, "lo") else None,
         "stability_range_c": list(band.rated_c) if getattr(band, "rated_c", None) is not None else None,
+        "rank": grade.rank,
+        "frequency_range_hz": None if grade.frequency_range is None else [_hz(f) for f in grade.frequency_range],
         "power": _power_json(spec.power),
         "summary": grade.summary(),
     }
@@ -468,7 +500,7 @@ class ReferenceAdvice:
             return "re-plan" if self.unreachable else "not checked"
         if self.advice.grade is None:
             return "no grade fits"
-        rank = [g.name for g in self.grades].index(self.advice.grade.name)
+        rank = self.advice.grade.rank
         if self.failing:
             return "upgrade" if self.current_rank is None or rank > self.current_rank else "better part"
         if self.thin:
@@ -483,7 +515,7 @@ class ReferenceAdvice:
         grade = self.advice.grade if self.advice is not None else None
         if grade is None or self.current_rank is None or self.verdict != "fits":
             return False
-        return [g.name for g in self.grades].index(grade.name) > self.current_rank
+        return grade.rank > self.current_rank
 
     def json_fields(self) -> dict[str, Any]:
         """One entry of the top-level ``references`` list."""
@@ -524,6 +556,7 @@ def _reference_note(ref: ReferenceAdvice) -> str:
         notes.append("this part's own figures do better than its grade's typical ones")
     if ref.oven_power is not None:
         notes.append(_oven_text(ref.oven_power))
+    notes.extend(ref.notes)
     return "; ".join(notes)
 
 
@@ -590,7 +623,7 @@ class MonteCarloSummary:
             "seed": self.seed,
             "board_yield": self.board_yield,
             "consumers": self.consumers,
-            "judged_at": "end of life",
+            "judged_at": JUDGED_AT,
         }
 
     def rich_renderable(self) -> "RenderableType":
@@ -601,5 +634,5 @@ class MonteCarloSummary:
             f"{self.samples:,} of {self.requested:,} boards (stopped at the time limit)")
         return Text(
             f"Monte Carlo: {boards} (seed {seed}), {self.consumers} consumer(s) with a budget; "
-            f"{self.board_yield * 100:.2f} % of boards keep every one inside its budget at end of life."
+            f"{self.board_yield * 100:.2f} % of boards keep every one inside its budget {JUDGED_AT}."
         )

@@ -23,6 +23,7 @@ from typing import TYPE_CHECKING
 
 from clockplan.errors import BoardError
 from clockplan.findings import Finding, Severity
+from clockplan.parts import WORST_CASE, Consumer
 from clockplan.ppm.accuracy import AccuracyResult, ConsumerBudget, consumer_accuracy
 from clockplan.ppm.board import (
     GRADE_RANK,
@@ -35,7 +36,13 @@ from clockplan.ppm.board import (
 from clockplan.ppm.conditions import condition_findings, require_conditions
 from clockplan.ppm.display import format_error, format_limits
 from clockplan.margins import format_margin_warning, is_thin
-from clockplan.ppm.grades import Grade, advise_grade, load_grades
+from clockplan.ppm.grades import (
+    ALWAYS_ON_BELOW_HZ,
+    Grade,
+    advise_grade,
+    applicable_grades,
+    load_grades,
+)
 from clockplan.ppm.montecarlo import ConsumerChain, monte_carlo_yield
 from clockplan.ppm.oscillator import OscillatorSpec
 from clockplan.ppm.results import (
@@ -102,6 +109,7 @@ def _accuracy(model: ReferenceModel, link: ConsumerLink, analysis: "Analysis") -
         lifetime_s=board.lifetime_s,
         required_margin=board.margin_warning * budget.half_width,
         spec=model.spec,
+        policy=board.accuracy_policy,
     )
 
 
@@ -143,6 +151,18 @@ def _fits(result: AccuracyResult, margin: Fraction) -> bool:
     return result.passes and not is_thin(result.margin / result.budget.half_width, margin)
 
 
+#: The note a budget derived from a timekeeping target carries (``rtc = { drift, per }``, clockplan.standards).
+_RTC_NOTE = "RTC target"
+
+
+def _always_on(consumer: Consumer) -> bool:
+    """A kHz timekeeping or sleep clock (common practice): below 1 MHz, or held to a real-time-clock budget
+    (the ``rtc-32k`` standard's family, or a budget derived from a timekeeping target)."""
+    budget = consumer.budget
+    real_time = getattr(budget, "family", "") == "RTC" or _RTC_NOTE in getattr(budget, "notes", "")
+    return consumer.frequency < ALWAYS_ON_BELOW_HZ or real_time
+
+
 def _advice(
     model: ReferenceModel, links: Sequence[ConsumerLink], accuracies: dict[str, ConsumerAccuracy],
     analysis: "Analysis", grades: Sequence[Grade],
@@ -162,8 +182,10 @@ def _advice(
         ConsumerChain(0, link.synthesis_error, link.budget, link.spread, name=link.id)
         for link in judged if link.id not in unreachable
     ]
-    advice = (advise_grade(0, fixable, board.temperature_c, board.lifetime_s, margin=board.margin_warning, grades=grades)
-              if fixable else None)
+    always_on = [link.id for link in judged if _always_on(board.part(link.id))]
+    offered, notes = applicable_grades(grades, ref.frequency, always_on)
+    advice = advise_grade(0, fixable, board.temperature_c, board.lifetime_s, margin=board.margin_warning,
+                           grades=offered) if fixable else None
     failing = tuple(
         link.id for link in judged
         if link.id not in unreachable and (
@@ -182,10 +204,11 @@ def _advice(
         failing=failing,
         thin=thin,
         advice=advice,
-        grades=tuple(grades),
+        grades=offered,
         current_rank=GRADE_RANK.get(ref.kind),
         unreachable=unreachable,
         oven_power=oven,
+        notes=notes,
     )
 
 
@@ -193,8 +216,13 @@ def _advice(
 
 
 def _advice_text(advice: ReferenceAdvice, margin: Fraction) -> str:
+    if not advice.grades:
+        return f"no oscillator grade in the table is commonly made at the frequency of {advice.id}: choose the part from its datasheet"
     if advice.advice is None or advice.advice.grade is None:
-        return f"no oscillator grade up to an OCXO keeps every consumer of {advice.id} inside its budget with margin"
+        return (
+            f"no oscillator grade up to {advice.grades[-1].label} keeps every consumer of {advice.id} "
+            "inside its budget with margin"
+        )
     return (
         f"use {_grade_text(advice.advice.grade)}: it keeps every consumer of {advice.id} inside its budget "
         f"with {format_margin_warning(margin)} margin"
@@ -244,6 +272,9 @@ def _cure(link: ConsumerLink, accuracy: ConsumerAccuracy, advice: ReferenceAdvic
     return "fix: " + _advice_text(advice, margin)
 
 
+_STATISTICAL_KEY = 'accuracy_policy = "statistical"'
+
+
 def _synthesis_alone_fits(link: ConsumerLink, accuracy: ConsumerAccuracy, margin: Fraction) -> bool:
     """Whether the chain's synthesis error alone, on a perfect reference and without the spread, keeps the margin."""
     ideal = OscillatorSpec(accuracy.spec.kind if accuracy.spec is not None else "xo", (Fraction(0), Fraction(0)))
@@ -270,10 +301,20 @@ def _consumer_findings(
             f"{_room_text(accuracy)}{_yield_text(accuracy)}; {_cure(link, accuracy, advice, margin)}"
         )
         return [Finding(Severity.ERROR, "ppm-budget", link.id, message)]
+    if not r.passes and accuracy.policy == WORST_CASE:
+        # The default policy: a board with every part at its limit must pass; the RSS total hides the corner.
+        message = (
+            f"{worst} breaks {budget}{spread} (worst-case policy: every tolerance at its limit); the statistical "
+            f"total (RSS) {format_error(r.rss)} is inside it, but a board with its parts at their limits fails"
+            f"{_room_text(accuracy)}{_yield_text(accuracy)}; {_cure(link, accuracy, advice, margin)} "
+            f"(or, if a statistical verdict is acceptable for this product, set [board] {_STATISTICAL_KEY})"
+        )
+        return [Finding(Severity.ERROR, "ppm-budget", link.id, message)]
     if not r.passes:
         message = (
-            f"statistical total (RSS) {format_error(r.rss)} is inside {budget}, but the {worst} breaks it{spread}: "
-            f"a board with every part at its limit fails{_yield_text(accuracy)}; {_cure(link, accuracy, advice, margin)}"
+            f"statistical total (RSS) {format_error(r.rss)} is inside {budget}, the verdict the board asks for "
+            f"({_STATISTICAL_KEY}), but the {worst} breaks it{spread}: a board with every part at its limit "
+            f"fails{_yield_text(accuracy)}; {_cure(link, accuracy, advice, margin)}"
         )
         return [Finding(Severity.WARNING, "ppm-worst-case", link.id, message)]
     if accuracy.thin:

@@ -16,12 +16,13 @@ How the band enters the analysis
 --------------------------------
 A band says where the frequency stays, not how it moves with temperature.
 The worst case takes the band's edges; no temperature can be named for them
-(``None``). The Monte Carlo draws the band error uniformly inside the band for
-each board, independently of the board's drawn temperature: that is a
-planning assumption, neither the datasheet's guarantee nor its typical curve.
-The curve models are deterministic functions of temperature; the Monte Carlo
-evaluates them at each board's temperature, shared by every reference on the
-board.
+(``None``). The Monte Carlo judges every simulated board at both band edges:
+the band does not say where in it a part's curve runs, so no narrower
+excursion is assumed (:mod:`clockplan.ppm.montecarlo`). The curve models are
+deterministic functions of temperature; the Monte Carlo judges every board at
+their extremes over the range, as the worst case does. ``sample`` (one
+uniform draw inside a band, a curve at given temperatures) serves a single
+operating point, not the yield.
 
 A band holds only over the temperature range its datasheet rates it over
 (``rated_c``); outside that range the figure is unknown, not the same.
@@ -179,7 +180,7 @@ class StabilityBand:
         return TemperatureExtremes(self.lo, None, self.hi, None)
 
     def sample(self, temps_c: np.ndarray, rng: np.random.Generator) -> np.ndarray:
-        """Uniform draw inside the band, one per board (see module notes)."""
+        """Uniform draw inside the band, one per operating point (not the yield's model: see module notes)."""
         return rng.uniform(float(self.lo), float(self.hi), size=np.shape(temps_c))
 
 

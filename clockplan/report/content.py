@@ -39,6 +39,7 @@ __all__ = [
     "Summary",
     "STATUS_WORDS",
     "VERDICT_WORDS",
+    "POLICY_TEXT",
     "NO_MARGINS",
     "NO_MARGINS_UNCHECKED",
     "status_of",
@@ -64,6 +65,15 @@ __all__ = [
 STATUS_WORDS = ("PASS", "warn", "unchecked", "FAIL")
 #: The board verdict's words: no error and every budget checked, some budget not checked, an error.
 VERDICT_WORDS = ("PASS", "UNCHECKED", "FAIL")
+
+#: How the summary names the board's ``accuracy_policy`` (docs/frequency-accuracy.md).
+POLICY_TEXT = {
+    "worst-case": "worst case (every tolerance at its limit, at the worst temperature and age; the default)",
+    "statistical": (
+        "statistical total (RSS), as the board asks (accuracy_policy = \"statistical\"): "
+        "a board with its parts at their limits may still fail"
+    ),
+}
 
 #: What the summary says when no consumer has a margin to show.
 NO_MARGINS = "none to show (every target is exact and no ppm or jitter budget is set)"
@@ -149,6 +159,7 @@ class Summary:
     warnings: int
     consumers: int
     unchecked: tuple[str, ...] = ()
+    accuracy_policy: str | None = None
 
     @property
     def counts(self) -> str:
@@ -160,6 +171,8 @@ class Summary:
     def facts(self) -> tuple[tuple[str, str], ...]:
         """The summary's ``(label, text)`` lines after the title (which names the board and its file)."""
         facts = [("references", "; ".join(self.references)), ("conditions", self.conditions)]
+        if self.accuracy_policy is not None:
+            facts.append(("ppm policy", POLICY_TEXT.get(self.accuracy_policy, self.accuracy_policy)))
         if self.failing:
             facts.append(("failing", "; ".join(self.failing)))
         if self.unchecked:
@@ -476,7 +489,14 @@ def summarize(analysis: Analysis) -> Summary:
         warnings=warnings,
         consumers=len(analysis.consumers),
         unchecked=tuple(f"{r.id} ({', '.join(r.unchecked)})" for r in analysis.consumers if r.unchecked),
+        accuracy_policy=_applied_policy(analysis),
     )
+
+
+def _applied_policy(analysis: Analysis) -> str | None:
+    """The board's accuracy policy when some frequency-error budget was judged under it, else None."""
+    judged = any(getattr(r.accuracy, "judged", False) for r in analysis.consumers)
+    return analysis.board.accuracy_policy if judged else None
 
 
 @dataclass(frozen=True)

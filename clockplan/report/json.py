@@ -134,6 +134,7 @@ def analysis_document(analysis: Analysis, command: str = "audit") -> dict[str, A
             "temperature_c": list(board.temperature_c),
             "lifetime_s": board.lifetime_s,
             "assumed_conditions": list(board.unstated),
+            "accuracy_policy": board.accuracy_policy,
         },
         "verdict": _verdict(analysis),
         "unchecked": {"count": len(unchecked_consumers(analysis)), "consumers": list(unchecked_consumers(analysis))},

@@ -276,7 +276,7 @@ def distribution_figure(traces: Sequence[ErrorDistribution]) -> "Figure":
     >>> fig = distribution_figure([ErrorDistribution("phy0", [0.0, 1e-6, -2e-6], (-1e-4, 1e-4))])  # doctest: +SKIP
     """
     _require_matplotlib()
-    figure, axes = _grid(len(traces), "Monte Carlo frequency error against the budget")
+    figure, axes = _grid(len(traces), "Monte Carlo frequency error against the budget (each board at its worst temperature and age)")
     for ax, trace in zip(axes, traces):
         ppm = [float(e) * 1e6 for e in trace.errors]
         low, high = (float(b) * 1e6 for b in trace.budget)

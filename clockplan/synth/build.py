@@ -279,6 +279,7 @@ def parts_board(problem: Problem, parts: TreeParts, name: str | None = None) -> 
         buffers=tuple(buffers),
         consumers=consumers,
         pins=pins,
+        accuracy_policy=spec.accuracy_policy,
     )
 
 

@@ -18,6 +18,7 @@ from typing import Any
 
 from clockplan.boardfile import (
     finish_part,
+    read_accuracy_policy,
     read_board_section,
     unstated_conditions,
     read_consumer,
@@ -25,7 +26,7 @@ from clockplan.boardfile import (
 )
 from clockplan.errors import BoardError
 from clockplan.margins import DEFAULT_MARGIN_WARNING
-from clockplan.parts import Consumer, Reference
+from clockplan.parts import WORST_CASE, Consumer, Reference
 from clockplan.tomlread import (
     Locator,
     TableReader,
@@ -88,6 +89,7 @@ class ConsumerList:
     source_file: str | None = None
     board_line: int | None = None
     margin_warning: Fraction = DEFAULT_MARGIN_WARNING
+    accuracy_policy: str = WORST_CASE
 
 
 def _strings(value: Any) -> tuple[str, ...]:
@@ -207,6 +209,7 @@ def parse_consumer_list(text: str, file: str | None = None) -> ConsumerList:
         source_file=file,
         board_line=ctx.line_of("board"),
         margin_warning=margin_warning,
+        accuracy_policy=read_accuracy_policy(doc, ctx),
     )
 
 

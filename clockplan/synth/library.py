@@ -350,6 +350,7 @@ def _grades() -> dict[str, dict[str, Any]]:
 
 def _read_oscillator(reader: TableReader) -> OscillatorTemplate:
     from clockplan.jitter.parse import parse_phase_noise
+    from clockplan.ppm.grades import GRADE_KEYS
     from clockplan.ppm.parse import parse_oscillator_spec
 
     name, label = _common(reader)
@@ -361,7 +362,7 @@ def _read_oscillator(reader: TableReader) -> OscillatorTemplate:
         grades = _grades()
         if grade not in grades:
             raise reader.error("grade", f"unknown grade {grade!r}", did_you_mean(grade, grades) or "grades: " + ", ".join(grades))
-        accuracy = {k: v for k, v in grades[grade].items() if k not in ("name", "label", "note")}
+        accuracy = {k: v for k, v in grades[grade].items() if k not in GRADE_KEYS}
     else:
         accuracy = {k: reader.raw(k) for k in given}
     for key in _ACCURACY_KEYS:
