@@ -121,10 +121,18 @@ def band_plan(consumer: "Consumer", clock_hz: Fraction | None) -> BandPlan | Non
 
 
 def _analysis_grid(plans: dict[str, BandPlan | None]) -> Any:
+    """The base grid every chain starts from: 50 points per decade and every band edge.
+
+    It spans 1 Hz (or the lowest band edge) to the highest band edge (1 GHz
+    without bands); each chain then adds what it carries (listed offsets, loop
+    corners) and refines itself (:mod:`clockplan.jitter.chain`).
+    """
+    import numpy as np
+
     bands = [p.band_hz for p in plans.values() if p is not None]
     low = min([1.0] + [b[0] for b in bands])
-    high = max([1e9] + [b[1] for b in bands])
-    return log_grid(low, high)
+    high = max(b[1] for b in bands) if bands else 1e9
+    return np.union1d(log_grid(low, high), [edge for band in bands for edge in band])
 
 
 def _budget_finding(consumer_id: str, jitter: ConsumerJitter) -> Finding:
@@ -191,7 +199,8 @@ def jitter_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysis"
         from clockplan.graph import build_graph
 
         graph = build_graph(board)
-    model = BoardNoise(board, graph, analysis.frequencies, _analysis_grid(plans))
+    bands = {consumer: plan.band_hz for consumer, plan in plans.items() if plan is not None}
+    model = BoardNoise(board, graph, analysis.frequencies, _analysis_grid(plans), bands=bands)
     missing: dict[str, tuple[MissingNoiseData, list[str]]] = {}
     unmodelled: dict[str, tuple[str, list[str]]] = {}
     findings: list[Finding] = []
