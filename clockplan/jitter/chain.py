@@ -450,13 +450,11 @@ class NoiseChain:
         hi = int(np.searchsorted(ln_f, b, side="left"))
         ends = _read_curve(ln_f, curve, np.array([a, b]))
         if hi == lo:  # no grid point strictly inside the band
-            power = segment_powers(np.array([a, b]), ends)[0]
-        else:
-            power = (
-                segments[lo : hi - 1].sum(axis=0)
-                + segment_powers(np.array([a, ln_f[lo]]), np.stack((ends[0], curve[lo])))[0]
-                + segment_powers(np.array([ln_f[hi - 1], b]), np.stack((curve[hi - 1], ends[1])))[0]
-            )
+            power = _partial_cells(np.array([a]), np.array([b]), ends[:1], ends[1:]).sum(axis=0)
+        else:  # the whole cells inside, and the two partial cells at the band's edges
+            starts, stops = np.array([a, ln_f[hi - 1]]), np.array([ln_f[lo], b])
+            partial = _partial_cells(starts, stops, np.stack((ends[0], curve[hi - 1])), np.stack((curve[lo], ends[1])))
+            power = segments[lo : hi - 1].sum(axis=0) + partial.sum(axis=0)
         return power + self.flat * (high - low)
 
     @cached_property
@@ -485,11 +483,14 @@ class NoiseChain:
         """
         low, high = check_band(f_low_hz, f_high_hz)
         out = np.zeros(len(self.names))
+        pieces: dict[tuple[float, float], list[int]] = {}  # each sub-band integrated once
         for j, (first, last) in enumerate(self.listed_hz):
             if low < first:
-                out[j] += self.band_power(low, min(high, first))[j]
+                pieces.setdefault((low, min(high, first)), []).append(j)
             if high > last:
-                out[j] += self.band_power(max(low, last), high)[j]
+                pieces.setdefault((max(low, last), high), []).append(j)
+        for (start, stop), columns in pieces.items():
+            out[columns] += self.band_power(start, stop)[columns]
         return out
 
 
@@ -560,6 +561,15 @@ def _curve_function(chain: NoiseChain, columns: np.ndarray) -> "Callable[[np.nda
         return np.exp(_read_curve(ln_f, curve, np.log(offsets))) + flat
 
     return density
+
+
+def _partial_cells(ln_fa: np.ndarray, ln_fb: np.ndarray, ln_pa: np.ndarray, ln_pb: np.ndarray) -> np.ndarray:
+    """The power-law integral over a few cells ``[fa, fb]`` at once: :func:`segment_powers`' closed form."""
+    width = (ln_fb - ln_fa)[:, None]
+    x = ln_pb - ln_pa + width
+    ratio = np.ones_like(x)
+    np.divide(np.expm1(x), x, out=ratio, where=x != 0)
+    return np.exp(ln_pa + ln_fa[:, None]) * width * ratio
 
 
 def _read_curve(ln_f: np.ndarray, curve: np.ndarray, ln_at: np.ndarray) -> np.ndarray:
@@ -960,7 +970,9 @@ def combine(*chains: NoiseChain) -> NoiseChain:
             and math.isclose(other.offsets_hz[-1], first.offsets_hz[-1], rel_tol=1e-12)
         ):
             raise ClockplanError(
-                "chains to combine span different offset ranges",
+                f"the chains to combine have analysis grids of different spans: "
+                f"{first.offsets_hz[0]:g}..{first.offsets_hz[-1]:g} Hz and "
+                f"{other.offsets_hz[0]:g}..{other.offsets_hz[-1]:g} Hz",
                 key="chains",
                 hint="build every chain from the same span (log_grid(f_min, f_max))",
             )

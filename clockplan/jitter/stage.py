@@ -22,6 +22,12 @@ Findings:
     jitter not computed (no reference phase noise, no PLL loop) for consumers
     that have a budget, or computed without a part's own noise (a PLL without
     its noise figures, a buffer without additive jitter), so it is optimistic.
+``jitter-extrapolated`` (warning, on the reference or PLL whose listed phase noise ends)
+    a consumer's band, or the loop shaping the noise, reaches outside a
+    reference's or a VCO's listed offsets, and what is read there (the
+    ``"conservative"`` extension of :mod:`clockplan.jitter.profile`) carries
+    at least :data:`EXTRAPOLATED_SHARE` of the consumer's jitter variance; names
+    the part, its listed range, each consumer's band and the share.
 
 Every figure is a planning estimate: the part datasheets and the governing
 standard decide.
@@ -30,25 +36,41 @@ standard decide.
 from __future__ import annotations
 
 import dataclasses
+import math
 from fractions import Fraction
 from typing import TYPE_CHECKING, Any
+
+import numpy as np
 
 from clockplan.findings import Finding, Severity
 from clockplan.jitter.chain import log_grid
 from clockplan.jitter.consumer import ConsumerJitter, format_band
 from clockplan.jitter.tree import BoardNoise, MissingNoiseData, NodeNoise
 from clockplan.standards.model import gaussian_pp_per_rms
-from clockplan.units import format_time
+from clockplan.units import format_frequency, format_time
 
 if TYPE_CHECKING:
     from clockplan.analysis import Analysis, AnalysisOptions
     from clockplan.parts import Consumer
 
-__all__ = ["DEFAULT_BAND_HZ", "KIND_TEXT", "FIXES", "BandPlan", "band_plan", "jitter_stage"]
+__all__ = [
+    "DEFAULT_BAND_HZ",
+    "EXTRAPOLATED_SHARE",
+    "KIND_TEXT",
+    "FIXES",
+    "BandPlan",
+    "band_plan",
+    "jitter_stage",
+]
 
 #: Integration band when a consumer's budget gives none (common practice: the
 #: band clock datasheets usually quote RMS jitter over).
 DEFAULT_BAND_HZ = (12e3, 20e6)
+
+#: Share of a consumer's jitter variance read from outside a profile's listed
+#: offsets from which ``jitter-extrapolated`` warns (1 % of the variance, about
+#: 0.5 % of the RMS jitter: below it the reading cannot move a planning verdict).
+EXTRAPOLATED_SHARE = 0.01
 
 #: Each kind of contributor in words.
 KIND_TEXT = {
@@ -127,12 +149,13 @@ def _analysis_grid(plans: dict[str, BandPlan | None]) -> Any:
     without bands); each chain then adds what it carries (listed offsets, loop
     corners) and refines itself (:mod:`clockplan.jitter.chain`).
     """
-    import numpy as np
-
     bands = [p.band_hz for p in plans.values() if p is not None]
     low = min([1.0] + [b[0] for b in bands])
     high = max(b[1] for b in bands) if bands else 1e9
-    return np.union1d(log_grid(low, high), [edge for band in bands for edge in band])
+    # 50 points per decade from a whole decade, so the grid holds 1, 10, 100 Hz...
+    base = log_grid(10.0 ** math.floor(math.log10(low)), 10.0 ** math.ceil(math.log10(high)))
+    base = base[(base > low) & (base < high)]
+    return np.union1d(base, [low, high] + [edge for band in bands for edge in band])
 
 
 def _budget_finding(consumer_id: str, jitter: ConsumerJitter) -> Finding:
@@ -176,6 +199,54 @@ def _data_findings(
     return findings
 
 
+@dataclasses.dataclass
+class _Outside:
+    """What a part's listed phase noise leaves out, per consumer (for ``jitter-extrapolated``)."""
+
+    kind: str
+    listed_hz: tuple[float, float]
+    consumers: list[tuple[str, tuple[float, float], float]] = dataclasses.field(default_factory=list)
+
+
+def _extrapolated(noise: NodeNoise, jitter: ConsumerJitter) -> list[tuple[str, str, tuple[float, float], float]]:
+    """``(part, kind, listed range, share of the variance)`` for each material extrapolated contributor."""
+    chain = noise.chain
+    listed = chain.listed_hz
+    low, high = jitter.band_hz
+    if not ((low < listed[:, 0]) | (high > listed[:, 1])).any():
+        return []
+    total = jitter.result.rms_phase_rad**2 / 2.0  # single-sideband power, spurs included
+    if not total > 0:
+        return []
+    outside = chain.extrapolated_power(low, high) / total
+    found = []
+    for j in np.flatnonzero(outside >= EXTRAPOLATED_SHARE):
+        name = chain.names[j]
+        kind, part = noise.kinds.get(name, ("", name))
+        found.append((part, kind, (float(listed[j, 0]), float(listed[j, 1])), float(outside[j])))
+    return found
+
+
+def _extrapolation_findings(outside: dict[str, _Outside]) -> list[Finding]:
+    findings = []
+    for part, gap in outside.items():
+        what = "its VCO's phase noise" if gap.kind == "vco" else "its phase noise"
+        reaches = "; ".join(
+            f"{consumer} over {format_band(band)}: {share * 100:.1f} % of its jitter variance"
+            for consumer, band, share in gap.consumers
+        )
+        message = (
+            f"{part}: {what} is listed only from {format_frequency(gap.listed_hz[0])} "
+            f"to {format_frequency(gap.listed_hz[1])}, "
+            f"but the jitter bands (or the loop shaping the noise) reach outside it ({reaches}); there the noise is "
+            "extrapolated (below the first point at the first segment's slope, rising at least 20 dB/decade toward "
+            "the carrier; beyond the last point held, or still rising), an assumption; list the phase noise over "
+            "the whole band from the datasheet (docs/jitter.md)"
+        )
+        findings.append(Finding(Severity.WARNING, "jitter-extrapolated", part, message))
+    return findings
+
+
 def _consumer_jitter(noise: NodeNoise, plan: BandPlan) -> ConsumerJitter:
     result = noise.chain.jitter(*plan.band_hz, budget_seconds=plan.budget_s)
     notes = plan.notes + tuple(dict.fromkeys(f"{text}." for _, text in noise.unmodelled))
@@ -203,6 +274,7 @@ def jitter_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysis"
     model = BoardNoise(board, graph, analysis.frequencies, _analysis_grid(plans), bands=bands)
     missing: dict[str, tuple[MissingNoiseData, list[str]]] = {}
     unmodelled: dict[str, tuple[str, list[str]]] = {}
+    outside: dict[str, _Outside] = {}
     findings: list[Finding] = []
     for result in analysis.consumers:
         plan = plans[result.id]
@@ -215,8 +287,11 @@ def jitter_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysis"
             continue
         jitter = _consumer_jitter(noise, plan)
         analysis = analysis.with_consumer(dataclasses.replace(result, jitter=jitter))
+        for part, kind, listed, share in _extrapolated(noise, jitter):
+            gap = outside.setdefault(part, _Outside(kind, listed))
+            gap.consumers.append((result.id, jitter.band_hz, share))
         for part, text in noise.unmodelled:
             unmodelled.setdefault(part, (text, []))[1].append(result.id)
         if jitter.passes is False:
             findings.append(_budget_finding(result.id, jitter))
-    return analysis.with_findings(findings + _data_findings(missing, unmodelled))
+    return analysis.with_findings(findings + _extrapolation_findings(outside) + _data_findings(missing, unmodelled))
