@@ -195,17 +195,19 @@ def _refine(
             pieces.append(grid[i] * np.exp(widths[i] * np.arange(1, count) / count))
         grid = np.unique(np.concatenate(pieces))
     ln_f = np.log(grid)
-    ln_p = _ln_columns(list(densities), grid)
+    n = ln_f.size
+    width = ln_f[1:] - ln_f[:-1]
+    mid_f = ln_f[:-1] + 0.5 * width
+    # One call per pass: the points, and the middles of the cells to check.
+    both = _ln_columns(list(densities), np.concatenate((grid, np.exp(mid_f))))
+    ln_p, mid_p = both[:n], both[n:]
     a_f, b_f, a_p, b_p = ln_f[:-1], ln_f[1:], ln_p[:-1], ln_p[1:]
-    width = b_f - a_f
     # Power of all densities together per unit of ln f in each starting cell (read
     # roughly, from its ends): the scale a stray is weighed against.
     origin = 0.5 * (np.exp(a_p + a_f[:, None]) + np.exp(b_p + b_f[:, None])).sum(axis=1)
     added: list[np.ndarray] = []
     added_p: list[np.ndarray] = []
     for _ in range(_MAX_PASSES):
-        mid_f = a_f + 0.5 * width
-        mid_p = _ln_columns(list(densities), np.exp(mid_f))
         stray = np.abs(mid_p - 0.5 * (a_p + b_p))
         # The cell's power, read roughly through its middle too (an end at a zero reads as nothing).
         level = np.maximum(np.maximum(a_p, b_p), mid_p) + mid_f[:, None]
@@ -226,15 +228,20 @@ def _refine(
         fraction = step / np.repeat(pieces, pieces)
         left_f = a_f[cell] + width[cell] * fraction
         inner = step > 0
-        left_p = a_p[cell]
-        left_p[inner] = _ln_columns(list(densities), np.exp(left_f[inner]))
-        right_f, right_p = b_f[cell], b_p[cell]
+        right_f = b_f[cell]
         follows = np.flatnonzero(inner[1:])
         right_f[follows] = left_f[follows + 1]
+        new_f = left_f[inner]
+        mid_f = 0.5 * (left_f[again] + right_f[again])
+        both = _ln_columns(list(densities), np.exp(np.concatenate((new_f, mid_f))))
+        left_p = a_p[cell]
+        left_p[inner] = both[: new_f.size]
+        right_p = b_p[cell]
         right_p[follows] = left_p[follows + 1]
-        added.append(left_f[inner])
-        added_p.append(left_p[inner])
+        added.append(new_f)
+        added_p.append(both[: new_f.size])
         a_f, b_f, a_p, b_p, origin = left_f[again], right_f[again], left_p[again], right_p[again], origin[cell[again]]
+        mid_p = both[new_f.size :]
         width = b_f - a_f
         if not a_f.size:
             break
@@ -285,16 +292,17 @@ def _horner(coefficients: tuple[float, ...], x: np.ndarray) -> np.ndarray | floa
     return value
 
 
-def _loop_powers(loop: LoopResponse, offsets: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """``|H|**2`` and ``|1 - H|**2`` at once (they share their denominator), as ``LoopResponse`` gives them."""
-    w2 = (2.0 * math.pi * offsets) ** 2
-    x = -w2
-    powers = []
-    for polynomial in (loop.closed_den, loop.closed_num, loop.error_num):
-        even, odd = _power_polynomial(polynomial)
-        powers.append(_horner(even, x) ** 2 + w2 * _horner(odd, x) ** 2)
-    den, num, err = powers
-    return num / den, err / den
+def _loop_powers(loop: LoopResponse) -> Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]]:
+    """``offsets -> (|H|**2, |1 - H|**2)``, both at once (they share their denominator), as ``LoopResponse`` gives them."""
+    parts = [_power_polynomial(p) for p in (loop.closed_den, loop.closed_num, loop.error_num)]
+
+    def powers(offsets: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        w2 = (2.0 * math.pi * offsets) ** 2
+        x = -w2
+        den, num, err = (_horner(even, x) ** 2 + w2 * _horner(odd, x) ** 2 for even, odd in parts)
+        return num / den, err / den
+
+    return powers
 
 
 def _on_grid(grid: np.ndarray, offsets: object) -> np.ndarray:
@@ -355,7 +363,11 @@ class NoiseChain:
         check_carrier(self.carrier_hz)
         k = len(self.names)
         flat = np.zeros(k) if self.flat is None else np.asarray(self.flat, dtype=float)
-        listed = np.tile([0.0, math.inf], (k, 1)) if self.listed_hz is None else np.asarray(self.listed_hz, dtype=float)
+        if self.listed_hz is None:
+            listed = np.full((k, 2), math.inf)
+            listed[:, 0] = 0.0
+        else:
+            listed = np.asarray(self.listed_hz, dtype=float)
         if flat.shape != (k,) or listed.shape != (k, 2):
             raise ClockplanError(
                 f"flat shape {flat.shape} or listed_hz shape {listed.shape} does not match {k} contributors",
@@ -816,6 +828,7 @@ def pll(
         return floor
 
     carried = _curve_function(chain, np.arange(len(chain.names)))
+    loop_powers = _loop_powers(loop)
     vco_density = vco.reader(vco_extrapolation) if vco is not None else None
     own: list[str] = []  # this PLL's contributors, in the order shaped() gives them
     if fom_dbc_hz is not None or flicker_fom_dbc_hz is not None:
@@ -827,7 +840,7 @@ def pll(
 
     def shaped(offsets: np.ndarray) -> np.ndarray:
         """Every contributor at the PLL output: the input's (as the chain reads them), then this PLL's own."""
-        lowpass, highpass = _loop_powers(loop, offsets)
+        lowpass, highpass = loop_powers(offsets)
         columns = [carried(offsets) * (gain * lowpass)[:, None]]
         if fom_dbc_hz is not None or flicker_fom_dbc_hz is not None:
             columns.append((in_band_floor(offsets) * lowpass)[:, None])

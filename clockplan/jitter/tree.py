@@ -168,13 +168,12 @@ class BoardNoise:
         where nothing below it integrates.
         """
         if self._reach is None:
-            import networkx as nx
-
             self._reach = {}
             for consumer, (_, high) in self.bands.items():
-                if consumer in self.graph:
-                    for fed in nx.ancestors(self.graph, consumer) | {consumer}:
-                        self._reach[fed] = max(self._reach.get(fed, 0.0), float(high))
+                fed: str | None = consumer if consumer in self.graph else None
+                while fed is not None:  # up the chain: each node has one input
+                    self._reach[fed] = max(self._reach.get(fed, 0.0), float(high))
+                    fed = next(iter(self.graph.predecessors(fed)), None)
         return self._reach.get(node)
 
     def _build(self, node: str) -> NodeNoise | MissingNoiseData:
