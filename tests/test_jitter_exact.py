@@ -115,6 +115,8 @@ def _listed_density(points, floor=None):
             level = levels[-1] + max(last, 0.0) * (x - logs[-1])
         else:
             level = float(np.interp(x, logs, levels))
+        if level > 100.0:  # far past any physical reading (and past a float's range soon after)
+            return math.inf
         return 10 ** (level / 10) + (0.0 if floor is None else 10 ** (floor / 10))
 
     return density
