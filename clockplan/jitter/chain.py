@@ -506,6 +506,17 @@ class NoiseChain:
         return out
 
 
+_FIELDS = tuple(f for f in NoiseChain.__dataclass_fields__)
+
+
+def _made(*values: object) -> NoiseChain:
+    """A NoiseChain from fields this module has already made consistent (no checks: it is on every step)."""
+    chain = object.__new__(NoiseChain)
+    for name, value in zip(_FIELDS, values):
+        object.__setattr__(chain, name, value)
+    return chain
+
+
 def _resample(chain: NoiseChain, grid: np.ndarray) -> NoiseChain:
     """The same chain on a finer ``grid`` (a superset of its own, same span).
 
@@ -517,7 +528,7 @@ def _resample(chain: NoiseChain, grid: np.ndarray) -> NoiseChain:
         return chain
     density = np.exp(_read_curve(chain._ln_offsets, chain._ln_curve, np.log(grid))) + chain.flat
     density[density < 2 * _TINY] = 0.0
-    return NoiseChain(
+    return _made(
         chain.carrier_hz,
         grid,
         chain.names,
@@ -549,7 +560,7 @@ def truncate(chain: NoiseChain, f_max_hz: float) -> NoiseChain:
         return chain
     keep = int(np.searchsorted(grid, top, side="left"))
     end = np.exp(_read_curve(chain._ln_offsets, chain._ln_curve, np.array([math.log(top)]))) + chain.flat
-    return NoiseChain(
+    return _made(
         chain.carrier_hz,
         np.append(grid[:keep], top),
         chain.names,
@@ -586,8 +597,8 @@ def _partial_cells(ln_fa: np.ndarray, ln_fb: np.ndarray, ln_pa: np.ndarray, ln_p
 
 def _read_curve(ln_f: np.ndarray, curve: np.ndarray, ln_at: np.ndarray) -> np.ndarray:
     """``ln`` of ``(n, k)`` curves at points inside the grid: :func:`interpolate_log`'s reading, on few points fast."""
-    j = np.clip(np.searchsorted(ln_f, ln_at), 1, ln_f.size - 1)
-    t = np.clip((ln_at - ln_f[j - 1]) / (ln_f[j] - ln_f[j - 1]), 0.0, 1.0)[:, None]
+    j = np.minimum(np.maximum(np.searchsorted(ln_f, ln_at), 1), ln_f.size - 1)  # (np.clip costs more here)
+    t = np.minimum(np.maximum((ln_at - ln_f[j - 1]) / (ln_f[j] - ln_f[j - 1]), 0.0), 1.0)[:, None]
     below = curve[j - 1]
     return below + t * (curve[j] - below)
 
@@ -627,7 +638,7 @@ def _with_contributor(
         offsets = np.concatenate((offsets, spur_offsets))
         powers = np.concatenate((powers, spur_power))
         owners = np.concatenate((owners, np.full(spur_offsets.size, index, dtype=np.intp)))
-    return NoiseChain(chain.carrier_hz, chain.offsets_hz, names, table, offsets, powers, owners, white, listed)
+    return _made(chain.carrier_hz, chain.offsets_hz, names, table, offsets, powers, owners, white, listed)
 
 
 def _spur_arrays(profile: PhaseNoiseProfile) -> tuple[np.ndarray, np.ndarray]:
@@ -836,7 +847,7 @@ def pll(
     if modulator_order is not None:
         own.append(f"{name} modulator")
     if vco is not None:
-        own.append(f"{name} VCO")
+        own.append(f"{name} VCO")  # last
 
     def shaped(offsets: np.ndarray) -> np.ndarray:
         """Every contributor at the PLL output: the input's (as the chain reads them), then this PLL's own."""
@@ -868,24 +879,23 @@ def pll(
         chain.names,
         table[:, :carried_count],
         chain.spur_offsets_hz,
-        chain.spur_power * gain * loop.closed_loop_power(chain.spur_offsets_hz),
+        chain.spur_power * gain * loop_powers(chain.spur_offsets_hz)[0],
         chain.spur_owner,
         listed_hz=chain.listed_hz,
     )
-    for j, contributor in enumerate(own):
-        column = table[:, carried_count + j]
-        if contributor.endswith(" VCO") and vco is not None:
-            spur_offsets, spur_powers = _spur_arrays(vco)
-            out = _with_contributor(
-                out,
-                contributor,
-                column,
-                spur_offsets,
-                spur_powers * loop.error_power(spur_offsets),
-                listed_hz=(float(vco.offsets_hz[0]), float(vco.offsets_hz[-1])),
-            )
-        else:
-            out = _with_contributor(out, contributor, column)
+    shaped_here = own[:-1] if vco is not None else own
+    for j, contributor in enumerate(shaped_here):
+        out = _with_contributor(out, contributor, table[:, carried_count + j])
+    if vco is not None:
+        spur_offsets, spur_powers = _spur_arrays(vco)
+        out = _with_contributor(
+            out,
+            own[-1],
+            table[:, -1],
+            spur_offsets,
+            spur_powers * loop_powers(spur_offsets)[1],
+            listed_hz=(float(vco.offsets_hz[0]), float(vco.offsets_hz[-1])),
+        )
     return out
 
 
