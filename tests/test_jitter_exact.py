@@ -445,6 +445,9 @@ def test_conservative_extension_by_hand():
     assert levels.round(9).tolist() == [-40.0, -100.0, round(-130 - 10 * math.log10(3), 9), -140.0]
     single = interpolate_log(np.log([1e3]), np.log([1e-10]), np.log([1e1, 1e5]), "conservative")
     assert (10 * np.log10(np.exp(single))).round(9).tolist() == [-60.0, -100.0]
+    # The API reads the same way on request: p1 f1**2 (1/a - 1/b) for a -20 dB/decade profile.
+    seconds = rms_jitter([(1e4, -120), (1e5, -140)], 100e6, 1e3, 1e5, extrapolation="conservative")
+    assert seconds == pytest.approx(_seconds(1e-12 * 1e8 * (1 / 1e3 - 1 / 1e5), 100e6), rel=1e-12)
 
 
 def test_refine_grid_leaves_power_laws_and_resolves_bends():
@@ -474,6 +477,7 @@ def test_truncate_and_combine_keep_every_integral():
     chain = source_chain("a", profile, 1e8, log_grid(1.0, 1e8))
     short = truncate(chain, 3e6)
     assert short.offsets_hz[-1] == 3e6
+    assert truncate(chain, 1e8) is chain and truncate(chain, 2e8) is chain  # at or past the end: unchanged
     np.testing.assert_allclose(short.band_power(12e3, 3e6), chain.band_power(12e3, 3e6), rtol=1e-12)
     other = source_chain("b", PhaseNoiseProfile.from_points([(2e4, -140), (2e5, -155)]), 1e8, log_grid(1.0, 1e8, 20))
     both = combine(chain, other)  # different grids, same span

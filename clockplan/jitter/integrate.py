@@ -127,7 +127,8 @@ def integrate_log_curve(
     f_low_hz, f_high_hz
         The band, ``0 < f_low < f_high``; it may extend past the points.
     extrapolation
-        How to extend the curve past the points: ``"flat"`` or ``"slope"``.
+        How to extend the curve past the points: ``"flat"``, ``"slope"`` or
+        ``"conservative"`` (:mod:`clockplan.jitter.profile`).
 
     Returns
     -------
@@ -250,7 +251,10 @@ def rms_jitter(
         Optional ``(offset_hz, dBc)`` tones, counted when inside the band.
     extrapolation
         ``"flat"`` (default) holds the end values past the listed offsets;
-        ``"slope"`` continues the end segments.
+        ``"slope"`` continues the end segments; ``"conservative"`` (what the
+        board path reads) rises at least 20 dB/decade toward the carrier below
+        the first offset and holds the last level, or keeps rising, beyond the
+        last.
 
     Returns
     -------

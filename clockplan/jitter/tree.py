@@ -43,7 +43,6 @@ if TYPE_CHECKING:
     import networkx as nx
 
     from clockplan.jitter.profile import Extrapolation
-
     from clockplan.loopfilter.evaluate import LoopFilterResult
 
 __all__ = ["BOARD_EXTRAPOLATION", "CONTRIBUTOR_KINDS", "MissingNoiseData", "NodeNoise", "BoardNoise"]
