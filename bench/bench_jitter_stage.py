@@ -15,7 +15,12 @@ Prints, measured in the same run:
 - the same board with the designed loop filter replaced by the
   bandwidth-and-phase-margin approximation (no filter to design).
 
-    python bench/bench_jitter_stage.py [--repeats R] [--cli-runs C] [--quick]
+- the jitter stage alone (``jitter_stage`` on an analysed board, best CPU time
+  of many runs, in a fresh process) on the receiver and on the largest demo
+  board, the edge router, planned; with ``--baseline PATH`` the same timing of
+  another checkout (e.g. the main branch) in the same run, and the ratio.
+
+    python bench/bench_jitter_stage.py [--repeats R] [--cli-runs C] [--quick] [--baseline PATH]
 
 (``python -m bench`` runs it with every other benchmark: ``jitter-stage``; it runs
 first there, so that the sympy import is measured before anything else loads it.)
@@ -24,6 +29,7 @@ first there, so that the sympy import is measured before anything else loads it.
 from __future__ import annotations
 
 import argparse
+import json
 import re
 import statistics
 import subprocess
@@ -40,6 +46,66 @@ from clockplan.boardfile import load_board, parse_board  # noqa: E402
 from clockplan.loopfilter.design import LoopSpec, design_filter  # noqa: E402
 
 BOARD = ROOT / "boards" / "sampling-receiver.toml"
+
+# Timed in a fresh process with the checkout under test first on the path, so the
+# same code times this checkout and a baseline one. Prints {board: best seconds}.
+_STAGE_TIMER = r"""
+import json, sys, time
+sys.path.insert(0, sys.argv[1])
+from clockplan import analysis as pipeline
+from clockplan.boardfile import load_board
+from clockplan.jitter.stage import jitter_stage
+from clockplan.plan.board_planner import plan_board
+out = {}
+for name, planned in (("edge-router", True), ("sampling-receiver", False)):
+    board = load_board(sys.argv[1] + "/boards/" + name + ".toml")
+    settings = plan_board(board).settings if planned else None
+    stages = list(pipeline.STAGES)
+    pipeline.STAGES[:] = [s for s in stages if s.__name__ != "_jitter_stage"]
+    try:
+        analysed = pipeline.analyze(board, settings)
+    finally:
+        pipeline.STAGES[:] = stages
+    jitter_stage(analysed, None)
+    best = float("inf")
+    for _ in range(int(sys.argv[2])):
+        start = time.process_time()
+        jitter_stage(analysed, None)
+        best = min(best, time.process_time() - start)
+    out[name] = best
+print(json.dumps(out))
+"""
+
+
+def stage_seconds(root: Path, runs: int) -> dict[str, float]:
+    """Best CPU time of the jitter stage alone per demo board, for the checkout at ``root``."""
+    done = subprocess.run(
+        [sys.executable, "-c", _STAGE_TIMER, str(root), str(runs)], capture_output=True, text=True, cwd=root
+    )
+    if done.returncode != 0:
+        raise SystemExit(done.stderr[-2000:])
+    return json.loads(done.stdout.strip().splitlines()[-1])
+
+
+def stage_rows(runs: int, baseline: Path | None, verbose: bool = True) -> list[Row]:
+    """The stage-alone rows, alternating this checkout and the baseline's three times (best of each)."""
+    mine: dict[str, float] = {}
+    theirs: dict[str, float] = {}
+    for _ in range(3 if baseline is not None else 1):
+        for name, seconds in stage_seconds(ROOT, runs).items():
+            mine[name] = min(mine.get(name, float("inf")), seconds)
+        if baseline is not None:
+            for name, seconds in stage_seconds(baseline, runs).items():
+                theirs[name] = min(theirs.get(name, float("inf")), seconds)
+    rows = []
+    for name, seconds in mine.items():
+        old = theirs.get(name)
+        rows.append(Row("jitter-stage", f"{name}: jitter stage alone (best CPU time)", seconds * 1e3, "ms",
+                        None if old is None else old * 1e3, f"the same at {baseline}" if old is not None else ""))
+        if verbose:
+            against = f"  (baseline {old * 1e3:.2f} ms, {seconds / old:.2f} x)" if old else ""
+            print(f"{name + ': jitter stage alone, best CPU time:':<57} {seconds * 1e3:8.2f} ms{against}")
+    return rows
 
 
 def _cli_seconds(runs: int) -> tuple[float, bool]:
@@ -141,7 +207,7 @@ def measure(repeats: int, cli_runs: int, derive: bool = True, verbose: bool = Tr
 
 def rows(quick: bool = False) -> list[Row]:
     """The ``jitter-stage`` benchmark's rows (the audit command's time is in ``startup``)."""
-    return measure(**(QUICK if quick else FULL), verbose=False)
+    return measure(**(QUICK if quick else FULL), verbose=False) + stage_rows(5 if quick else 60, None, verbose=False)
 
 
 def main() -> None:
@@ -149,11 +215,13 @@ def main() -> None:
     parser.add_argument("--repeats", type=int, default=FULL["repeats"])
     parser.add_argument("--cli-runs", type=int, default=FULL["cli_runs"])
     parser.add_argument("--quick", action="store_true", help="2 repeats; no audit command, no symbolic baseline")
+    parser.add_argument("--baseline", type=Path, help="another checkout to time the jitter stage alone against")
     args = parser.parse_args()
     if args.quick:
         measure(**QUICK)
     else:
         measure(args.repeats, args.cli_runs)
+    stage_rows(5 if args.quick else 60, args.baseline)
 
 
 if __name__ == "__main__":

@@ -40,6 +40,7 @@ __all__ = [
     "profile_jitter",
     "rms_jitter",
     "rms_phase",
+    "segment_powers",
 ]
 
 def check_band(f_low_hz: object, f_high_hz: object) -> tuple[float, float]:
@@ -79,6 +80,17 @@ def check_carrier(carrier_hz: object) -> float:
 
 def _segment_sum(ln_f: np.ndarray, ln_p: np.ndarray) -> np.ndarray | float:
     """Sum of the exact power-law integrals over consecutive points (axis 0)."""
+    return np.sum(segment_powers(ln_f, ln_p), axis=0)
+
+
+def segment_powers(ln_f: np.ndarray, ln_p: np.ndarray) -> np.ndarray:
+    """The exact power-law integral over each pair of consecutive points (axis 0), shape ``(n - 1, ...)``.
+
+    Examples
+    --------
+    >>> segment_powers(np.log([1.0, 2.0, 4.0]), np.log([1.0, 1.0, 1.0])).round(12).tolist()  # flat: widths
+    [1.0, 2.0]
+    """
     ln_f_col = ln_f.reshape(ln_f.shape + (1,) * (ln_p.ndim - 1))
     ln_pf = ln_p + ln_f_col  # ln(p * f) at each point
     x = np.diff(ln_pf, axis=0)
@@ -93,7 +105,7 @@ def _segment_sum(ln_f: np.ndarray, ln_p: np.ndarray) -> np.ndarray | float:
     segment = np.exp(ln_pf[:-1], out=x)
     segment *= ratio
     segment *= np.subtract(ln_f_col[1:], ln_f_col[:-1], out=ratio)
-    return np.sum(segment, axis=0)
+    return segment
 
 
 def integrate_log_curve(
@@ -115,7 +127,8 @@ def integrate_log_curve(
     f_low_hz, f_high_hz
         The band, ``0 < f_low < f_high``; it may extend past the points.
     extrapolation
-        How to extend the curve past the points: ``"flat"`` or ``"slope"``.
+        How to extend the curve past the points: ``"flat"``, ``"slope"`` or
+        ``"conservative"`` (:mod:`clockplan.jitter.profile`).
 
     Returns
     -------
@@ -238,7 +251,10 @@ def rms_jitter(
         Optional ``(offset_hz, dBc)`` tones, counted when inside the band.
     extrapolation
         ``"flat"`` (default) holds the end values past the listed offsets;
-        ``"slope"`` continues the end segments.
+        ``"slope"`` continues the end segments; ``"conservative"`` (what the
+        board path reads) rises at least 20 dB/decade toward the carrier below
+        the first offset and holds the last level, or keeps rising, beyond the
+        last.
 
     Returns
     -------

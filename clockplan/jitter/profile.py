@@ -7,14 +7,27 @@ the curve is a straight line in dB against log frequency, i.e. a power law
 (common practice) and it lets :mod:`clockplan.jitter.integrate` integrate each
 segment exactly.
 
-Outside the listed offsets the curve is extended in one of two documented ways:
+Outside the listed offsets the curve is extended in one of three documented ways:
 
-``"flat"`` (the default)
+``"flat"`` (the default of the API)
     hold the first value below the first offset and the last value beyond the
     last offset. Datasheets usually end on the far-out floor, so holding the last
-    value is the natural reading there.
+    value is the natural reading there; below the first offset it is optimistic
+    whenever the noise keeps rising toward the carrier, as an oscillator's does.
 ``"slope"``
     continue the first and last segments' power laws.
+``"conservative"`` (what the board path uses)
+    below the first offset, continue the first segment's slope but rise at
+    least 20 dB/decade toward the carrier (:data:`CLOSE_IN_SLOPE_DB_PER_DECADE`):
+    a free-running oscillator's phase noise rises toward its carrier, at
+    20 dB/decade where white frequency noise dominates and 30 dB/decade below
+    its flicker corner (Leeson, "A simple model of feedback oscillator noise
+    spectrum", Proc. IEEE 54(2), 1966; the power-law noise types of IEEE Std
+    1139), so it never flattens out close in; beyond the last offset, hold the
+    last value (the far-out white floor every source settles on), or continue
+    the last segment when it rises. Neither side ever reads less noise than the
+    listed trend; it is still an assumption, and the jitter stage warns when it
+    carries a material share of a consumer's jitter.
 
 The optional ``floor_dbc_hz`` is an *additive* white noise: its power adds to the
 curve everywhere (independent noise adds in power). Spurs are discrete tones at
@@ -25,7 +38,7 @@ the integration band.
 from __future__ import annotations
 
 import math
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass, field
 from functools import cached_property
 from typing import Literal
@@ -37,15 +50,29 @@ from clockplan.errors import ClockplanError
 __all__ = [
     "Extrapolation",
     "EXTRAPOLATIONS",
+    "CLOSE_IN_SLOPE_DB_PER_DECADE",
     "Spur",
     "PhaseNoiseProfile",
     "find_bad_point",
     "check_extrapolation",
     "interpolate_log",
+    "extension_pieces",
+    "evaluate_pieces",
 ]
 
-Extrapolation = Literal["flat", "slope"]
-EXTRAPOLATIONS: tuple[str, ...] = ("flat", "slope")
+Extrapolation = Literal["flat", "slope", "conservative"]
+EXTRAPOLATIONS: tuple[str, ...] = ("flat", "slope", "conservative")
+
+#: The ``"conservative"`` extension's least rise toward the carrier below the first
+#: listed offset, in dB per decade of offset (white frequency noise of a free-running
+#: oscillator, 1/f**2; see the module docstring).
+CLOSE_IN_SLOPE_DB_PER_DECADE = -20.0
+
+# ln L per ln f is the slope in dB/decade divided by 10.
+_CLOSE_IN_EXPONENT = CLOSE_IN_SLOPE_DB_PER_DECADE / 10.0
+# Extended densities are kept below e**600 (~4e260) so they and their integrals stay
+# finite; no real noise comes near, and such a figure fails any budget anyway.
+_LN_CEILING = 600.0
 
 _LN10_OVER_10 = math.log(10.0) / 10.0
 
@@ -127,7 +154,8 @@ def check_extrapolation(extrapolation: str) -> None:
         raise ClockplanError(
             f"unknown extrapolation {extrapolation!r}",
             key="extrapolation",
-            hint="use 'flat' (hold the end values) or 'slope' (continue the end segments)",
+            hint="use 'flat' (hold the end values), 'slope' (continue the end segments) "
+            "or 'conservative' (rising at least 20 dB/decade below the first offset, held or rising beyond the last)",
         )
 
 
@@ -292,8 +320,31 @@ class PhaseNoiseProfile:
                 key="offsets_hz",
                 hint="evaluate the profile at offsets above 0 Hz",
             )
-        ln_p = interpolate_log(self.ln_offsets, self.ln_density, np.log(f), extrapolation)
-        return np.exp(ln_p) + self.floor_power
+        return self.reader(extrapolation)(f)
+
+    def reader(self, extrapolation: Extrapolation = "flat") -> Callable[[np.ndarray], np.ndarray]:
+        """A fast :meth:`density_at` for many calls: offsets (positive, not checked) to linear L(f).
+
+        Examples
+        --------
+        >>> p = PhaseNoiseProfile.from_points([(1e3, -100), (1e4, -110)])
+        >>> (10 * np.log10(p.reader("conservative")(np.array([1e2, 1e5])))).round(6).tolist()
+        [-80.0, -110.0]
+        """
+        check_extrapolation(extrapolation)
+        if extrapolation not in self._readers:
+            ln_x, floor = self.ln_offsets, self.floor_power
+            pieces = extension_pieces(ln_x, self.ln_density, extrapolation)
+
+            def density(offsets: np.ndarray) -> np.ndarray:
+                return np.exp(evaluate_pieces(pieces, ln_x, np.log(offsets))) + floor
+
+            self._readers[extrapolation] = density
+        return self._readers[extrapolation]
+
+    @cached_property
+    def _readers(self) -> dict[str, Callable[[np.ndarray], np.ndarray]]:
+        return {}
 
     def dbc_at(self, offsets_hz: object, extrapolation: Extrapolation = "flat") -> np.ndarray:
         """L(f) in dBc/Hz (floor included) at the given offsets."""
@@ -322,16 +373,56 @@ def interpolate_log(
 
     ``ln_y`` may be 1-D or frequency-first 2-D ``(n, k)``; the result has
     ``ln_at``'s shape followed by ``ln_y``'s trailing axes.
+
+    Examples
+    --------
+    >>> ln_f, ln_p = np.log([1e3, 1e4]), np.log([1e-10, 1e-13])  # -30 dB/decade
+    >>> [round(float(v), 3) for v in np.exp(interpolate_log(ln_f, ln_p, np.log([1e2, 1e5]), "conservative")) / 1e-10]
+    [1000.0, 0.001]
+    >>> ln_p = np.log([1e-10, 1e-11])  # -10 dB/decade: close in it still rises 20 dB/decade
+    >>> [round(float(v), 3) for v in np.exp(interpolate_log(ln_f, ln_p, np.log([1e2, 1e5]), "conservative")) / 1e-10]
+    [100.0, 0.1]
     """
-    ln_at = np.asarray(ln_at, dtype=float)
+    return evaluate_pieces(extension_pieces(ln_x, ln_y, extrapolation), ln_x, np.asarray(ln_at, dtype=float))
+
+
+def extension_pieces(
+    ln_x: np.ndarray, ln_y: np.ndarray, extrapolation: Extrapolation
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The curve as ``n + 1`` straight pieces in ``(ln x, ln y)``: anchor x, anchor y, slope.
+
+    Piece ``i`` serves ``ln_x[i-1] <= ln x < ln_x[i]``; piece 0 lies below the
+    first point and piece ``n`` beyond the last, with the slopes of the
+    extension mode (:func:`interpolate_log`). ``ln_y`` may be ``(n,)`` or ``(n, k)``.
+    """
     n = ln_x.shape[0]
+    trailing = ln_y.shape[1:]
     if n == 1:
-        return np.broadcast_to(ln_y[0], ln_at.shape + ln_y.shape[1:]).copy()
-    # Segment j joins points j-1 and j; clipping to the end segments makes t run
-    # outside [0, 1] beyond the ends, which is exactly the "slope" extension.
-    j = np.clip(np.searchsorted(ln_x, ln_at), 1, n - 1)
-    t = (ln_at - ln_x[j - 1]) / (ln_x[j] - ln_x[j - 1])
+        segments = np.empty((0,) + trailing)
+        first = last = np.zeros(trailing)
+    else:
+        step = (ln_x[1:] - ln_x[:-1]).reshape((n - 1,) + (1,) * len(trailing))
+        segments = (ln_y[1:] - ln_y[:-1]) / step
+        first, last = segments[0], segments[-1]
     if extrapolation == "flat":
-        t = np.clip(t, 0.0, 1.0)
-    t = t.reshape(t.shape + (1,) * (ln_y.ndim - 1))
-    return ln_y[j - 1] + t * (ln_y[j] - ln_y[j - 1])
+        below, beyond = np.zeros(trailing), np.zeros(trailing)
+    elif extrapolation == "slope":
+        below, beyond = first, last
+    else:  # "conservative": rising at least 20 dB/decade toward the carrier; held, or still rising, beyond
+        below, beyond = np.minimum(first, _CLOSE_IN_EXPONENT), np.maximum(last, 0.0)
+    anchor_x = np.concatenate((ln_x[:1], ln_x))
+    anchor_y = np.concatenate((ln_y[:1], ln_y))
+    slope = np.concatenate((np.reshape(below, (1,) + trailing), segments, np.reshape(beyond, (1,) + trailing)))
+    return anchor_x, anchor_y, slope
+
+
+def evaluate_pieces(
+    pieces: tuple[np.ndarray, np.ndarray, np.ndarray], ln_x: np.ndarray, ln_at: np.ndarray
+) -> np.ndarray:
+    """``ln y`` at ``ln_at`` from :func:`extension_pieces` (held below ``e**600`` so it stays finite)."""
+    anchor_x, anchor_y, slope = pieces
+    i = np.searchsorted(ln_x, ln_at, side="right")
+    offset = ln_at - anchor_x[i]
+    if anchor_y.ndim > 1:
+        offset = offset.reshape(offset.shape + (1,) * (anchor_y.ndim - 1))
+    return np.minimum(anchor_y[i] + slope[i] * offset, _LN_CEILING)

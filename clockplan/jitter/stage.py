@@ -44,6 +44,12 @@ Findings:
     gives only a bandwidth and the usual third-order passive filter designed
     for it is assumed, info when the board names the model; ``loop_filter``
     gives the real parts.
+``jitter-extrapolated`` (warning, on the reference or PLL whose listed phase noise ends)
+    a consumer's band, or the loop shaping the noise, reaches outside a
+    reference's or a VCO's listed offsets, and what is read there (the
+    ``"conservative"`` extension of :mod:`clockplan.jitter.profile`) carries
+    at least :data:`EXTRAPOLATED_SHARE` of the consumer's jitter variance; names
+    the part, its listed range, each consumer's band and the share.
 
 Every figure is a planning estimate: the part datasheets and the governing
 standard decide.
@@ -67,13 +73,22 @@ from clockplan.jitter.tree import Assumption, BoardNoise, MissingNoiseData, Node
 from clockplan.margins import format_margin_warning, is_thin
 from clockplan.spreading import SpreadSource, spread_allowance, spreads_on_chain
 from clockplan.standards.model import PEAK_TO_PEAK_BER, JitterLimit, gaussian_pp_per_rms
-from clockplan.units import format_time
+from clockplan.units import format_frequency, format_time
 
 if TYPE_CHECKING:
     from clockplan.analysis import Analysis, AnalysisOptions
     from clockplan.parts import Consumer
 
-__all__ = ["DEFAULT_BAND_HZ", "CONVERTER_BAND_LOW_HZ", "KIND_TEXT", "FIXES", "BandPlan", "band_plan", "jitter_stage"]
+__all__ = [
+    "DEFAULT_BAND_HZ",
+    "CONVERTER_BAND_LOW_HZ",
+    "EXTRAPOLATED_SHARE",
+    "KIND_TEXT",
+    "FIXES",
+    "BandPlan",
+    "band_plan",
+    "jitter_stage",
+]
 
 #: Integration band when a consumer's budget gives none (common practice: the
 #: band clock datasheets usually quote RMS jitter over).
@@ -88,6 +103,11 @@ DEFAULT_BAND_HZ = (12e3, 20e6)
 #: sample rate; clock noise beyond it folds back too and is not counted (a clock
 #: with a high far-out floor needs a wider ``converter.jitter_band``).
 CONVERTER_BAND_LOW_HZ = 100.0
+
+#: Share of a consumer's jitter variance read from outside a profile's listed
+#: offsets from which ``jitter-extrapolated`` warns (1 % of the variance, about
+#: 0.5 % of the RMS jitter: below it the reading cannot move a planning verdict).
+EXTRAPOLATED_SHARE = 0.01
 
 #: Each kind of contributor in words.
 KIND_TEXT = {
@@ -200,10 +220,19 @@ def band_plan(consumer: "Consumer", clock_hz: Fraction | None) -> BandPlan | Non
 
 
 def _analysis_grid(plans: dict[str, BandPlan | None]) -> Any:
+    """The base grid every chain starts from: 50 points per decade and every band edge.
+
+    It spans 1 Hz (or the lowest band edge) to the highest band edge (1 GHz
+    without bands); each chain then adds what it carries (listed offsets, loop
+    corners) and refines itself (:mod:`clockplan.jitter.chain`).
+    """
     bands = [p.band_hz for p in plans.values() if p is not None]
     low = min([1.0] + [b[0] for b in bands])
-    high = max([1e9] + [b[1] for b in bands])
-    return log_grid(low, high)
+    high = max(b[1] for b in bands) if bands else 1e9
+    # 50 points per decade from a whole decade, so the grid holds 1, 10, 100 Hz...
+    base = log_grid(10.0 ** math.floor(math.log10(low)), 10.0 ** math.ceil(math.log10(high)))
+    base = base[(base > low) & (base < high)]
+    return np.union1d(base, [low, high] + [edge for band in bands for edge in band])
 
 
 def _broken_text(jitter: ConsumerJitter) -> str:
@@ -325,6 +354,54 @@ def _without(result: JitterResult, names: set[str]) -> JitterResult:
     return dataclasses.replace(result, rms_seconds=total, contributions=kept)
 
 
+@dataclasses.dataclass
+class _Outside:
+    """What a part's listed phase noise leaves out, per consumer (for ``jitter-extrapolated``)."""
+
+    kind: str
+    listed_hz: tuple[float, float]
+    consumers: list[tuple[str, tuple[float, float], float]] = dataclasses.field(default_factory=list)
+
+
+def _extrapolated(noise: NodeNoise, jitter: ConsumerJitter) -> list[tuple[str, str, tuple[float, float], float]]:
+    """``(part, kind, listed range, share of the variance)`` for each material extrapolated contributor."""
+    chain = noise.chain
+    listed = chain.listed_hz
+    low, high = jitter.band_hz
+    if not ((low < listed[:, 0]) | (high > listed[:, 1])).any():
+        return []
+    total = jitter.result.rms_phase_rad**2 / 2.0  # single-sideband power, spurs included
+    if not total > 0:
+        return []
+    outside = chain.extrapolated_power(low, high) / total
+    found = []
+    for j in np.flatnonzero(outside >= EXTRAPOLATED_SHARE):
+        name = chain.names[j]
+        kind, part = noise.kinds.get(name, ("", name))
+        found.append((part, kind, (float(listed[j, 0]), float(listed[j, 1])), float(outside[j])))
+    return found
+
+
+def _extrapolation_findings(outside: dict[str, _Outside]) -> list[Finding]:
+    findings = []
+    for part, gap in outside.items():
+        what = "its VCO's phase noise" if gap.kind == "vco" else "its phase noise"
+        reaches = "; ".join(
+            f"{consumer} over {format_band(band)}: {share * 100:.1f} % of its jitter variance"
+            for consumer, band, share in gap.consumers
+        )
+        message = (
+            f"{part}: {what} is listed only from {format_frequency(gap.listed_hz[0])} "
+            f"to {format_frequency(gap.listed_hz[1])}, "
+            f"but the jitter bands (or the loop shaping the noise) reach outside it ({reaches}); there the noise is "
+            "extrapolated (below the first point at the first segment's slope, rising at least 20 dB/decade toward "
+            "the carrier; beyond the last point held, or still rising), an assumption; list the phase noise over "
+            "the whole band from the datasheet (docs/jitter.md)"
+        )
+        findings.append(Finding(Severity.WARNING, "jitter-extrapolated", part, message))
+    return findings
+
+
 def _consumer_jitter(noise: NodeNoise, plan: BandPlan, source: SpreadSource | None = None, covered: bool = False) -> ConsumerJitter:
     result = noise.chain.jitter(*plan.band_hz, budget_seconds=plan.budget_s)
     notes = plan.notes
@@ -386,10 +463,12 @@ def jitter_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysis"
         from clockplan.graph import build_graph
 
         graph = build_graph(board)
-    model = BoardNoise(board, graph, analysis.frequencies, _analysis_grid(plans))
+    bands = {consumer: plan.band_hz for consumer, plan in plans.items() if plan is not None}
+    model = BoardNoise(board, graph, analysis.frequencies, _analysis_grid(plans), bands=bands)
     missing: dict[str, tuple[MissingNoiseData, list[str]]] = {}
     unmodelled: dict[str, tuple[str, list[str]]] = {}
     assumed: dict[Assumption, list[str]] = {}
+    outside: dict[str, _Outside] = {}
     findings: list[Finding] = []
     for result in analysis.consumers:
         plan = plans[result.id]
@@ -411,9 +490,14 @@ def jitter_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysis"
                 unmodelled.setdefault(part, (text, []))[1].append(result.id)
             for assumption in dict.fromkeys(noise.assumed):
                 assumed.setdefault(assumption, []).append(result.id)
+        for part, kind, listed, share in _extrapolated(noise, jitter):
+            gap = outside.setdefault(part, _Outside(kind, listed))
+            gap.consumers.append((result.id, jitter.band_hz, share))
         if jitter.passes is False:
             findings.append(_budget_finding(result.id, jitter))
         thin = _margin_finding(result.id, jitter, board.margin_warning)
         if thin is not None:
             findings.append(thin)
-    return analysis.with_findings(findings + _data_findings(missing, unmodelled, assumed))
+    return analysis.with_findings(
+        findings + _extrapolation_findings(outside) + _data_findings(missing, unmodelled, assumed)
+    )

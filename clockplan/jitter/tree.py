@@ -42,6 +42,8 @@ data needed is missing, the node's result says which part lacks what
 
 from __future__ import annotations
 
+import dataclasses
+
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
@@ -50,16 +52,27 @@ import numpy as np
 
 from clockplan.errors import BoardError, ClockplanError
 from clockplan.frequency import Frequencies, PllOperatingPoint
-from clockplan.jitter.chain import NoiseChain, add_buffer, add_noise, add_tones, divide, pll as pll_noise, source_chain
+from clockplan.jitter.chain import (
+    NoiseChain,
+    add_buffer,
+    add_noise,
+    add_tones,
+    divide,
+    pll as pll_noise,
+    source_chain,
+    truncate,
+)
 from clockplan.jitter.loop import LoopResponse
 from clockplan.parts import Board, Buffer, Divider, Pll, PllOutput, Reference
 
 if TYPE_CHECKING:
     import networkx as nx
 
+    from clockplan.jitter.profile import Extrapolation
     from clockplan.loopfilter.evaluate import LoopFilterResult
 
 __all__ = [
+    "BOARD_EXTRAPOLATION",
     "CONTRIBUTOR_KINDS",
     "TYPICAL_FIGURES",
     "TYPICAL_OUTPUT_FLOOR_DBC_HZ",
@@ -90,6 +103,11 @@ TYPICAL_FIGURES = (
     ("pll noise.flicker_fom", TYPICAL_FLICKER_FOM_DBC_HZ, "dBc/Hz", "noise-assumed"),
     ("divider additive_noise", TYPICAL_DIVIDER_FLOOR_DBC_HZ, "dBc/Hz", "noise-assumed"),
 )
+
+#: How a reference's or a VCO's phase noise is read past its listed offsets on a
+#: board (:mod:`clockplan.jitter.profile`): rising at least 20 dB/decade toward the
+#: carrier below the first point, held (or still rising) beyond the last.
+BOARD_EXTRAPOLATION: "Extrapolation" = "conservative"
 
 #: What a contributor is, for naming the dominant one and suggesting a fix.
 CONTRIBUTOR_KINDS = (
@@ -188,8 +206,15 @@ class BoardNoise:
     frequencies
         Exact frequencies and PLL operating points of the plan.
     offsets_hz
-        The common analysis grid (:func:`clockplan.jitter.chain.log_grid`); it
-        must cover every band integrated later.
+        The base analysis grid (:func:`clockplan.jitter.chain.log_grid`, with
+        the band edges on it); it must cover every band integrated later. Each
+        node's chain refines it for what that node carries (listed offsets,
+        loop corners, shaped densities; :mod:`clockplan.jitter.chain`).
+    loop_filters
+        Filled as PLLs with a ``loop_filter`` are evaluated.
+    bands
+        Consumer id -> the band it is judged over: a node's chain is cut above
+        the highest band edge of the consumers it feeds.
 
     Examples
     --------
@@ -207,13 +232,31 @@ class BoardNoise:
     frequencies: Frequencies
     offsets_hz: np.ndarray
     loop_filters: dict[str, "LoopFilterResult"] = field(default_factory=dict)
+    bands: Mapping[str, tuple[float, float]] = field(default_factory=dict)
     _memo: dict[str, NodeNoise | MissingNoiseData] = field(default_factory=dict)
+    _reach: dict[str, float] | None = None
 
     def at(self, node: str) -> NodeNoise | MissingNoiseData:
         """The noise at ``node`` (a part id or ``"pll.output"``; a consumer gets its source's)."""
         if node not in self._memo:
             self._memo[node] = self._build(node)
         return self._memo[node]
+
+    def reach_hz(self, node: str) -> float | None:
+        """The highest band edge of the consumers ``node`` feeds (``bands``), or None without one.
+
+        A node's chain needs no offsets above it: it is cut there
+        (:func:`clockplan.jitter.chain.truncate`), so no refinement is spent
+        where nothing below it integrates.
+        """
+        if self._reach is None:
+            self._reach = {}
+            for consumer, (_, high) in self.bands.items():
+                fed: str | None = consumer if consumer in self.graph else None
+                while fed is not None:  # up the chain: each node has one input
+                    self._reach[fed] = max(self._reach.get(fed, 0.0), float(high))
+                    fed = next(iter(self.graph.predecessors(fed)), None)
+        return self._reach.get(node)
 
     def _build(self, node: str) -> NodeNoise | MissingNoiseData:
         part = self.graph.nodes[node]["part"]
@@ -223,6 +266,9 @@ class BoardNoise:
         upstream = self.at(parent)
         if isinstance(upstream, MissingNoiseData):
             return upstream
+        reach = self.reach_hz(node)
+        if reach is not None:
+            upstream = dataclasses.replace(upstream, chain=truncate(upstream.chain, reach))
         if node not in self.frequencies.nodes:
             return MissingNoiseData(node, f"the frequency of {node} is unknown", "complete its settings", unset=True)
         if isinstance(part, Pll):
@@ -249,7 +295,12 @@ class BoardNoise:
                 "give the reference a phase_noise list from its datasheet (docs/jitter.md)",
             )
         name = f"{reference.id} reference"
-        chain = source_chain(name, reference.phase_noise, float(reference.frequency), self.offsets_hz)
+        chain = source_chain(
+            name, reference.phase_noise, float(reference.frequency), self.offsets_hz, extrapolation=BOARD_EXTRAPOLATION
+        )
+        reach = self.reach_hz(reference.id)
+        if reach is not None:
+            chain = truncate(chain, reach)
         return NodeNoise(chain, {name: ("reference", reference.id)})
 
     def _pll(self, part: Pll, upstream: NodeNoise) -> NodeNoise | MissingNoiseData:
@@ -284,6 +335,7 @@ class BoardNoise:
             flicker_fom_dbc_hz=flicker,
             f_pfd_hz=float(point.pfd_hz),
             modulator_order=modulator,
+            vco_extrapolation=BOARD_EXTRAPOLATION,
         )
         kinds = dict(upstream.kinds)
         for name in chain.names:
@@ -344,9 +396,12 @@ class BoardNoise:
 
         result = self.loop_filters[pll_id]
         hottest = self.board.temperature_c[1]
-        s_phi = loop_filter_phase_noise(result.chosen, result.spec, self.offsets_hz, temperature_c=hottest)
-        # S_phi is the one-sided phase density; L(f) = S_phi / 2 (IEEE Std 1139 small-angle reading).
-        return add_noise(chain, f"{pll_id} loop filter", s_phi / 2.0)
+
+        def density(offsets: np.ndarray) -> np.ndarray:
+            # S_phi is the one-sided phase density; L(f) = S_phi / 2 (IEEE Std 1139 small-angle reading).
+            return loop_filter_phase_noise(result.chosen, result.spec, offsets, temperature_c=hottest) / 2.0
+
+        return add_noise(chain, f"{pll_id} loop filter", density)
 
     def _pll_output(self, node: str, part: PllOutput, upstream: NodeNoise) -> NodeNoise:
         pll_id = self.graph.nodes[node]["pll"]
