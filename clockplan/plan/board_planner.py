@@ -119,7 +119,7 @@ class BoardPlan:
     first), ``notes`` the bounds that may have cut a better plan off,
     ``proven_notes`` the bounds that were hit where the plans found are
     provably best on the objective's leading criteria (see
-    :func:`_proven_criteria`), ``bandwidths`` the loop bandwidth each PLL's
+    :func:`_proven_criteria`), ``unused_notes`` the parts that feed no consumer (set to their smallest value), ``bandwidths`` the loop bandwidth each PLL's
     spur flag used.
     """
 
@@ -130,6 +130,7 @@ class BoardPlan:
     bandwidths: dict[str, Fraction | float | None]
     elapsed_s: float = 0.0
     proven_notes: list[str] = field(default_factory=list)
+    unused_notes: list[str] = field(default_factory=list)
 
     @property
     def feasible(self) -> bool:
@@ -200,6 +201,7 @@ class _Planner:
         self.deadline = time.monotonic() + options.time_limit_s
         self.notes: list[str] = []
         self.proven_notes: list[str] = []
+        self.unused_notes: list[str] = []
         self.bandwidths: dict[str, Fraction | float | None] = {
             pll.id: loop_bandwidth_of(pll, options.loop_bandwidth_hz) for pll in board.plls
         }
@@ -214,6 +216,10 @@ class _Planner:
     def _note(self, text: str) -> None:
         if text not in self.notes:
             self.notes.append(text)
+
+    def _unused(self, text: str) -> None:
+        if text not in self.unused_notes:
+            self.unused_notes.append(text)
 
     def _children(self, node: str) -> list[str]:
         return sorted(self.graph.successors(node))
@@ -280,6 +286,11 @@ class _Planner:
         """Try the ratios that matter for what is below the divider."""
         fixed = self.board.pins.get(divider.id, {}).get("ratio")
         ratios = [fixed] if fixed is not None else self._divider_ratios(divider, hz)
+        if not ratios and not self._consumers_below(divider.id):
+            # Nothing below uses it: any ratio serves; never a reason to call the board infeasible.
+            self._unused(f"{divider.id} feeds no consumer: its ratio is set to its smallest allowed value, "
+                         f"{divider.ratio.lo}; consider disabling it")
+            ratios = [divider.ratio.lo]
         if not ratios:
             return [self._blocked(divider.id, f"no ratio of {divider.id} ({divider.ratio.describe()}) gives a usable frequency from {format_frequency(hz)}")]
         plans = []
@@ -543,6 +554,9 @@ class _Planner:
         node = f"{pll.id}.{out.name}"
         lift = self._lift(node)
         if not lift.plls and not lift.open_dividers and not lift.targets:
+            if not self._consumers_below(node):
+                self._unused(f"{node} feeds no consumer: its divider is set to its smallest allowed value, "
+                             f"{out.divider.lo}; consider disabling the output")
             return [out.divider.lo], 1  # an unused output: the smallest allowed divider
         options: set[int] = set()
         for downstream, factor in lift.plls:
@@ -696,4 +710,4 @@ def plan_board(board: Board, options: PlanOptions | None = None) -> BoardPlan:
     branches = [planner.plan_node(ref.id, ref.frequency) for ref in board.references]
     ranked = _k_best(branches, planner.keep)
     return BoardPlan(board, ranked[0], ranked[1:], planner.notes, planner.bandwidths, time.monotonic() - started,
-                     planner.proven_notes)
+                     planner.proven_notes, planner.unused_notes)

@@ -41,7 +41,8 @@ class Conflict:
     ``consumers`` are the consumers involved, ``constraint`` a short code of
     what blocks them (``integer-n``, ``denominator``, ``vco-range``,
     ``output-divider``, ``pfd-range``, ``n-range``, ``pinned``, ``combined``,
-    ``part-cannot-run``, ``unreachable``, ``time-limit``), ``message`` the explanation in words.
+    ``part-cannot-run``, ``unreachable``, ``time-limit``, ``search-bound``: a bounded search found
+    nothing, so no constraint is named), ``message`` the explanation in words.
     """
 
     consumers: tuple[str, ...]
@@ -118,16 +119,41 @@ class _Budget:
     deadline: float
     ran_out: bool = False
 
-    def best(self, problem: PllProblem):
-        best = solve_pll(problem, SearchLimits(keep=1, deadline=self.deadline)).best
+    def search(self, problem: PllProblem):
+        result = solve_pll(problem, SearchLimits(keep=1, deadline=self.deadline))
         if time.monotonic() > self.deadline:
             self.ran_out = True
-        return best
+        return result
+
+    def best(self, problem: PllProblem):
+        return self.search(problem).best
 
 
 def _feasible(problem: PllProblem, budget: _Budget) -> bool:
     best = budget.best(problem)
     return best is not None and best.score.feasible
+
+
+def _proven_infeasible(problem: PllProblem, budget: _Budget) -> tuple[bool, str]:
+    """Whether the search proves ``problem`` infeasible: (infeasible, the bound that stops a proof, or "").
+
+    A search cut short by a bound (a divider range too wide to sweep, capped
+    multiples, the time limit) that found nothing feasible proves nothing: an
+    explanation may only state a reason it has checked.
+    """
+    search = budget.search(problem)
+    if search.best is not None and search.best.score.feasible:
+        return False, ""
+    return True, (search.notes[0] if search.notes else "")
+
+
+def _bounded(labels: set[str], pll: Pll, note: str) -> Conflict:
+    names = ", ".join(sorted(labels))
+    return Conflict(
+        tuple(sorted(labels)), "search-bound",
+        f"{names}: the search of {pll.id} found no setting within its allowed error, but it was cut short ({note}); "
+        "no constraint is named as blocking because none was proven to; raise --time-limit, or narrow the divider "
+        "ranges the part allows")
 
 
 def _blocking(pll: Pll, problem: PllProblem, budget: _Budget) -> tuple[str, str]:
@@ -220,10 +246,17 @@ def explain_infeasible(plan: "BoardPlan", time_limit_s: float = 10.0) -> Explana
             (), "time-limit", "the explanation stopped at its time limit: the blocking constraints named may be "
             "incomplete; raise --time-limit"))
         return explanation  # a consumer left unexamined is not shown unreachable
+    bounded = bool(plan.notes)
     for cid in sorted(missing - explained):
-        explanation.conflicts.append(
-            Conflict((cid,), "unreachable", f"{cid}: no setting upstream makes its frequency within ±{format_ppm(tolerances[cid]).lstrip('+')}")
-        )
+        allowed = f"±{format_ppm(tolerances[cid]).lstrip('+')}"
+        if bounded:  # a bounded search proves nothing unreachable: say only what was checked
+            explanation.conflicts.append(Conflict((cid,), "search-bound", (
+                f"{cid}: no setting found within {allowed}, but the search was cut short ({plan.notes[0]}); "
+                "a feasible plan may exist")))
+        else:
+            explanation.conflicts.append(
+                Conflict((cid,), "unreachable", f"{cid}: no setting upstream makes its frequency within {allowed}")
+            )
     return explanation
 
 
@@ -238,7 +271,12 @@ def _explain_plls(plan: "BoardPlan", explanation: Explanation, missing: set[str]
             if not labels:
                 continue
             alone = replace(problem, outputs=(spec,))
-            if not _feasible(alone, budget):
+            infeasible, bound = _proven_infeasible(alone, budget)
+            if infeasible and bound:
+                explanation.conflicts.append(_bounded(labels, pll, bound))
+                explained |= labels
+                continue
+            if infeasible:
                 code, text = _blocking(pll, alone, budget)
                 near = budget.best(alone)
                 detail = ""
@@ -252,9 +290,12 @@ def _explain_plls(plan: "BoardPlan", explanation: Explanation, missing: set[str]
                 if other is spec:
                     continue
                 pair = replace(problem, outputs=(spec, other))
-                if not _feasible(pair, budget):
+                infeasible, bound = _proven_infeasible(pair, budget)
+                if infeasible:
                     involved = tuple(sorted({t.label for t in spec.targets + other.targets}))
-                    if all(c.consumers != involved for c in explanation.conflicts):
+                    if bound:
+                        explanation.conflicts.append(_bounded(set(involved), pll, bound))
+                    elif all(c.consumers != involved for c in explanation.conflicts):
                         code, _ = _blocking(pll, pair, budget)
                         explanation.conflicts.append(Conflict(involved, code, _pair_message(pll, spec, other) + f" (blocking: {code})"))
                     explained |= labels
