@@ -11,6 +11,7 @@ from fractions import Fraction
 from clockplan.findings import Finding, Severity
 from clockplan.frequency import Frequencies, synthesis_error
 from clockplan.parts import Board, Consumer, FrequencyRange, Pll, Settings
+from clockplan.plan.spurs import DEFAULT_LOOP_BANDWIDTH_HZ, spur_findings
 from clockplan.units import format_exact, format_frequency, format_ppm
 
 __all__ = ["check_settings", "check_pll", "check_consumer_frequency"]
@@ -83,11 +84,20 @@ def check_consumer_frequency(consumer: Consumer, actual_hz: Fraction | None) -> 
     return [Finding(Severity.INFO, "inexact", consumer.id, f"{text}, within its allowed synthesis error")]
 
 
-def check_settings(board: Board, settings: Settings, freqs: Frequencies) -> list[Finding]:
-    """Every constraint check on the board, in board order."""
+def check_settings(
+    board: Board, settings: Settings, freqs: Frequencies, loop_bandwidth_hz: Fraction | float | None = None
+) -> list[Finding]:
+    """Every constraint check on the board, in board order.
+
+    ``loop_bandwidth_hz`` is the loop bandwidth assumed for the in-band spur
+    check of a PLL that states none (``--loop-bandwidth``; None: the default,
+    :data:`~clockplan.plan.spurs.DEFAULT_LOOP_BANDWIDTH_HZ`). ``plan`` runs the
+    same check, so both commands raise the same ``spur-in-band`` warnings.
+    """
     findings: list[Finding] = []
     for pll in board.plls:
         findings += check_pll(pll, settings, freqs)
+    findings += spur_findings(board.plls, freqs, DEFAULT_LOOP_BANDWIDTH_HZ if loop_bandwidth_hz is None else loop_bandwidth_hz)
     for divider in board.dividers:
         ratio = settings.dividers.get(divider.id)
         if ratio is None:

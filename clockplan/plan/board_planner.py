@@ -33,7 +33,7 @@ from fractions import Fraction
 from typing import TYPE_CHECKING, Any
 
 from clockplan.errors import InfeasibleError
-from clockplan.parts import Board, Buffer, Consumer, Divider, IntChoices, Pll, PllSetting, Settings
+from clockplan.parts import Board, Buffer, Consumer, Divider, IntChoices, Pll, PllSetting, Reference, Settings
 from clockplan.plan.choices import at_or_above, at_or_below, ladder_of
 from clockplan.plan.objective import Score
 from clockplan.plan.pll_solver import OutputSpec, PllProblem, SearchLimits, Target, solve_pll
@@ -120,7 +120,9 @@ class BoardPlan:
     ``proven_notes`` the bounds that were hit where the plans found are
     provably best on the objective's leading criteria (see
     :func:`_proven_criteria`), ``unused_notes`` the parts that feed no consumer (set to their smallest value), ``bandwidths`` the loop bandwidth each PLL's
-    spur flag used.
+    spur flag used, ``proven_criteria`` how many leading criteria of the
+    objective the best plan is proven best on although a bound was hit (None
+    when no bound was hit: the search was complete; see :func:`_search_proof`).
     """
 
     board: Board
@@ -131,6 +133,7 @@ class BoardPlan:
     elapsed_s: float = 0.0
     proven_notes: list[str] = field(default_factory=list)
     unused_notes: list[str] = field(default_factory=list)
+    proven_criteria: int | None = None
 
     @property
     def feasible(self) -> bool:
@@ -201,6 +204,7 @@ class _Planner:
         self.deadline = time.monotonic() + options.time_limit_s
         self.notes: list[str] = []
         self.proven_notes: list[str] = []
+        self.proven_levels: list[int] = []  # per proven note: how many leading criteria it proves (3 or 5)
         self.unused_notes: list[str] = []
         self.bandwidths: dict[str, Fraction | float | None] = {
             pll.id: loop_bandwidth_of(pll, options.loop_bandwidth_hz) for pll in board.plls
@@ -299,7 +303,7 @@ class _Planner:
                 score = sub.score.with_dividers([ratio])
                 plans.append(replace(sub, score=score, dividers={**sub.dividers, divider.id: ratio}))
             if time.monotonic() > self.deadline:
-                self._note("the search stopped at its time limit: the plan is the best found, not proven optimal")
+                self._note("the search stopped at its time limit")
                 break
         return _ranked(plans, self.keep)
 
@@ -377,7 +381,7 @@ class _Planner:
         for candidate in candidates[:width]:
             plans += self._complete_pll(pll, candidate, free, pinned_dividers)
             if time.monotonic() > self.deadline:
-                self._note("the search stopped at its time limit: the plan is the best found, not proven optimal")
+                self._note("the search stopped at its time limit")
                 break
         if not plans:
             return [self._blocked(pll.id, f"{pll.id}: no output divider gives the parts it feeds a usable frequency")]
@@ -543,6 +547,7 @@ class _Planner:
         )
         if text not in self.proven_notes:
             self.proven_notes.append(text)
+            self.proven_levels.append(proven)
 
     def _free_dividers(self, pll: Pll, out: Any, vco: Fraction) -> tuple[list[int], int]:
         """Dividers to try on an output without targets of its own, most promising first, and how many there were.
@@ -609,6 +614,69 @@ def _proven_criteria(found: list[SubPlan], keep: int, board: Board) -> int:
         if plan.score.pfd_product != ceiling:
             return 3
     return 5
+
+
+def _fixed_input(planner: "_Planner", node: str) -> Fraction | None:
+    """The frequency at ``node`` when no setting can change it (a reference through buffers and fixed dividers)."""
+    parents = list(planner.graph.predecessors(node))
+    if not parents:
+        return None
+    parent = parents[0]
+    part = planner.graph.nodes[parent].get("part")
+    if part is None:
+        return None
+    if isinstance(part, Reference):
+        return part.frequency
+    if isinstance(part, Buffer):
+        return _fixed_input(planner, parent)
+    if isinstance(part, Divider):
+        ratio = planner._fixed_ratio(part)
+        above = _fixed_input(planner, parent) if ratio is not None else None
+        return above / ratio if above is not None else None
+    return None
+
+
+def _pfd_ceiling(planner: "_Planner", pll: Pll) -> Fraction:
+    """The highest PFD frequency any plan can give ``pll``.
+
+    The top of its PFD range, or lower when its input frequency is fixed by
+    the board: then only ``input / R`` for an allowed R can be reached.
+    """
+    top = pll.pfd.hi
+    hz = _fixed_input(planner, pll.id)
+    if hz is None:
+        return top
+    pinned = planner.board.pins.get(pll.id, {}).get("r")
+    r = pinned if pinned is not None else at_or_above(pll.ref_divider, max(1, ceil_fraction(hz / top)))
+    return hz / r if r is not None and hz / r <= top else top
+
+
+def _search_proof(planner: "_Planner", best: SubPlan) -> int | None:
+    """How many leading criteria of the objective ``best`` is proven best on, when a search bound was hit.
+
+    None when no bound was hit (the search was complete). Otherwise the larger of:
+
+    * the local proofs: every bound hit was a cut cascade trial whose plans
+      are at the floor of criteria 1-3 (or 1-5) (:func:`_proven_criteria`);
+      any other bound proves nothing locally (0);
+    * the global proof: the best plan itself is feasible, exact and integer-N
+      (criteria 1-3 at their least possible value, and criterion 5 at 0), and
+      when every PLL runs at the highest PFD frequency any plan could give it
+      (:func:`_pfd_ceiling`), criterion 4 is at its ceiling too (5). No plan,
+      found or not, can then beat it on those criteria.
+    """
+    if not planner.notes and not planner.proven_notes:
+        return None
+    local = 0 if planner.notes else min(planner.proven_levels, default=0)
+    proof = 0
+    if _ideal(best):
+        proof = 3
+        ceiling = Fraction(1)
+        for pll_id in best.plls:
+            ceiling *= _pfd_ceiling(planner, planner.board.part(pll_id))
+        if best.score.pfd_product == ceiling:
+            proof = 5
+    return max(local, proof)
 
 
 def _settled(plans: list[SubPlan], keep: int) -> bool:
@@ -709,5 +777,6 @@ def plan_board(board: Board, options: PlanOptions | None = None) -> BoardPlan:
     planner = _Planner(board, graph, options)
     branches = [planner.plan_node(ref.id, ref.frequency) for ref in board.references]
     ranked = _k_best(branches, planner.keep)
+    proof = _search_proof(planner, ranked[0])
     return BoardPlan(board, ranked[0], ranked[1:], planner.notes, planner.bandwidths, time.monotonic() - started,
-                     planner.proven_notes, planner.unused_notes)
+                     planner.proven_notes, planner.unused_notes, proof)

@@ -218,7 +218,7 @@ def _build_output(spec: OutputSpec, vlo: Fraction, vhi: Fraction, limits: Search
             notes.append(
                 f"output {spec.name}: {total} divider values are too many to search in full; every "
                 f"{stride}th was swept (exact divisors and the dividers next to each visited point "
-                "were all tried), so the plan is the best found, not proven optimal"
+                "were all tried)"
             )
     else:
         ladder = product_ladder(spec.chain, max(1, lo // 2), 2 * hi + 2, limits.max_ladder)
@@ -376,7 +376,7 @@ class _Solver:
 
     def _out_of_time(self) -> bool:
         if self.limits.deadline is not None and time.monotonic() > self.limits.deadline:
-            self.notes.append("the search stopped at its time limit: the plan is the best found, not proven optimal")
+            self.notes.append("the search stopped at its time limit")
             return True
         return False
 
