@@ -157,7 +157,7 @@ def analyze(board: Board, settings: Settings | None = None, options: AnalysisOpt
         settings=settings,
         frequencies=freqs,
         consumers=_consumer_results(board, graph, freqs),
-        findings=tuple(check_settings(board, settings, freqs, options.loop_bandwidth_hz)),
+        findings=tuple(check_settings(board, settings, freqs, options.loop_bandwidth_hz, graph)),
         graph=graph,
     )
     for stage in STAGES:

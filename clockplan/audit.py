@@ -7,14 +7,16 @@ finding (``unset``), so a half-planned board still reports what it can.
 from __future__ import annotations
 
 from fractions import Fraction
+from typing import Any
 
+from clockplan.extremes import Band, PllBand, pll_bands
 from clockplan.findings import Finding, Severity
 from clockplan.frequency import Frequencies, synthesis_error
 from clockplan.parts import Board, Consumer, FrequencyRange, Pll, Settings
 from clockplan.plan.spurs import DEFAULT_LOOP_BANDWIDTH_HZ, spur_findings
 from clockplan.units import format_exact, format_frequency, format_ppm
 
-__all__ = ["check_settings", "check_pll", "check_consumer_frequency"]
+__all__ = ["check_settings", "check_pll", "check_consumer_frequency", "check_range_extremes"]
 
 
 def _range_text(span: FrequencyRange) -> str:
@@ -84,8 +86,65 @@ def check_consumer_frequency(consumer: Consumer, actual_hz: Fraction | None) -> 
     return [Finding(Severity.INFO, "inexact", consumer.id, f"{text}, within its allowed synthesis error")]
 
 
+def _band_text(band: PllBand, vco: bool) -> str:
+    """What moves the frequency: the reference's worst case, and any spread sweeps."""
+    low, high = band.reference_band
+    basis = {"board": "the board's figures", "typical": "its kind's typical figures, assumed"}.get(band.reference_basis, "no figures")
+    parts = [f"reference {band.reference} at {format_ppm(low)}..{format_ppm(high)} ({basis}, worst case over the "
+             "board's temperature range and lifetime)"]
+    sweeps = [band.upstream_sweep] + ([band.sweep] if vco else [])
+    sweep = (min(s[0] for s in sweeps), max(s[1] for s in sweeps))
+    if sweep != (0, 0):
+        parts.append(f"a spread sweep of {format_ppm(sweep[0])}..{format_ppm(sweep[1])}")
+    return " and ".join(parts)
+
+
+def _edge_finding(code: str, pll: Pll, what: str, nominal: Fraction, span: FrequencyRange, band: Band,
+                  cause: str, fix: str) -> Finding | None:
+    """An error when ``nominal`` is inside ``span`` but ``nominal * (1 + band)`` leaves it; None otherwise."""
+    low_hz, high_hz = nominal * (1 + band[0]), nominal * (1 + band[1])
+    if high_hz > span.hi:
+        excess, edge, side = high_hz - span.hi, span.hi, "above the top"
+    elif low_hz < span.lo:
+        excess, edge, side = span.lo - low_hz, span.lo, "below the bottom"
+    else:
+        return None
+    return _error(code, pll.id, (
+        f"{what} {format_frequency(nominal)} is inside {_range_text(span)} at nominal, but {cause} take it "
+        f"{format_frequency(excess)} ({format_ppm(excess / edge).lstrip('+')}) {side} edge {format_frequency(edge)}; {fix}"))
+
+
+def check_range_extremes(board: Board, freqs: Frequencies, bands: dict[str, PllBand]) -> list[Finding]:
+    """Input, PFD and VCO ranges checked over the reference's error band and the spread sweeps.
+
+    A frequency already outside its range at nominal has its own finding
+    (``vco-range``...) and is not repeated. Exact: a VCO exactly at its top
+    edge passes with a zero band and fails with any positive error.
+    """
+    findings: list[Finding] = []
+    fix = "plan with a margin from the edge ('clockplan plan' keeps it), or use a more accurate reference"
+    for pll in board.plls:
+        point, band = freqs.plls.get(pll.id), bands.get(pll.id)
+        if point is None or band is None:
+            continue
+        checks: list[tuple[str, str, Fraction, FrequencyRange, Band, bool]] = [
+            ("pfd-range-extremes", "PFD", point.pfd_hz, pll.pfd, band.input, False),
+            ("vco-range-extremes", "VCO", point.vco_hz, pll.vco, band.vco, True),
+        ]
+        if pll.input_range is not None:
+            checks.insert(0, ("input-range-extremes", "input", point.input_hz, pll.input_range, band.input, False))
+        for code, what, nominal, span, moved, vco in checks:
+            if nominal not in span:
+                continue
+            finding = _edge_finding(code, pll, what, nominal, span, moved, _band_text(band, vco), fix)
+            if finding is not None:
+                findings.append(finding)
+    return findings
+
+
 def check_settings(
-    board: Board, settings: Settings, freqs: Frequencies, loop_bandwidth_hz: Fraction | float | None = None
+    board: Board, settings: Settings, freqs: Frequencies, loop_bandwidth_hz: Fraction | float | None = None,
+    graph: Any = None,
 ) -> list[Finding]:
     """Every constraint check on the board, in board order.
 
@@ -98,6 +157,12 @@ def check_settings(
     for pll in board.plls:
         findings += check_pll(pll, settings, freqs)
     findings += spur_findings(board.plls, freqs, DEFAULT_LOOP_BANDWIDTH_HZ if loop_bandwidth_hz is None else loop_bandwidth_hz)
+    if board.plls:
+        if graph is None:
+            from clockplan.graph import build_graph
+
+            graph = build_graph(board)
+        findings += check_range_extremes(board, freqs, pll_bands(board, graph))
     for divider in board.dividers:
         ratio = settings.dividers.get(divider.id)
         if ratio is None:

@@ -44,7 +44,7 @@ from clockplan.units import format_frequency
 if TYPE_CHECKING:
     import networkx as nx
 
-__all__ = ["PlanOptions", "SubPlan", "BoardPlan", "plan_board", "check_pins"]
+__all__ = ["PlanOptions", "SubPlan", "BoardPlan", "plan_board", "check_pins", "margined_board"]
 
 
 @dataclass(frozen=True)
@@ -210,7 +210,7 @@ class _Planner:
             pll.id: loop_bandwidth_of(pll, options.loop_bandwidth_hz) for pll in board.plls
         }
         self._cache: dict[tuple[str, Fraction], list[SubPlan]] = {}
-        self._wish_cache: dict[str, list[Fraction]] = {}
+        self._wish_cache: dict[Any, list[Fraction]] = {}
 
     # ----------------------------------------------------------------- helpers
 
@@ -575,8 +575,59 @@ class _Planner:
             d = vco / hz
             if d.denominator == 1 and int(d) in options and int(d) not in wished:
                 wished.append(int(d))
-        ordered = wished + [d for d in sorted(options) if d not in wished]
+        # Next, the dividers whose frequency lets the downstream PLL be exact with a whole N (for the
+        # VCO chosen here: the wishes above are made without it), highest frequency first.
+        exact = [d for d in sorted(options) if d not in wished and self._feeds_exactly(node, vco / d)]
+        ordered = wished + exact + [d for d in sorted(options) if d not in wished and d not in exact]
         return ordered[: self.options.max_cascade_solves], len(ordered)
+
+    def _feeds_exactly(self, node: str, hz: Fraction) -> bool:
+        """True if ``hz`` at ``node`` lets the one PLL below make one of its exact VCO frequencies with a whole N."""
+        lift = self._lift(node)
+        if lift.targets or lift.open_dividers or len(lift.plls) != 1:
+            return False
+        pll, factor = lift.plls[0]
+        vcos = self._exact_vcos(pll)
+        if not vcos:
+            return False
+        f_in = hz / factor
+        if pll.input_range is not None and f_in not in pll.input_range:
+            return False
+        pinned = self.board.pins.get(pll.id, {}).get("r")
+        lo = max(1, ceil_fraction(f_in / pll.pfd.hi))
+        rs = [pinned] if pinned is not None else list(ladder_of(pll.ref_divider, lo, lo + 8).between(lo, lo + 8))[:4]
+        for r in rs:
+            pfd = f_in / r
+            if pfd not in pll.pfd:
+                continue
+            for v in vcos:
+                n = v / pfd
+                if n.denominator == 1 and pll.feedback_min <= n <= pll.feedback_max:
+                    return True
+        return False
+
+    def _exact_vcos(self, pll: Pll) -> list[Fraction]:
+        """Up to 16 VCO frequencies at which every constrained output of ``pll`` is exact (single targets only)."""
+        key = ("vcos", pll.id)
+        if key not in self._wish_cache:
+            targets = []
+            for out in pll.outputs:
+                spec = self.output_spec(out.name, f"{pll.id}.{out.name}", out.divider)
+                if spec is None:
+                    continue
+                if len({t.hz for t in spec.targets}) != 1 or len(spec.chain) != 1:
+                    targets = []
+                    break
+                targets.append((spec.targets[0].hz, out.divider))
+            found: list[Fraction] = []
+            if targets:
+                step = lcm_fractions(hz for hz, _ in targets)
+                for m in multiples_in(step, pll.vco.lo, pll.vco.hi)[:16]:
+                    v = m * step
+                    if all((v / hz).denominator == 1 and int(v / hz) in choices for hz, choices in targets):
+                        found.append(v)
+            self._wish_cache[key] = found  # type: ignore[index]
+        return self._wish_cache[key]  # type: ignore[index]
 
     def _wishes(self, node: str) -> list[Fraction]:
         if node not in self._wish_cache:
@@ -748,6 +799,24 @@ def _k_best(branches: list[list[SubPlan]], keep: int) -> list[SubPlan]:
 # --------------------------------------------------------------------------- entry point
 
 
+def margined_board(board: Board) -> Board:
+    """``board`` with every PLL's input, PFD and VCO ranges narrowed by the margin its frequency band needs.
+
+    The planner chooses settings on this board, so that each range holds over
+    the reference's worst-case error and any spread sweep
+    (:mod:`clockplan.extremes`), not only at nominal; the audit checks the
+    same band (``vco-range-extremes``...).
+    """
+    from clockplan.extremes import margined_pll, pll_bands
+    from clockplan.graph import build_graph
+
+    if not board.plls:
+        return board
+    bands = pll_bands(board, build_graph(board))
+    plls = tuple(margined_pll(pll, bands.get(pll.id)) for pll in board.plls)
+    return board if plls == board.plls else replace(board, plls=plls)
+
+
 def plan_board(board: Board, options: PlanOptions | None = None) -> BoardPlan:
     """Find settings for every open R, N and divider of ``board``.
 
@@ -773,8 +842,9 @@ def plan_board(board: Board, options: PlanOptions | None = None) -> BoardPlan:
     options = options or PlanOptions()
     started = time.monotonic()
     check_pins(board)
-    graph = build_graph(board)
-    planner = _Planner(board, graph, options)
+    planned = margined_board(board)
+    graph = build_graph(planned)
+    planner = _Planner(planned, graph, options)
     branches = [planner.plan_node(ref.id, ref.frequency) for ref in board.references]
     ranked = _k_best(branches, planner.keep)
     proof = _search_proof(planner, ranked[0])

@@ -191,9 +191,9 @@ def _pll_problems(plan: "BoardPlan") -> dict[str, PllProblem]:
     """The PLL problems the planner solved for the nearest plan (input frequencies from that plan)."""
     from clockplan.frequency import propagate
     from clockplan.graph import build_graph
-    from clockplan.plan.board_planner import PlanOptions, _Planner
+    from clockplan.plan.board_planner import PlanOptions, _Planner, margined_board
 
-    board = plan.board
+    board = margined_board(plan.board)  # the ranges the planner searched: with the margin of each PLL's band
     graph = build_graph(board)
     freqs = propagate(board, graph, plan.settings)
     planner = _Planner(board, graph, PlanOptions())
