@@ -6,6 +6,7 @@ finding (``unset``), so a half-planned board still reports what it can.
 
 from __future__ import annotations
 
+import math
 from fractions import Fraction
 from typing import Any
 
@@ -16,7 +17,13 @@ from clockplan.parts import Board, Consumer, FrequencyRange, Pll, Settings
 from clockplan.plan.spurs import DEFAULT_LOOP_BANDWIDTH_HZ, spur_findings
 from clockplan.units import format_exact, format_frequency, format_ppm
 
-__all__ = ["check_settings", "check_pll", "check_consumer_frequency", "check_range_extremes"]
+__all__ = ["check_settings", "check_pll", "check_consumer_frequency", "check_consumer_standard", "check_range_extremes"]
+
+
+#: How far (as a ratio, either way) a consumer may run from the nearest nominal frequency of its
+#: standard before ``standard-frequency`` warns: a factor of two (our choice: it keeps the
+#: neighbouring reference frequencies parts accept, and catches unit slips of 1000).
+FAR_FROM_NOMINAL = Fraction(2)
 
 
 def _range_text(span: FrequencyRange) -> str:
@@ -142,6 +149,43 @@ def check_range_extremes(board: Board, freqs: Frequencies, bands: dict[str, PllB
     return findings
 
 
+def check_consumer_standard(consumer: Consumer) -> list[Finding]:
+    """A ``standard-frequency`` warning when the consumer's frequency is far from all its standard's nominal ones.
+
+    Far means more than a factor :data:`FAR_FROM_NOMINAL` from every listed
+    nominal frequency: many parts take one of several reference frequencies
+    near the listed ones (a PHY at 20 MHz where 19.2 MHz and 24 MHz are
+    listed), but 32.768 MHz on a 32.768 kHz real-time-clock standard means the
+    standard's figures were not written for this clock, or a unit slip: the
+    finding names the nearest nominal and the ratio. A standard that lists no
+    nominal frequency is not checked.
+
+    Examples
+    --------
+    A consumer at 32.768 MHz under ``rtc-32k`` (32.768 kHz) gets the warning,
+    naming the exact ratio 1000.
+    """
+    budget = consumer.budget
+    nominals = tuple(getattr(budget, "nominal_hz", ()) or ())
+    if not nominals:
+        return []
+    f = consumer.frequency
+    nearest = min(nominals, key=lambda n: abs(math.log(f / n)))
+    ratio = f / nearest
+    if FAR_FROM_NOMINAL ** -1 <= ratio <= FAR_FROM_NOMINAL:
+        return []
+    slip = ""
+    for factor, words in ((10**3, "kHz/MHz or Hz/kHz"), (10**6, "Hz/MHz or kHz/GHz"), (10**9, "Hz/GHz")):
+        if ratio in (factor, Fraction(1, factor)):
+            slip = f" (exactly {format_exact(ratio)} times: a unit slip, {words}?)"
+    title = getattr(budget, "title", None) or consumer.standard or "its standard"
+    listed = ", ".join(format_frequency(n) for n in nominals)
+    return [Finding(Severity.WARNING, "standard-frequency", consumer.id, (
+        f"{consumer.id} runs at {format_frequency(f)}, far from every frequency its standard ({title}) lists: "
+        f"{listed}; nearest {format_frequency(nearest)}{slip}. Its budgets were written for those frequencies: "
+        "check the consumer's frequency, or give it the standard (or inline budget) that fits"))]
+
+
 def check_settings(
     board: Board, settings: Settings, freqs: Frequencies, loop_bandwidth_hz: Fraction | float | None = None,
     graph: Any = None,
@@ -171,4 +215,5 @@ def check_settings(
             findings.append(_error("divider-range", divider.id, f"ratio {ratio} is not allowed ({divider.ratio.describe()})"))
     for consumer in board.consumers:
         findings += check_consumer_frequency(consumer, freqs.nodes.get(consumer.id))
+        findings += check_consumer_standard(consumer)
     return findings
