@@ -445,6 +445,9 @@ class _Solver:
             )
             multiples = multiples[: self.limits.max_multiples]
             found = self._exact_on_grids(step)
+            rule = self.pll.denominator if self.pll.mode == "fractional" else None
+            if rule is None or rule.fixed is not None:
+                return found  # every grid point (whole N, k/M) that is a common multiple was visited above
         for index, m in enumerate(multiples):
             if index % 256 == 0 and self._out_of_time():
                 self._exact_settled = False
@@ -464,7 +467,9 @@ class _Solver:
         whole: for a whole N when ``q | N``; for ``N = k / M`` (a fixed modulus)
         when ``q | k p / M``... written as ``pfd / (M step) = p' / q'`` and ``q' | k``.
         Only the grid points that are common multiples are visited, so a 1 Hz
-        output of a GHz VCO finds its exact divider at once.
+        output of a GHz VCO finds its exact divider at once. Up to ``keep + 1``
+        per R and class are kept (the smallest N first), within
+        ``max_multiples`` points in all.
         """
         found = False
         budget = self.limits.max_multiples
