@@ -102,22 +102,27 @@ def reference_band(board: Board, reference: Reference, grades: Any = None) -> Re
     case. A reference with no figures and no typical grade gives a zero band
     (``basis = "none"``; the accuracy stage reports it as not checked).
     """
+    return _reference_bands(board, grades)[reference.id]
+
+
+def _reference_bands(board: Board, grades: Any = None) -> dict[str, ReferenceBand]:
     from clockplan.ppm.accuracy import reference_contributions
     from clockplan.ppm.board import reference_models
     from clockplan.ppm.grades import load_grades
 
-    models = reference_models(board, grades if grades is not None else load_grades())
-    model = next(m for m in models if m.reference.id == reference.id)
-    if model.spec is None:
-        return ReferenceBand(ZERO_BAND, model.basis)
-    terms = reference_contributions(model.spec, board.temperature_c, board.lifetime_s)
-    low = high = Fraction(0)
-    for term in terms:
-        lo, hi = _exact(term.low), _exact(term.high)
-        if lo is None or hi is None:  # a non-finite term: fall back to the stated tolerance
-            lo, hi = (Fraction(x) for x in model.spec.initial)
-        low, high = low + lo, high + hi
-    return ReferenceBand((min(low, Fraction(0)), max(high, Fraction(0))), model.basis)
+    bands = {}
+    for model in reference_models(board, grades if grades is not None else load_grades()):
+        if model.spec is None:
+            bands[model.reference.id] = ReferenceBand(ZERO_BAND, model.basis)
+            continue
+        low = high = Fraction(0)
+        for term in reference_contributions(model.spec, board.temperature_c, board.lifetime_s):
+            lo, hi = _exact(term.low), _exact(term.high)
+            if lo is None or hi is None:  # a non-finite term: fall back to the stated tolerance
+                lo, hi = (Fraction(x) for x in model.spec.initial)
+            low, high = low + lo, high + hi
+        bands[model.reference.id] = ReferenceBand((min(low, Fraction(0)), max(high, Fraction(0))), model.basis)
+    return bands
 
 
 @dataclass(frozen=True)
@@ -151,20 +156,15 @@ def pll_bands(board: Board, graph: "nx.DiGraph") -> dict[str, PllBand]:
     """Every PLL's band, from its root reference down through the PLLs above it."""
     from clockplan.graph import chain_to
 
-    references: dict[str, ReferenceBand] = {}
-    grades = None
     bands: dict[str, PllBand] = {}
+    if not board.plls:
+        return bands
+    references = _reference_bands(board)
     for pll in board.plls:
         chain = chain_to(graph, pll.id)
         root = board.part(chain[0])
-        if not isinstance(root, Reference):
+        if not isinstance(root, Reference) or root.id not in references:
             continue
-        if root.id not in references:
-            if grades is None:
-                from clockplan.ppm.grades import load_grades
-
-                grades = load_grades()
-            references[root.id] = reference_band(board, root, grades)
         upstream = ZERO_BAND
         for node in chain[1:-1]:
             if graph.nodes[node]["role"] == "pll":

@@ -135,3 +135,16 @@ def test_the_planner_keeps_the_margin(tolerance, top_allowed):
     if not top_allowed:
         assert point.pfd_hz * (1 + Fraction(1, 10**9)) <= 100_000_000
         assert point.vco_hz * (1 + Fraction(1, 10**9)) <= 3_000_000_000
+
+
+def test_a_board_feasible_only_on_a_range_edge_is_explained():
+    # 100 MHz from a 2.95-3 GHz VCO: the only exact VCO is 3 GHz, its very top. With a 1 ppb
+    # reference band the planner's margin leaves no plan, and the explanation says why.
+    from clockplan.plan.explain import explain_infeasible
+
+    assert plan_board(_board(tolerance="±0 ppm", vco_lo="2.95 GHz", settings="")).feasible
+    plan = plan_board(_board(tolerance="±0.001 ppm", vco_lo="2.95 GHz", settings=""))
+    assert not plan.feasible
+    conflicts = {c.constraint: c.message for c in explain_infeasible(plan).conflicts}
+    assert "range-margin" in conflicts
+    assert "VCO 3 GHz" in conflicts["range-margin"] and "3 Hz (0.001 ppm) above the top edge 3 GHz" in conflicts["range-margin"]

@@ -817,11 +817,14 @@ def margined_board(board: Board) -> Board:
     return board if plls == board.plls else replace(board, plls=plls)
 
 
-def plan_board(board: Board, options: PlanOptions | None = None) -> BoardPlan:
+def plan_board(board: Board, options: PlanOptions | None = None, *, margin: bool = True) -> BoardPlan:
     """Find settings for every open R, N and divider of ``board``.
 
     Pinned settings (the board file's ``settings``, complete or partial) are
-    kept. The answer ranks plans by :mod:`clockplan.plan.objective`.
+    kept. The answer ranks plans by :mod:`clockplan.plan.objective`. Each
+    PLL's ranges keep the margin of its frequency band (:func:`margined_board`);
+    ``margin=False`` plans at nominal only (the explanation uses it to tell
+    whether the margin is what blocks a board).
 
     Raises
     ------
@@ -842,7 +845,7 @@ def plan_board(board: Board, options: PlanOptions | None = None) -> BoardPlan:
     options = options or PlanOptions()
     started = time.monotonic()
     check_pins(board)
-    planned = margined_board(board)
+    planned = margined_board(board) if margin else board
     graph = build_graph(planned)
     planner = _Planner(planned, graph, options)
     branches = [planner.plan_node(ref.id, ref.frequency) for ref in board.references]

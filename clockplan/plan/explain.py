@@ -42,7 +42,8 @@ class Conflict:
     what blocks them (``integer-n``, ``denominator``, ``vco-range``,
     ``output-divider``, ``pfd-range``, ``n-range``, ``pinned``, ``combined``,
     ``part-cannot-run``, ``unreachable``, ``time-limit``, ``search-bound``: a bounded search found
-    nothing, so no constraint is named), ``message`` the explanation in words.
+    nothing, so no constraint is named; ``range-margin``: feasible only on a range edge the
+    reference's error band crosses), ``message`` the explanation in words.
     """
 
     consumers: tuple[str, ...]
@@ -235,6 +236,7 @@ def explain_infeasible(plan: "BoardPlan", time_limit_s: float = 10.0) -> Explana
         )
     for reason in plan.best.blocked:
         explanation.conflicts.append(Conflict((), "part-cannot-run", reason))
+    _explain_margin(plan, explanation, time_limit_s)
     missing = {cid for cid, err in plan.best.errors.items() if abs(err) > tolerances.get(cid, Fraction(0))}
     if not missing:
         return explanation
@@ -258,6 +260,37 @@ def explain_infeasible(plan: "BoardPlan", time_limit_s: float = 10.0) -> Explana
                 Conflict((cid,), "unreachable", f"{cid}: no setting upstream makes its frequency within {allowed}")
             )
     return explanation
+
+
+def _explain_margin(plan: "BoardPlan", explanation: Explanation, time_limit_s: float) -> None:
+    """Say so when the ranges' margin for the reference's error band and spread is what blocks the board.
+
+    The planner keeps every input, PFD and VCO range clear of its edges by
+    that band (docs/planning.md, Ranges at the extremes). When the board plans
+    feasibly without the margin, the plan it would give sits on an edge that
+    the reference's drift (or a spread sweep) crosses: a real failure, named.
+    """
+    from clockplan.plan.board_planner import PlanOptions, margined_board, plan_board
+
+    board = plan.board
+    narrowed = margined_board(board)
+    if narrowed is board:
+        return
+    at_nominal = plan_board(board, PlanOptions(time_limit_s=max(0.1, time_limit_s / 4)), margin=False)
+    if not at_nominal.feasible:
+        return
+    from clockplan.audit import check_range_extremes
+    from clockplan.extremes import pll_bands
+    from clockplan.frequency import propagate
+    from clockplan.graph import build_graph
+
+    graph = build_graph(board)
+    edges = check_range_extremes(board, propagate(board, graph, at_nominal.settings), pll_bands(board, graph))
+    detail = "; ".join(f"{f.node}: {f.message.split(';')[0]}" for f in edges) or "a range edge is crossed"
+    explanation.conflicts.append(Conflict((), "range-margin", (
+        "a plan exists at nominal frequencies only, on a range edge the reference's worst-case error (or a spread "
+        f"sweep) crosses: {detail}. Widen the part's range, use a more accurate reference, or choose parts whose "
+        "ranges do not end at the frequencies needed")))
 
 
 def _explain_plls(plan: "BoardPlan", explanation: Explanation, missing: set[str], explained: set[str], budget: _Budget) -> None:
