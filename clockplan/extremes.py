@@ -25,6 +25,7 @@ narrower than the modulation rate would filter it; see docs/planning.md).
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass, replace
 from fractions import Fraction
@@ -66,7 +67,7 @@ def vco_sweep(pll: Pll) -> Band:
     >>> from clockplan.parts import IntChoices, PllOutput
     >>> from clockplan.ppm.spread import SpreadSpectrum
     >>> out = PllOutput("pcie", IntChoices(1, 8), SpreadSpectrum("down", Fraction(5, 1000)))
-    >>> part = Pll("p", "ref", FrequencyRange(Fraction(1), Fraction(2)), FrequencyRange(Fraction(1), Fraction(2)),
+    >>> part = Pll("loop", "osc", FrequencyRange(Fraction(1), Fraction(2)), FrequencyRange(Fraction(1), Fraction(2)),
     ...            IntChoices(1, 1), Fraction(1), Fraction(2), "integer", (out,))
     >>> vco_sweep(part)
     (Fraction(-1, 200), Fraction(0, 1))
@@ -105,13 +106,20 @@ def reference_band(board: Board, reference: Reference, grades: Any = None) -> Re
     return _reference_bands(board, grades)[reference.id]
 
 
+@functools.lru_cache(maxsize=1)
+def _package_grades() -> Any:
+    """The package's own grade table, read once (it is immutable: a tuple of frozen grades)."""
+    from clockplan.ppm.grades import load_grades
+
+    return load_grades()
+
+
 def _reference_bands(board: Board, grades: Any = None) -> dict[str, ReferenceBand]:
     from clockplan.ppm.accuracy import reference_contributions
     from clockplan.ppm.board import reference_models
-    from clockplan.ppm.grades import load_grades
 
     bands = {}
-    for model in reference_models(board, grades if grades is not None else load_grades()):
+    for model in reference_models(board, grades if grades is not None else _package_grades()):
         if model.spec is None:
             bands[model.reference.id] = ReferenceBand(ZERO_BAND, model.basis)
             continue
@@ -175,6 +183,10 @@ def pll_bands(board: Board, graph: "nx.DiGraph") -> dict[str, PllBand]:
 
 
 def _narrowed(span: FrequencyRange, band: Band) -> FrequencyRange:
+    # A band reaching -100 % (figures no real part has, but a board may write) leaves no frequency safe:
+    # an empty range (lo above hi), which the planner reports as a part that cannot run.
+    if 1 + band[0] <= 0:
+        return FrequencyRange(span.hi + 1, span.hi)
     return FrequencyRange(span.lo / (1 + band[0]), span.hi / (1 + band[1]))
 
 

@@ -77,18 +77,13 @@ def test_the_exact_divider_at_2_5_ghz_of_the_issue():
     assert (setting.r, setting.n, setting.dividers["pps"]) == (1, 100, 2_500_000_000)
 
 
-def test_the_one_hertz_board_passes_through_the_cli_with_one_info_search_note(capsys):
+def test_the_one_hertz_board_passes_through_the_cli_with_one_info_search_note(capsys, tmp_path):
     # One note per search: the bounds hit (the divider range swept on a subset, the capped common
     # multiples) are listed in one info finding, since the plan is exact, integer-N and at the
     # highest PFD its 25 MHz input allows (R = 1): nothing can beat it on criteria 1-5.
-    path = "one-hertz.toml"
-    import pathlib
-
-    pathlib.Path(path).write_text(ONE_HZ.format(target="1 Hz", vco_lo="2.4 GHz"), encoding="utf-8")
-    try:
-        status = main(["plan", path, "--json", "--fail-on", "warning", "--time-limit", "20"])
-    finally:
-        pathlib.Path(path).unlink()
+    path = tmp_path / "one-hertz.toml"
+    path.write_text(ONE_HZ.format(target="1 Hz", vco_lo="2.4 GHz"), encoding="utf-8")
+    status = main(["plan", str(path), "--json", "--fail-on", "warning", "--time-limit", "20"])
     doc = json.loads(capsys.readouterr().out)
     bounds = [f for f in doc["findings"] if f["code"] == "search-bound"]
     assert status == 0 and doc["verdict"] == "pass"
@@ -137,7 +132,7 @@ def test_the_divisor_search_is_exact_against_brute_force(f_in, vco, r_max, n_ran
     # the exact divisors must still be found whenever the brute force finds one.
     pfd = (Fraction(1), Fraction(10**9))
     dividers = IntChoices(*span)
-    part = Pll("p", "ref", FrequencyRange(Fraction(vco[0]), Fraction(vco[1])), FrequencyRange(*pfd),
+    part = Pll("loop", "osc", FrequencyRange(Fraction(vco[0]), Fraction(vco[1])), FrequencyRange(*pfd),
                IntChoices(1, r_max), Fraction(n_range[0]), Fraction(n_range[1]), "integer",
                (PllOutput("o", dividers),))
     spec = OutputSpec("o", (Target("c", Fraction(target)),), (dividers,))

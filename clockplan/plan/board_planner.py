@@ -210,7 +210,8 @@ class _Planner:
             pll.id: loop_bandwidth_of(pll, options.loop_bandwidth_hz) for pll in board.plls
         }
         self._cache: dict[tuple[str, Fraction], list[SubPlan]] = {}
-        self._wish_cache: dict[Any, list[Fraction]] = {}
+        self._wish_cache: dict[str, list[Fraction]] = {}
+        self._vco_cache: dict[str, list[Fraction]] = {}
 
     # ----------------------------------------------------------------- helpers
 
@@ -439,22 +440,8 @@ class _Planner:
         if lift.targets or lift.open_dividers or len(lift.plls) != 1:
             return []
         pll, factor = lift.plls[0]
-        targets = []
-        for out in pll.outputs:
-            spec = self.output_spec(out.name, f"{pll.id}.{out.name}", out.divider)
-            if spec is None:
-                continue
-            if len({t.hz for t in spec.targets}) != 1 or len(spec.chain) != 1:
-                return []
-            targets.append((spec.targets[0].hz, out.divider))
-        if not targets:
-            return []
-        step = lcm_fractions(hz for hz, _ in targets)
         wishes: list[tuple[Fraction, Fraction]] = []
-        for m in multiples_in(step, pll.vco.lo, pll.vco.hi)[:16]:  # a range: sliced, never listed whole
-            vco = m * step
-            if not all((vco / hz).denominator == 1 and int(vco / hz) in choices for hz, choices in targets):
-                continue
+        for vco in self._exact_vcos(pll):
             n_first = max(ceil_fraction(vco / pll.pfd.hi), ceil_fraction(pll.feedback_min))
             for n in range(n_first, min(n_first + 4, floor_fraction(pll.feedback_max) + 1)):
                 pfd = vco / n
@@ -608,8 +595,7 @@ class _Planner:
 
     def _exact_vcos(self, pll: Pll) -> list[Fraction]:
         """Up to 16 VCO frequencies at which every constrained output of ``pll`` is exact (single targets only)."""
-        key = ("vcos", pll.id)
-        if key not in self._wish_cache:
+        if pll.id not in self._vco_cache:
             targets = []
             for out in pll.outputs:
                 spec = self.output_spec(out.name, f"{pll.id}.{out.name}", out.divider)
@@ -626,8 +612,8 @@ class _Planner:
                     v = m * step
                     if all((v / hz).denominator == 1 and int(v / hz) in choices for hz, choices in targets):
                         found.append(v)
-            self._wish_cache[key] = found  # type: ignore[index]
-        return self._wish_cache[key]  # type: ignore[index]
+            self._vco_cache[pll.id] = found
+        return self._vco_cache[pll.id]
 
     def _wishes(self, node: str) -> list[Fraction]:
         if node not in self._wish_cache:

@@ -13,7 +13,7 @@ from fractions import Fraction
 from typing import TYPE_CHECKING, Any
 
 from clockplan.findings import Finding, Severity
-from clockplan.units import format_exact, format_frequency, format_ppm
+from clockplan.units import format_exact, format_ppm
 
 if TYPE_CHECKING:
     from rich.console import Console
