@@ -227,3 +227,16 @@ def test_unused_dividers_and_outputs_never_make_a_board_infeasible(capsys):
     findings = plan_findings(plan, analyze(board, settings))
     unused = [f for f in findings if f.code == "unused-part"]
     assert {f.severity.value for f in unused} == {"info"} and len(unused) == 3
+
+
+def test_a_pinned_r_that_cannot_run_is_named_not_the_n_range():
+    # Regression: with R pinned to 1 the PFD (25 MHz) is above its 20 MHz top, yet the reason given was
+    # "no N reaches the VCO range" -- false, R = 2 with N = 192 would. Only the checked reason is stated.
+    text = ONE_HZ.format(target="100 MHz", vco_lo="2.4 GHz").replace(
+        'pfd = ["1 MHz", "50 MHz"]', 'pfd = ["1 MHz", "20 MHz"]').replace(
+        'mode = "integer"', 'mode = "integer"\nsettings = { r = 1 }')
+    plan = plan_board(parse_board(text, "pinned-r.toml"))
+    assert not plan.feasible
+    reasons = [c.message for c in explain_infeasible(plan).conflicts if c.constraint == "part-cannot-run"]
+    assert reasons and "the pinned R = 1" in reasons[0] and "PFD of 25 MHz" in reasons[0]
+    assert "no N in" not in reasons[0]

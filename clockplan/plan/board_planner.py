@@ -727,13 +727,25 @@ def _settled(plans: list[SubPlan], keep: int) -> bool:
 
 
 def _cannot_run(pll: Pll, hz: Fraction, problem: PllProblem) -> str:
-    pfd_r_lo = ceil_fraction(hz / pll.pfd.hi)
-    pfd_r_hi = floor_fraction(hz / pll.pfd.lo)
-    if not ladder_of(pll.ref_divider, max(1, pfd_r_lo), pfd_r_hi).between(max(1, pfd_r_lo), pfd_r_hi):
-        return f"{pll.id}: no allowed R ({pll.ref_divider.describe()}) puts {format_frequency(hz)} / R inside the PFD range {format_frequency(pll.pfd.lo)} to {format_frequency(pll.pfd.hi)}"
+    """Why no setting of ``pll`` runs from ``hz``: only a reason checked here (a pinned R is the R checked)."""
+    pfd_range = f"{format_frequency(pll.pfd.lo)} to {format_frequency(pll.pfd.hi)}"
+    pinned = ""
+    if problem.r_pin is not None:
+        pfd = hz / problem.r_pin
+        if pfd not in pll.pfd:
+            return (f"{pll.id}: the pinned R = {problem.r_pin} puts its {format_frequency(hz)} input at a PFD of "
+                    f"{format_frequency(pfd)}, outside the PFD range {pfd_range}")
+        pinned = f" with the pinned R = {problem.r_pin}"
+    else:
+        pfd_r_lo = ceil_fraction(hz / pll.pfd.hi)
+        pfd_r_hi = floor_fraction(hz / pll.pfd.lo)
+        if not ladder_of(pll.ref_divider, max(1, pfd_r_lo), pfd_r_hi).between(max(1, pfd_r_lo), pfd_r_hi):
+            return f"{pll.id}: no allowed R ({pll.ref_divider.describe()}) puts {format_frequency(hz)} / R inside the PFD range {pfd_range}"
+    vco_range = f"{format_frequency(pll.vco.lo)} to {format_frequency(pll.vco.hi)}"
     if problem.n_pin is not None:
-        return f"{pll.id}: the pinned N = {problem.n_pin} puts the VCO outside {format_frequency(pll.vco.lo)} to {format_frequency(pll.vco.hi)} for every allowed R"
-    return f"{pll.id}: no N in {pll.feedback_min}..{pll.feedback_max} reaches the VCO range {format_frequency(pll.vco.lo)} to {format_frequency(pll.vco.hi)} from {format_frequency(hz)}"
+        return f"{pll.id}: the pinned N = {problem.n_pin} puts the VCO outside {vco_range} for every allowed R{pinned}"
+    return (f"{pll.id}: no N in {pll.feedback_min}..{pll.feedback_max} reaches the VCO range {vco_range} from "
+            f"{format_frequency(hz)}{pinned}")
 
 
 # --------------------------------------------------------------------------- ranking

@@ -158,9 +158,12 @@ def _bounded(labels: set[str], pll: Pll, note: str) -> Conflict:
 
 
 def _blocking(pll: Pll, problem: PllProblem, budget: _Budget) -> tuple[str, str]:
+    bounded = False
     for code, text, relaxed in _relaxations(pll, problem):
-        if _feasible(relaxed, budget):
+        infeasible, bound = _proven_infeasible(relaxed, budget)
+        if not infeasible:
             return code, text
+        bounded = bounded or bool(bound)
     free = _unpinned(pll, problem)
     if free is not None:
         pinned_text = f"the pinned settings of {pll.id} block it; remove them to let the planner choose"
@@ -169,6 +172,9 @@ def _blocking(pll: Pll, problem: PllProblem, budget: _Budget) -> tuple[str, str]
         for code, text, relaxed in _relaxations(pll, free):
             if _feasible(relaxed, budget):
                 return "pinned", f"{pinned_text}, and then: {text}"
+    if bounded:  # a relaxed search cut short proves nothing either way: say only what was found
+        return "combined", (f"no single relaxed constraint of {pll.id} was found to help, but some relaxed searches "
+                            "were cut short, so one may")
     return "combined", f"several constraints of {pll.id} together block it (no single relaxation helps)"
 
 
