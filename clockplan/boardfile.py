@@ -54,6 +54,8 @@ __all__ = [
     "load_board",
     "parse_board",
     "read_board_section",
+    "CONDITION_KEYS",
+    "unstated_conditions",
     "read_reference",
     "read_consumer",
     "read_denominator",
@@ -102,6 +104,22 @@ def _kind(value: Any) -> str:
 # --------------------------------------------------------------------------- sections
 
 
+#: The operating conditions of ``[board]``; without them a board is held at 25 °C and 0 years.
+CONDITION_KEYS = ("temperature", "lifetime")
+
+
+def unstated_conditions(board_table: Any) -> tuple[str, ...]:
+    """The :data:`CONDITION_KEYS` a ``[board]`` table (or its absence, ``None``) leaves out.
+
+    Examples
+    --------
+    >>> unstated_conditions({"name": "x", "lifetime": "10 years"})
+    ('temperature',)
+    """
+    table = board_table if isinstance(board_table, dict) else {}
+    return tuple(key for key in CONDITION_KEYS if key not in table)
+
+
 def read_board_section(doc: dict, ctx: Locator) -> tuple[str, tuple[float, float], float]:
     if "board" not in doc:
         return "unnamed board", (25.0, 25.0), 0.0
@@ -143,16 +161,49 @@ def _read_outputs(reader: TableReader) -> tuple[PllOutput, ...]:
         if not ID_PATTERN.match(name):
             raise outputs.error(name, f"invalid output name {name!r}", "use letters, digits, '_' or '-'")
         out = outputs.sub(name)
-        spread = None
-        if out.has("spread"):
-            from clockplan.ppm.parse import parse_spread
-
-            out.raw("spread")
-            spread = located(out, lambda: parse_spread(out.table["spread"], out.path("spread")))
-        result.append(PllOutput(name=name, divider=out.get("divider", int_choices), spread=spread))
+        independent = out.get("independent_spread", _flag, False)
+        spread = _read_spread(out)
+        if spread is not None and not independent:
+            raise out.error(
+                "spread",
+                f"output {name!r} cannot spread alone: a spread made by modulating the loop (its feedback "
+                "divider or its VCO) sweeps the VCO, so it reaches every output of this PLL and every clock "
+                "downstream",
+                "move the spread to the PLL (spread = { ... } in its [[pll]] table): every output then spreads; "
+                "or, if the part's datasheet says this output's divider makes its own spread (a fractional "
+                "output divider with its own modulation), add independent_spread = true to this output "
+                "(docs/board-format.md, 'Spread spectrum')",
+            )
+        result.append(
+            PllOutput(name=name, divider=out.get("divider", int_choices), spread=spread, independent_spread=independent)
+        )
         out.raw("description")
         out.finish()
     return tuple(result)
+
+
+def _flag(value: Any) -> bool:
+    if not isinstance(value, bool):
+        raise BoardError(f"expected true or false, got {type_name(value)}")
+    return value
+
+
+def _read_spread(reader: TableReader) -> Any:
+    """The table's ``spread`` (a ``SpreadSpectrum``) or None; a board spread must give its rate."""
+    if not reader.has("spread"):
+        return None
+    from clockplan.ppm.parse import parse_spread
+
+    reader.raw("spread")
+    spread = located(reader, lambda: parse_spread(reader.table["spread"], reader.path("spread")))
+    if spread.modulation_hz is None:
+        raise reader.error(
+            "spread",
+            "a spread without its modulation rate",
+            'add rate = "31.5 kHz" (the part\'s modulation rate): the rate sets the time deviation the spread '
+            "adds to every clock it reaches (its jitter), and standards that allow spreading bound it",
+        )
+    return spread
 
 
 def _denominator(value: Any) -> int:
@@ -195,6 +246,7 @@ def _read_pll(reader: TableReader) -> Pll:
         outputs=_read_outputs(reader),
         denominator=read_denominator(reader, mode),
         input_range=reader.get("input_range", frequency_range, None),
+        spread=_read_spread(reader),
     )
     reader.raw("description")
     return pll
@@ -330,11 +382,15 @@ def parse_board(text: str, file: str | None = None) -> Board:
         pins=pins,
         source_file=file,
         lines=_line_table(ctx, doc),
+        unstated=unstated_conditions(doc.get("board")),
     )
     _check_unique_ids(board, ctx)
     from clockplan.graph import build_graph
 
-    build_graph(board)  # refuses unknown sources, loops and over-subscribed buffers
+    from clockplan.spreading import check_spreads
+
+    graph = build_graph(board)  # refuses unknown sources, loops and over-subscribed buffers
+    check_spreads(board, graph)  # refuses two spreads stacked on one clock path
     return board
 
 
@@ -404,6 +460,9 @@ def _with_pll_noise(reader: TableReader, pll: Pll) -> Pll:
 
 def _line_table(ctx: Locator, doc: dict) -> dict[str, int]:
     lines: dict[str, int] = {}
+    board_line = ctx.line_of("board")
+    if board_line:
+        lines["board"] = board_line
     for section in _SECTIONS[1:]:
         entries = doc.get(section, [])
         for index, table in enumerate(entries if isinstance(entries, list) else []):

@@ -194,7 +194,9 @@ def _console(args: argparse.Namespace):
 
 def _emit(args: argparse.Namespace, analysis, command: str) -> int:
     fmt = _report_format(args)
-    if fmt == "table" and not args.output:
+    if fmt in ("dot", "svg"):
+        _deliver_diagram(args, analysis, fmt)
+    elif fmt == "table" and not args.output:
         from clockplan.report.terminal import render_analysis
 
         render_analysis(analysis, _console(args), title=command)
@@ -235,10 +237,18 @@ def _report_format(args: argparse.Namespace) -> str:
             raise ClockplanError(f"--json and --format {chosen} disagree", hint="give one of them")
         return "json"
     if chosen is None and args.output:
-        from clockplan.report.formats import format_for_path
+        from clockplan.report.formats import output_format
 
-        chosen = format_for_path(args.output)
+        chosen = output_format(args.output)
     return chosen or "table"
+
+
+def _deliver_diagram(args: argparse.Namespace, analysis, fmt: str) -> None:
+    """The tree diagram (DOT, or SVG drawn by Graphviz) for an --output ending in .dot or .svg."""
+    from clockplan.report.dot import render_dot, render_svg
+
+    text = render_dot(analysis)
+    _deliver(args, render_svg(text) if fmt == "svg" else text)
 
 
 def _deliver(args: argparse.Namespace, text: str) -> None:
@@ -295,11 +305,13 @@ def _add_report_commands(commands) -> None:
     )
     explain.add_argument("board", help="board file (TOML)")
     explain.add_argument("consumer", help="the consumer's id")
-    explain.add_argument("--format", choices=("table", "json", "markdown"), default=None, help="default: table")
+    explain.add_argument("--format", choices=("table", "json", "markdown"), default=None,
+                         help="default: table, or implied by --output's suffix (.json .md .txt)")
+    explain.add_argument("--json", action="store_true", help="the same as --format json")
     explain.add_argument("--output", "-o", metavar="FILE", default=None, help="write to FILE instead of stdout")
     _add_display_options(explain)
     _add_budget_options(explain)
-    explain.set_defaults(run=_run_explain, json=False)
+    explain.set_defaults(run=_run_explain)
 
     diagram = commands.add_parser(
         "diagram",
@@ -319,7 +331,8 @@ def _add_report_commands(commands) -> None:
         "the board gives. Needs matplotlib: pip install 'clockplan[plots]'.",
     )
     plots.add_argument("board", help="board file (TOML)")
-    plots.add_argument("--output-dir", "-d", metavar="FOLDER", default=".", help="folder for the PNG files (default: .)")
+    plots.add_argument("--output-dir", "-d", metavar="FOLDER", default=".",
+                       help="folder for the PNG files (default: .; created if missing)")
     _add_budget_options(plots)
     plots.set_defaults(run=_run_plots)
 
@@ -337,8 +350,8 @@ def _run_explain(args: argparse.Namespace) -> int:
     from clockplan.boardfile import load_board
     from clockplan.report import explain as explainer
 
+    fmt = _explain_format(args)
     explanation = explainer.explain(_analyze_with_progress(load_board(args.board), args), args.consumer)
-    fmt = args.format or "table"
     if fmt == "table" and not args.output:
         explainer.render_explanation(explanation, _console(args))
     elif fmt == "table":
@@ -352,12 +365,34 @@ def _run_explain(args: argparse.Namespace) -> int:
     return EXIT_FINDINGS if explainer.explanation_fails(explanation) else EXIT_OK
 
 
+def _explain_format(args: argparse.Namespace) -> str:
+    """table, json or markdown, from --format, --json or --output's suffix (which must be one of those)."""
+    fmt = _report_format(args)
+    if fmt not in ("table", "json", "markdown"):
+        raise ClockplanError(f"explain writes a table, JSON or Markdown, not {fmt}",
+                             hint="name the --output file .txt, .json or .md, or give --format")
+    return fmt
+
+
+def _diagram_format(output: str | None) -> str:
+    """dot or svg from an --output suffix; stdout is DOT; another suffix is an error."""
+    if not output:
+        return "dot"
+    from clockplan.report.formats import format_for_path
+
+    fmt = format_for_path(output)
+    if fmt not in ("dot", "svg"):
+        raise ClockplanError(f"--output {output}: the diagram is written as .dot or .svg",
+                             hint="name the file .dot (Graphviz DOT) or .svg (drawn by Graphviz), or give --format")
+    return fmt
+
+
 def _run_diagram(args: argparse.Namespace) -> int:
     from clockplan.analysis import analyze
     from clockplan.boardfile import load_board
     from clockplan.report.dot import render_dot, render_svg
 
-    fmt = args.format or ("svg" if (args.output or "").lower().endswith(".svg") else "dot")
+    fmt = args.format or _diagram_format(args.output)
     text = render_dot(analyze(load_board(args.board)))
     _deliver(args, render_svg(text) if fmt == "svg" else text)
     return EXIT_OK
@@ -376,9 +411,27 @@ def _run_plots(args: argparse.Namespace) -> int:
         sys.stdout.write("clockplan: nothing to plot: the board gives no phase-noise or oscillator accuracy data "
                          "(see docs/jitter.md and docs/frequency-accuracy.md)\n")
         return EXIT_OK
+    if _make_folder(args.output_dir):
+        sys.stdout.write(f"clockplan: created the folder {args.output_dir}\n")
     for path in write_plots(data, args.output_dir):
         sys.stdout.write(f"clockplan: wrote {path}\n")
     return EXIT_OK
+
+
+def _make_folder(folder: str) -> bool:
+    """Create ``folder`` (and its parents) if missing; True if it was created."""
+    import os
+
+    if os.path.isdir(folder):
+        return False
+    if os.path.lexists(folder):
+        raise ClockplanError(f"{folder} exists and is not a folder", hint="give a folder for the PNG files with -d")
+    try:
+        os.makedirs(folder)
+    except OSError as err:
+        raise ClockplanError(f"cannot create the folder {folder}: {err.strerror}",
+                             hint="check the path and its permissions, or give another folder with -d") from err
+    return True
 
 
 def _run_new(args: argparse.Namespace) -> int:
@@ -431,7 +484,9 @@ def _emit_plan(args: argparse.Namespace, analysis, plan, explanation) -> None:
     from clockplan.plan.output import plan_document, render_plan
 
     fmt = _report_format(args)
-    if fmt == "json":
+    if fmt in ("dot", "svg"):
+        _deliver_diagram(args, analysis, fmt)
+    elif fmt == "json":
         from clockplan.report.json import dumps
 
         _deliver(args, dumps(plan_document(analysis, plan, explanation)))

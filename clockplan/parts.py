@@ -143,11 +143,19 @@ class Reference:
 
 @dataclass(frozen=True)
 class PllOutput:
-    """One output of a PLL: a divider after the shared VCO."""
+    """One output of a PLL: a divider after the shared VCO.
+
+    ``spread`` is a spread made by this output's own divider, allowed only when
+    ``independent_spread`` says the part's output divider modulates by itself (a
+    fractional output divider with its own spread); a spread made by modulating
+    the loop belongs to the :class:`Pll` and reaches every output
+    (``docs/board-format.md``).
+    """
 
     name: str
     divider: IntChoices
     spread: Any = None
+    independent_spread: bool = False
 
 
 @dataclass(frozen=True)
@@ -159,7 +167,10 @@ class Pll:
     must be whole; in ``"fractional"`` mode its fractional part must satisfy
     ``denominator``. ``loop`` (a loop response), ``noise`` (the PLL's own noise
     figures) and ``loop_filter`` (a passive filter to design or analyse) feed
-    the jitter model; see docs/jitter.md and docs/loop-filter.md.
+    the jitter model; see docs/jitter.md and docs/loop-filter.md. ``spread``
+    (a ``clockplan.ppm.spread.SpreadSpectrum``) is a spread made by modulating
+    the loop (its feedback divider or its VCO): it sweeps the VCO, so it reaches
+    every output and every clock downstream (``clockplan.spreading``).
     """
 
     id: str
@@ -176,6 +187,7 @@ class Pll:
     loop: Any = None
     noise: Any = None
     loop_filter: Any = None
+    spread: Any = None
 
     def output(self, name: str) -> PllOutput:
         """Return the output called ``name``."""
@@ -257,7 +269,10 @@ class Board:
 
     ``given`` holds settings fixed by the file (partial: ``pll_partial`` keeps
     per-PLL pins such as a fixed R when N is left open). ``lines`` maps key
-    paths to line numbers for error messages.
+    paths to line numbers for error messages. ``unstated`` names the operating
+    conditions (``"temperature"``, ``"lifetime"``) the board file left out, so
+    that ``temperature_c`` / ``lifetime_s`` hold the 25 °C / 0 years stand-ins;
+    the accuracy stage refuses a board whose models depend on one of them.
     """
 
     name: str
@@ -271,6 +286,7 @@ class Board:
     pins: Mapping[str, Mapping[str, Any]] = field(default_factory=dict)
     source_file: str | None = None
     lines: Mapping[str, int] = field(default_factory=dict)
+    unstated: tuple[str, ...] = ()
 
     def part(self, part_id: str) -> Any:
         """Return the part (reference, PLL, divider, buffer or consumer) with this id."""

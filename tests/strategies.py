@@ -187,6 +187,7 @@ def _reference(pick: Picker, index: int) -> dict[str, Any]:
         ref["tolerance"] = pick.choice(_ERRORS)
         if pick.chance(0.5):
             ref["stability"] = pick.choice(_ERRORS)
+            ref["stability_range"] = pick.choice(["-40..85 C", "-55..125 C", ["0 C", "70 C"]])
         if pick.chance(0.4):
             ref["aging"] = {"first_year": "±2 ppm", "per_year": "±0.5 ppm"}
     if pick.chance(0.2):
@@ -233,9 +234,15 @@ def _pll(pick: Picker, index: int, sources: list[str]) -> dict[str, Any]:
         pll["loop"] = {"bandwidth": pick.choice(["20 kHz", "200 kHz", "1 Hz"]), "damping": pick.choice([0.707, 1, 0.5])}
     if pick.chance(0.15):
         pll["noise"] = {"fom": "-227 dBc/Hz", "flicker_fom": "-264 dBc/Hz", "output_floor": "-160 dBc/Hz"}
-    if pick.chance(0.1):
-        first = next(iter(outputs))
-        outputs[first]["spread"] = {"mode": "down", "depth": pick.choice(["0.5 %", "5000 ppm", "0 %"]), "rate": "31.5 kHz"}
+    if index == 0 and pick.chance(0.1):
+        # One spread per clock path (the board refuses stacked spreads): only the first PLL spreads,
+        # from its loop or from an output that declares it spreads alone.
+        spread = {"mode": "down", "depth": pick.choice(["0.5 %", "5000 ppm", "0 %"]), "rate": "31.5 kHz"}
+        if pick.chance(0.5):
+            pll["spread"] = spread
+        else:
+            first = next(iter(outputs))
+            outputs[first].update(independent_spread=True, spread=spread)
     return pll
 
 
@@ -305,7 +312,17 @@ def valid_board(pick: Picker) -> dict[str, Any]:
         buffer["outputs"] = loads + pick.integer(0, 2) if loads else pick.integer(1, 4)
     if buffers:
         doc["buffer"] = buffers
+    if any(_ages(ref) for ref in references):
+        # An aging reference needs the board's lifetime (else the audit refuses the board: docs/board-format.md).
+        doc.setdefault("board", {}).setdefault("lifetime", pick.choice(["10 years", "6 months", "0 h"]))
     return doc
+
+
+def _ages(ref: dict[str, Any]) -> bool:
+    """Whether a generated reference ages: its own aging, or the typical grade a reference without data gets."""
+    if "tolerance" in ref:
+        return "aging" in ref
+    return ref.get("kind", "xo") in ("crystal", "xo", "tcxo", "ocxo")
 
 
 # --------------------------------------------------------------------------- mutations

@@ -137,7 +137,8 @@ def _mash_111(fraction_numerator, bits, steps):
 def test_modulator_noise_matches_a_simulated_mash_111():
     # Reference: a bit-true MASH 1-1-1 simulation; the output-phase error (the running sum
     # of the division-ratio error, in VCO cycles x 2 pi) has the variance and the spectrum
-    # the textbook formula predicts (checked with scipy.signal.welch).
+    # the closed form of a third-order MASH modulator predicts (|1 - z^-1|^(2m) shaping of white
+    # quantization noise, common practice; checked with scipy.signal.welch).
     bits, steps, f_pfd = 20, 1 << 16, 1.0
     numerator = 349_525  # ~1/3 with a long period in 20 bits
     y = _mash_111(numerator, bits, steps)

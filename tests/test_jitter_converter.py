@@ -14,7 +14,8 @@ from clockplan.jitter.converter import (
     total_jitter,
 )
 
-# SNR = -20 log10(2 pi f_in sigma_t) (Kester's tutorial on converter clock jitter).
+# SNR = -20 log10(2 pi f_in sigma_t) (M. Shinagawa, Y. Akazawa, T. Wakimoto, "Jitter analysis of
+# high-speed sampling systems", IEEE J. Solid-State Circuits 25(1), 1990; from memory).
 PUBLISHED_SNR = [
     # Source: RF glossary entry "Aperture Jitter", reference values for sigma_t = 100 fs,
     # printed to the nearest dB.
@@ -44,7 +45,8 @@ def test_doubling_input_frequency_costs_6_db():
 
 
 def test_aperture_jitter_adds_root_sum_square():
-    # Kester's tutorial: the converter's aperture jitter and the clock's add in root-sum-square.
+    # Independent jitter sources add in root-sum-square (variances of independent errors add: elementary
+    # probability; the converter's aperture jitter is such a source, common practice).
     with_aperture = jitter_limited_snr_db(70e6, 300e-15, aperture_jitter_s=400e-15)
     assert with_aperture == pytest.approx(jitter_limited_snr_db(70e6, 500e-15), rel=1e-12)
     allowed = max_jitter_for_snr(70e6, with_aperture, aperture_jitter_s=400e-15)

@@ -11,7 +11,7 @@ Reference values are derived by hand from closed forms outside the code under te
 - a PLL's in-band floor from its normalised figure of merit is
   FOM + 10 log10 f_PFD + 20 log10 N (as synthesizer datasheets define it; common practice);
 - the closed-loop 3 dB bandwidth is where |H|**2 = 1/2 (definition);
-- a converter's jitter-limited SNR is -20 log10(2 pi f_in sigma_t) (Kester's
+- a converter's jitter-limited SNR is -20 log10(2 pi f_in sigma_t) (Shinagawa et al.,
   tutorial on converter clock jitter);
 - scipy.integrate.quad and scipy.stats as reference integrator and quantiles.
 
@@ -297,7 +297,7 @@ standard = "sdi-hd"
 
 def test_converter_budget_and_band_reach_the_result():
     jitter = analyze(load_board(RECEIVER)).consumer("adc_clk").jitter
-    # Kester: SNR = -20 log10(2 pi f_in sigma_t); 70 dB at 180 MHz gives sigma_t = 10**-3.5 / (2 pi 180 MHz).
+    # Shinagawa et al. (1990): SNR = -20 log10(2 pi f_in sigma_t); 70 dB at 180 MHz gives sigma_t = 10**-3.5 / (2 pi 180 MHz).
     assert jitter.budget_seconds == pytest.approx(10**-3.5 / (2 * math.pi * 180e6), rel=1e-12)
     assert jitter.band_hz == (1e3, 122.88e6) and jitter.band_source == "board"
 

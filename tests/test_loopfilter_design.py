@@ -182,7 +182,8 @@ def test_worked_example_third_order_reproduces_the_book_equations(t31: float, ga
 
 @pytest.mark.parametrize("phi", [30.0, 45.0, 60.0, 75.0])
 def test_second_order_zero_to_pole_ratio(phi: float) -> None:
-    # Handbook identity of the phase-margin method: the zero and pole are a factor
+    # Lead-compensator identity (K. Ogata, Modern Control Engineering, 5th ed., 2010; from memory):
+    # the phase-margin method's zero and pole are a factor
     # (1 + sin φ)/(1 - sin φ) apart, e.g. (1+√2)^2 ≈ 5.83 at 45° (common practice).
     spec = LoopSpec(1e-3, 50e6, 200, 10e6)
     design = design_second_order(spec, 50e3, phi)

@@ -1,7 +1,7 @@
 """Loop-filter resistor noise at the PLL output.
 
 References: the equipartition theorem for thermal noise on capacitors (kT/C
-noise; Nyquist 1928, textbook physics), integrated with scipy.integrate.quad;
+noise; H. Nyquist, "Thermal agitation of electric charge in conductors", Phys. Rev. 32, 1928), integrated with scipy.integrate.quad;
 an independent nodal analysis of the closed loop written here with
 numpy.linalg (circuit and feedback theory, common practice).
 """

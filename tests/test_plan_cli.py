@@ -94,7 +94,7 @@ def test_the_readme_demo_is_a_showcase(capsys):
     # PCI Express Gen3 refclk: 1.0 ps RMS over the 10 kHz-50 MHz approximation (standards table).
     assert consumers["pcie_root"]["jitter_budget_s"] == 1e-12
     assert consumers["pcie_root"]["jitter_band_hz"] == [1e4, 5e7]
-    # Converter clock: SNR = -20 log10(2 pi f_in sigma), 110 dB at 20 kHz allows about 25.2 ps (handbook formula).
+    # Converter clock: SNR = -20 log10(2 pi f_in sigma), 110 dB at 20 kHz allows about 25.2 ps (Shinagawa et al., IEEE JSSC 1990).
     import math
 
     assert abs(consumers["codec_48k"]["jitter_budget_s"] - 10 ** (-110 / 20) / (2 * math.pi * 20e3)) < 1e-18

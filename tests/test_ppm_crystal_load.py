@@ -1,4 +1,4 @@
-"""Crystal load capacitance, pulling and standard capacitor values against handbook formulas."""
+"""Crystal load capacitance, pulling and standard capacitor values against closed forms (IEC 60122-1, IEC 60063)."""
 
 import math
 from fractions import Fraction
@@ -42,13 +42,13 @@ def _bvd_load_resonance(fs, c1, c0, load):
 
 
 def test_series_load_of_two_capacitors_and_stray():
-    # CL = C1*C2/(C1+C2) + Cstray (handbook formula; e.g. 18 pF + 18 pF with 3 pF stray = 12 pF).
+    # CL = C1*C2/(C1+C2) + Cstray (series capacitors plus stray; common practice; e.g. 18 pF + 18 pF with 3 pF stray = 12 pF).
     assert series_load(18 * pF, 18 * pF, 3 * pF) == 12 * pF
     assert series_load(22 * pF, 33 * pF, 2 * pF) == Fraction(66, 5) * pF + 2 * pF
 
 
 # Worked examples (our own numbers), checked two independent ways:
-#   first-order handbook form  D = C1 / (2 (C0 + CL))  (load resonance frequency offset, IEC 60122-1; from memory)
+#   first-order form  D = C1 / (2 (C0 + CL))  (load resonance frequency offset, IEC 60122-1; from memory)
 #   numerical root of the Butterworth-Van Dyke model with scipy.optimize.brentq.
 WORKED = [
     # c1, c0, specified, actual
@@ -72,7 +72,7 @@ def test_pulling_matches_bvd_root_and_first_order_form(c1, c0, specified, actual
 
 
 def test_load_offset_worked_example():
-    # C1 = 20 fF, C0 = 5 pF, CL = 20 pF: C1/(2(C0+CL)) = 20e-15 / 50e-12 = 400 ppm (handbook form);
+    # C1 = 20 fF, C0 = 5 pF, CL = 20 pF: C1/(2(C0+CL)) = 20e-15 / 50e-12 = 400 ppm (first-order form);
     # the exact BVD value is slightly lower.
     offset = load_resonance_offset(20 * fF, 5 * pF, 20 * pF)
     assert offset == pytest.approx(400e-6, rel=1e-3)

@@ -118,9 +118,10 @@ def test_a_stability_band_gives_its_edges_and_no_curve():
 
 
 def test_a_spread_outside_the_allowance_widens_the_envelope_by_the_sweep():
+    # The spread is made by the loop (on the PLL), so it reaches out0 and the consumer "near" on it.
     text = TWO_CHAINS.replace(
         "outputs.out0 = { divider = [1, 256] }",
-        'outputs.out0 = { divider = [1, 256], spread = { mode = "center", depth = "0.5 %", rate = "31.5 kHz" } }',
+        'outputs.out0 = { divider = [1, 256] }\nspread = { mode = "center", depth = "0.5 %", rate = "31.5 kHz" }',
     ).replace('ppm = "±300 ppm"', 'standard = "PCIe Gen3 reference"')
     near = _analysis(text).consumer("near").accuracy
     # PCI Express allows down-spread only (standards table); a ±0.25 % centre-spread counts as error.
@@ -179,9 +180,11 @@ def test_sampled_errors_follow_the_uniform_tolerance():
     errors, budget, _ = accuracy.monte_carlo_errors()
     assert len(errors) == 40_000 and budget == (-10e-6, 10e-6)
     assert errors.min() >= -20e-6 and errors.max() <= 20e-6
-    # Uniform on ±a: mean 0, standard deviation a / sqrt(3) (handbook); the mean within 4 standard errors.
-    assert abs(errors.mean()) < 4 * (20e-6 / np.sqrt(3)) / np.sqrt(len(errors))
-    assert errors.std() == pytest.approx(20e-6 / np.sqrt(3), rel=0.02)
+    # Uniform on ±a: mean 0 and the standard deviation scipy.stats.uniform gives (a / sqrt(3));
+    # the mean within 4 standard errors.
+    reference = stats.uniform(loc=-20e-6, scale=40e-6)
+    assert abs(errors.mean()) < 4 * reference.std() / np.sqrt(len(errors))
+    assert errors.std() == pytest.approx(reference.std(), rel=0.02)
     assert stats.kstest(errors, stats.uniform(loc=-20e-6, scale=40e-6).cdf).pvalue > 1e-3
     # The histogram's share inside the budget is the yield counted on the same boards (analytic 1/2).
     inside = np.mean((errors >= budget[0]) & (errors <= budget[1]))
@@ -240,6 +243,7 @@ def test_plots_command_draws_the_ppm_curve_and_the_histogram(tmp_path, capsys):
 
 def test_explain_shows_the_assumed_figures_note(capsys):
     text = TWO_CHAINS.replace('tolerance = "±20 ppm"\n', "")  # no figures: the XO's typical grade is assumed
+    text = text.replace('temperature = ["-40 C", "85 C"]', 'temperature = ["-40 C", "85 C"]\nlifetime = "10 years"')
     near = _analysis(text).consumer("near").accuracy
     assert any("Typical grade figures, assumed" in n for n in near.notes)
     headroom, margin_text = near.budget_margin()

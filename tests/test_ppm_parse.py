@@ -32,6 +32,7 @@ name = "ref_oven"
 kind = "ocxo"
 tolerance = "±0.3 ppm"
 stability = "±10 ppb"
+stability_range = "-40..85 °C"
 aging = { first_year = "±0.3 ppm", law = "log", time_constant = "2 days" }
 trim = "±10 Hz"
 power = { supply = "12 V", warmup_current = "0.7 A", steady = "2 W", warmup_time = "5 min" }
@@ -60,7 +61,7 @@ def test_full_reference_tables_read_exactly():
 
     oven_spec = parse_oscillator_spec(oven, "reference[1]", frequency=Fraction(10_000_000))
     assert oven_spec.trim == (-PPM, PPM)
-    assert oven_spec.temperature == StabilityBand(Fraction(-1, 10**8), Fraction(1, 10**8))
+    assert oven_spec.temperature == StabilityBand(Fraction(-1, 10**8), Fraction(1, 10**8), (-40.0, 85.0))
     assert isinstance(oven_spec.aging, AgingLog) and oven_spec.aging.time_constant_s == 2 * 86400
     assert oven_spec.power.warmup_w == Fraction(42, 5) and oven_spec.power.warmup_s == 300
 

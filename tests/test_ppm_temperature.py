@@ -104,7 +104,7 @@ def test_worst_case_is_not_limited_to_a_grid():
 
 def test_tuning_fork_parabola_at_minus_40_c():
     # -0.034 ppm/°C² over 25 °C to -40 °C gives about -144 ppm: -0.034 * 65² = -143.65 ppm
-    # (tuning-fork crystal parabola, common practice; figure stated in the issue).
+    # (tuning-fork crystal parabola; common practice, figure from memory).
     fork = TuningForkCurve()
     value = float(fork.fractional_error(np.array([-40.0]))[0])
     assert value * 1e6 == pytest.approx(-0.034 * 65**2, rel=1e-12)

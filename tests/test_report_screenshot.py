@@ -1,7 +1,8 @@
 """The HTML report opens in headless Chromium and makes a real picture.
 
-Skipped cleanly where no Chromium-family browser is installed (CI machines may
-have none); ``bench/report_screenshots.py`` takes the same pictures by hand.
+The picture tests skip where no Chromium-family browser is installed (``.ci/run``
+installs one where the system's package manager can); the error paths need no
+browser and always run. ``bench/report_screenshots.py`` takes the same pictures by hand.
 The PNG is checked against the PNG specification with the standard library.
 """
 
@@ -16,9 +17,10 @@ from clockplan.report.screenshot import find_browser, screenshot_html
 
 from .test_report_plots import png_facts
 
-pytestmark = pytest.mark.skipif(find_browser() is None, reason="no Chromium-family browser installed")
+needs_browser = pytest.mark.skipif(find_browser() is None, reason="no Chromium-family browser installed")
 
 
+@needs_browser
 @pytest.mark.parametrize("board", ["boards/video-converter.toml", "boards/sampling-receiver.toml"])
 def test_html_report_screenshot(board, tmp_path):
     page = tmp_path / "report.html"
@@ -33,3 +35,15 @@ def test_missing_page_is_an_error_not_a_blank_picture(tmp_path):
     with pytest.raises(ClockplanError, match="does not exist"):
         screenshot_html(tmp_path / "absent.html", tmp_path / "absent.png")
     assert not (tmp_path / "absent.png").exists()
+
+
+def test_no_browser_is_an_error_with_the_install_hint(tmp_path, monkeypatch):
+    import clockplan.report.screenshot as screenshot
+
+    page = tmp_path / "report.html"
+    atomic_write_text(page, "<html><body>clock tree</body></html>")
+    monkeypatch.setattr(screenshot, "find_browser", lambda: None)
+    with pytest.raises(ClockplanError, match="no Chromium-family browser") as err:
+        screenshot.screenshot_html(page, tmp_path / "report.png")
+    assert "apt-get install chromium" in err.value.hint
+    assert not (tmp_path / "report.png").exists()

@@ -24,7 +24,7 @@ BOARDS = Path(__file__).resolve().parents[1] / "boards"
 OLD = b"old bytes the user keeps\n"
 # A small consumer list that synthesizes in well under a second (see tests/test_synth_cli.py).
 SMALL_LIST = (
-    '[board]\nname = "robust writes"\ntemperature = ["0 C", "50 C"]\n'
+    '[board]\nname = "robust writes"\ntemperature = ["0 C", "50 C"]\nlifetime = "5 years"\n'
     '[synthesis]\nreference_frequencies = ["25 MHz"]\nallow = ["xo", "tcxo", "int-synth-4", "fanout-2", "divider"]\n'
     '[[consumer]]\nid = "phy"\nfrequency = "125 MHz"\nstandard = "1000BASE-X"\n'
     '[[consumer]]\nid = "ssd"\nfrequency = "100 MHz"\nstandard = "PCIe Gen3"\n'

@@ -56,7 +56,7 @@ def test_no_standard_and_no_fields_means_no_budget():
 
 
 def test_inline_can_bit_timing():
-    # Bosch's worked example again, written in a board.
+    # Hartwich and Bassemir's worked example (iCC 1999) again, written in a board.
     table = {"can": {"prop_seg": 1, "phase_seg1": 4, "phase_seg2": 4, "sjw": 4}}
     budget = resolve_budget(None, table, "consumer[0]")
     assert budget.ppm == (-F(1, 63), F(1, 63)) == (-can_oscillator_tolerance(1, 4, 4, 4), can_oscillator_tolerance(1, 4, 4, 4))

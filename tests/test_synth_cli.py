@@ -32,7 +32,7 @@ def test_demo_is_synthesized_and_the_written_board_is_accepted_unchanged(tmp_pat
 
 def _write_list(tmp_path, body: str, name: str = "list.toml"):
     path = tmp_path / name
-    path.write_text('[board]\nname = "cli test"\ntemperature = ["0 C", "50 C"]\n' + body, encoding="utf-8")
+    path.write_text('[board]\nname = "cli test"\ntemperature = ["0 C", "50 C"]\nlifetime = "5 years"\n' + body, encoding="utf-8")
     return path
 
 

@@ -50,7 +50,7 @@ def test_grade_templates_take_the_grade_tables_figures():
 @pytest.mark.parametrize("hz", [Fraction(50_000_000), Fraction(10_000_000), Fraction(12_288_000)])
 def test_phase_noise_scales_by_20_log_n(hz):
     # A clock N times faster from the same resonator technology: phase noise up by 20 log10 N
-    # (the frequency-multiplication rule of phase-noise handbooks).
+    # (the 20 log N rule, common practice).
     template = default_library().oscillator("xo")
     base = template.phase_noise_points(template.phase_noise_at)
     scaled = template.phase_noise_points(hz)

@@ -143,7 +143,7 @@ def test_every_proposed_tree_passes_plan_and_audit_unchanged(picks):
 def test_a_fixed_reference_is_the_root_of_every_tree():
     # CTA-861 pixel clocks from the board's own 27 MHz oscillator: 148.5 MHz = 27 MHz x 55 / 10.
     text = (
-        '[board]\nname = "fixed"\n[synthesis]\nallow = ["int-synth-2", "int-synth-4", "fanout-2", "divider"]\n'
+        '[board]\nname = "fixed"\ntemperature = ["0 C", "50 C"]\nlifetime = "5 years"\n[synthesis]\nallow = ["int-synth-2", "int-synth-4", "fanout-2", "divider"]\n'
         '[[reference]]\nid = "main"\nfrequency = "27 MHz"\nkind = "tcxo"\n'
         '[[consumer]]\nid = "pix"\nfrequency = "148.5 MHz"\nstandard = "CTA-861"\n'
         '[[consumer]]\nid = "half"\nfrequency = "74.25 MHz"\nstandard = "CTA-861"\n'

@@ -54,6 +54,7 @@ __all__ = [
     "modulator_density",
     "add_buffer",
     "add_noise",
+    "add_tones",
     "combine",
 ]
 
@@ -475,6 +476,34 @@ def add_noise(chain: NoiseChain, name: str, density: object) -> NoiseChain:
             hint="give the linear L(f) at each offset of the chain's grid",
         )
     return _with_contributor(chain, name, values)
+
+
+def add_tones(chain: NoiseChain, name: str, offsets_hz: object, power: object) -> NoiseChain:
+    """Add discrete phase-modulation lines already referred to this clock, as contributor ``name``.
+
+    ``power`` is each line's single-sideband power as a ratio (phase variance
+    ``2 * power``), e.g. a spread's harmonics (:func:`clockplan.jitter.spread.spread_tones`).
+    Later operations treat them as spurs: a divider lowers them, a PLL filters them.
+
+    Examples
+    --------
+    >>> grid = log_grid(1e3, 1e6, 5)
+    >>> chain = source_chain("ref", PhaseNoiseProfile.flat(-200), 1e8, grid)
+    >>> tones = add_tones(chain, "spread", [3e4], [1e-6])
+    >>> round(tones.jitter(1e4, 1e5).rms_seconds * 1e12, 3)  # sqrt(2e-6) / (2 pi 1e8)
+    2.251
+    """
+    offsets = np.atleast_1d(np.asarray(offsets_hz, dtype=float))
+    powers = np.atleast_1d(np.asarray(power, dtype=float))
+    if offsets.shape != powers.shape or not (np.all(np.isfinite(offsets)) and np.all(offsets > 0)) or not (
+        np.all(np.isfinite(powers)) and np.all(powers >= 0)
+    ):
+        raise ClockplanError(
+            f"tones {name!r} need as many positive finite offsets as finite powers of zero or above",
+            key="tones",
+            hint="give the offsets in Hz and each line's power as a ratio",
+        )
+    return _with_contributor(chain, name, np.zeros(chain.offsets_hz.size), offsets, powers)
 
 
 def combine(*chains: NoiseChain) -> NoiseChain:

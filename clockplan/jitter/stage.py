@@ -10,6 +10,10 @@ consumer whose chain has the noise data (:mod:`clockplan.jitter.tree`):
 - **budget**: the RMS limit of the budget, or its peak-to-peak limit read as
   Gaussian at a bit error ratio of 1e-12 (:meth:`StandardBudget.jitter_rms_limit_s`);
   a consumer without one still gets its jitter, with no verdict;
+- **spread**: a spread the consumer inherits counts with its time deviation in
+  the band (:mod:`clockplan.jitter.spread`), unless the consumer's spread
+  allowance covers it (its standard's jitter limit is defined with that spread
+  on); a note says which;
 - the :class:`~clockplan.jitter.consumer.ConsumerJitter` goes on
   ``ConsumerResult.jitter``.
 
@@ -18,6 +22,10 @@ Findings:
 ``jitter-budget`` (error, on the consumer)
     the RMS jitter exceeds the budget; names the dominant contributor and
     what would lower it.
+``jitter-spread`` (error, on the consumer)
+    the rest of the jitter cannot be computed, but the time deviation of a
+    spread it inherits (and its allowance does not cover) already breaks the
+    budget by itself; names the spreading part.
 ``jitter-data`` (info, on the part lacking data)
     jitter not computed (no reference phase noise, no PLL loop) for consumers
     that have a budget, or computed without a part's own noise (a PLL without
@@ -30,13 +38,19 @@ standard decide.
 from __future__ import annotations
 
 import dataclasses
+import math
 from fractions import Fraction
 from typing import TYPE_CHECKING, Any
+
+import numpy as np
 
 from clockplan.findings import Finding, Severity
 from clockplan.jitter.chain import log_grid
 from clockplan.jitter.consumer import ConsumerJitter, format_band
+from clockplan.jitter.result import JitterResult
+from clockplan.jitter.spread import SQUARE_WAVE_FACTOR
 from clockplan.jitter.tree import BoardNoise, MissingNoiseData, NodeNoise
+from clockplan.spreading import SpreadSource, spread_allowance, spreads_on_chain
 from clockplan.standards.model import gaussian_pp_per_rms
 from clockplan.units import format_time
 
@@ -60,6 +74,7 @@ KIND_TEXT = {
     "output floor": "PLL output noise floor",
     "divider floor": "divider noise floor",
     "buffer": "buffer additive jitter",
+    "spread": "spread-spectrum time deviation",
 }
 
 #: What lowers each kind of contributor (for the ``jitter-budget`` finding).
@@ -72,6 +87,10 @@ FIXES = {
     "output floor": "an output stage with a lower noise floor (a flat floor counts over the whole band)",
     "divider floor": "a divider with a lower additive noise floor",
     "buffer": "a buffer with less additive jitter, or fewer buffer stages",
+    "spread": (
+        "feed this consumer from a clock that does not spread (another PLL, or an output that spreads alone), "
+        "or turn the spread off; a narrow-loop PLL after the spread would attenuate it"
+    ),
 }
 
 
@@ -168,10 +187,78 @@ def _data_findings(
     return findings
 
 
-def _consumer_jitter(noise: NodeNoise, plan: BandPlan) -> ConsumerJitter:
+def _spread_of(analysis: "Analysis", graph: Any, result: Any) -> tuple[SpreadSource | None, bool]:
+    """The spread a consumer inherits, and whether its budget's spread allowance covers it."""
+    sources = spreads_on_chain(analysis.board, graph, result.chain)
+    if not sources:
+        return None, False
+    from clockplan.ppm.spread import spread_fits
+
+    allowance = spread_allowance(analysis.board.part(result.id).budget)
+    return sources[0], allowance is not None and spread_fits(sources[0].spread, allowance)[0]
+
+
+def _spread_note(source: SpreadSource, covered: bool, seconds: float) -> str:
+    """What the jitter figure does with an inherited spread."""
+    if covered:
+        return (
+            f"The {source.describe} is inside this consumer's spread allowance: its standard defines the jitter "
+            f"limit with that spread on (the measurement removes the modulation), so its time deviation "
+            f"({format_time(seconds)} RMS in the band) is not counted."
+        )
+    return (
+        f"The {source.describe} counts: {format_time(seconds)} RMS of time deviation in the band "
+        f"(triangular profile assumed; one that dwells at its extremes has up to {SQUARE_WAVE_FACTOR:.2f}x more)."
+    )
+
+
+def _without(result: JitterResult, names: set[str]) -> JitterResult:
+    """``result`` without the contributors ``names`` (the rest add in root-sum-square)."""
+    kept = tuple(row for row in result.contributions if row[0] not in names)
+    total = math.sqrt(sum(seconds * seconds for _, seconds in kept))
+    return dataclasses.replace(result, rms_seconds=total, contributions=kept)
+
+
+def _consumer_jitter(noise: NodeNoise, plan: BandPlan, source: SpreadSource | None = None, covered: bool = False) -> ConsumerJitter:
     result = noise.chain.jitter(*plan.band_hz, budget_seconds=plan.budget_s)
-    notes = plan.notes + tuple(dict.fromkeys(f"{text}." for _, text in noise.unmodelled))
+    notes = plan.notes
+    spread_names = {name for name, (kind, _) in noise.kinds.items() if kind == "spread"}
+    if source is not None and spread_names:
+        seconds = math.sqrt(sum(s * s for name, s in result.contributions if name in spread_names))
+        notes += (_spread_note(source, covered, seconds),)
+        if covered:
+            result = _without(result, spread_names)
+    notes += tuple(dict.fromkeys(f"{text}." for _, text in noise.unmodelled))
     return ConsumerJitter(result, noise.chain, noise.kinds, plan.source, notes)
+
+
+def _spread_alone(board: Any, source: SpreadSource, plan: BandPlan) -> float | None:
+    """RMS time deviation of a spread in a band, through the loops of the PLLs after it; None if one is unknown.
+
+    Used where the rest of the jitter cannot be computed: a loop given only as a
+    ``loop_filter`` (or not at all) gives no figure, so no claim is made.
+    """
+    from clockplan.jitter.spread import triangle_harmonics
+
+    spread = source.spread
+    offsets, rms = triangle_harmonics(float(spread.depth), float(spread.modulation_hz), plan.band_hz[1])
+    gain = np.ones(offsets.size)
+    for pll_id in source.through:
+        loop = board.part(pll_id).loop
+        if loop is None:
+            return None
+        gain = gain * loop.closed_loop_power(offsets)
+    in_band = offsets >= plan.band_hz[0]
+    return float(math.sqrt(float(np.sum((rms**2 * gain)[in_band]))))
+
+
+def _spread_alone_finding(consumer_id: str, source: SpreadSource, plan: BandPlan, seconds: float) -> Finding:
+    return Finding(
+        Severity.ERROR, "jitter-spread", consumer_id,
+        f"the {source.describe} alone puts {format_time(seconds)} RMS of time deviation in "
+        f"{format_band(plan.band_hz)}, over the {format_time(plan.budget_s)} jitter budget (the rest of the "
+        f"jitter is not computed); to fix: {FIXES['spread']}",
+    )
 
 
 def jitter_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysis":
@@ -198,13 +285,17 @@ def jitter_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysis"
     for result in analysis.consumers:
         plan = plans[result.id]
         noise = model.at(result.id)
+        source, covered = _spread_of(analysis, graph, result)
         if isinstance(noise, MissingNoiseData):
             if not noise.unset and plan is not None and plan.budget_s is not None:
                 missing.setdefault(noise.part, (noise, []))[1].append(result.id)
+                alone = None if source is None or covered else _spread_alone(board, source, plan)
+                if alone is not None and alone > plan.budget_s:
+                    findings.append(_spread_alone_finding(result.id, source, plan, alone))
             continue
         if plan is None:
             continue
-        jitter = _consumer_jitter(noise, plan)
+        jitter = _consumer_jitter(noise, plan, source, covered)
         analysis = analysis.with_consumer(dataclasses.replace(result, jitter=jitter))
         for part, text in noise.unmodelled:
             unmodelled.setdefault(part, (text, []))[1].append(result.id)

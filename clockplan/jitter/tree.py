@@ -12,7 +12,11 @@ and carries the noise down, one operation per part
   resistors' thermal noise (at the board's hottest temperature);
 - a PLL output divides by its divider and adds the PLL's ``output_floor``;
 - a plain divider divides and adds its ``additive_noise``;
-- a fanout buffer adds its ``additive_jitter`` in root-sum-square.
+- a fanout buffer adds its ``additive_jitter`` in root-sum-square;
+- a spread (on a PLL, or on an output that spreads alone) adds its triangular
+  time deviation as lines at the odd harmonics of its rate
+  (:mod:`clockplan.jitter.spread`), which dividers and buffers pass and a PLL
+  further down filters by its closed-loop response, like any spur.
 
 The loop comes from the PLL's ``loop`` (bandwidth and damping or phase
 margin, or open-loop polynomials) or from its ``loop_filter``, designed (or
@@ -35,7 +39,7 @@ import numpy as np
 
 from clockplan.errors import BoardError, ClockplanError
 from clockplan.frequency import Frequencies, PllOperatingPoint
-from clockplan.jitter.chain import NoiseChain, add_buffer, add_noise, divide, pll as pll_noise, source_chain
+from clockplan.jitter.chain import NoiseChain, add_buffer, add_noise, add_tones, divide, pll as pll_noise, source_chain
 from clockplan.jitter.loop import LoopResponse, loop_from_open_loop
 from clockplan.parts import Board, Buffer, Divider, Pll, PllOutput, Reference
 
@@ -56,6 +60,7 @@ CONTRIBUTOR_KINDS = (
     "output floor",
     "divider floor",
     "buffer",
+    "spread",
 )
 
 # Contributor-name suffixes that chain.pll gives, and their kinds.
@@ -185,7 +190,8 @@ class BoardNoise:
         if isinstance(loop, MissingNoiseData):
             return loop
         noise = part.noise if part.noise is not None else PllNoise()
-        fractional = point.setting.n.denominator != 1
+        # A fractional-N loop that spreads runs its modulator even at a whole N: it sweeps N.
+        fractional = point.setting.n.denominator != 1 or (part.spread is not None and part.mode == "fractional")
         chain = pll_noise(
             upstream.chain,
             point.vco_hz / point.input_hz,
@@ -205,7 +211,19 @@ class BoardNoise:
         result = NodeNoise(chain, kinds, upstream.unmodelled + (((part.id, missing),) if missing else ()))
         if part.id in self.loop_filters:
             result = result.then(self._filter_noise(part.id, chain), "loop filter", part.id)
-        return result
+        return self._with_spread(result, part.spread, part.id)
+
+    def _with_spread(self, noise: NodeNoise, spread: Any, part: str) -> NodeNoise:
+        """``noise`` with the time deviation of a spread made here, as lines at its harmonics."""
+        if spread is None or spread.modulation_hz is None or spread.depth == 0:
+            return noise
+        from clockplan.jitter.spread import spread_tones
+
+        chain = noise.chain
+        offsets, power = spread_tones(
+            float(spread.depth), float(spread.modulation_hz), chain.carrier_hz, float(self.offsets_hz[-1])
+        )
+        return noise.then(add_tones(chain, f"{part} spread", offsets, power), "spread", part)
 
     def _loop(self, part: Pll, point: PllOperatingPoint) -> LoopResponse | MissingNoiseData:
         if part.loop is not None:
@@ -249,7 +267,7 @@ class BoardNoise:
         ratio = self.frequencies.plls[pll_id].setting.dividers[part.name]
         floor = owner.noise.output_floor_dbc_hz if owner.noise is not None else None
         chain = divide(upstream.chain, ratio, floor_dbc_hz=floor, name=f"{node} output")
-        return upstream.then(chain, "output floor", node)
+        return self._with_spread(upstream.then(chain, "output floor", node), part.spread, node)
 
     def _buffer(self, part: Buffer, upstream: NodeNoise) -> NodeNoise:
         additive: Any = part.additive_jitter

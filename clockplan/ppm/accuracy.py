@@ -250,6 +250,12 @@ def consumer_accuracy(
     rss_margin, rss_side = _margin(rss_low, rss_high, budget)
     temperature = next(t for t in terms if t.name == "temperature")
     notes = [PLANNING_NOTE]
+    rated = getattr(reference.temperature, "rated_c", None)
+    if rated is not None and not (rated[0] <= temperature_range[0] and temperature_range[1] <= rated[1]):
+        notes.append(
+            f"The stability band is rated over {rated[0]:g}..{rated[1]:g} °C only, not over "
+            f"{temperature_range[0]:g}..{temperature_range[1]:g} °C: outside its rated range the band says nothing."
+        )
     if reference.runs_hot:
         notes.append(OVEN_NOTE)
         if reference.power is not None:

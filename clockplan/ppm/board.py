@@ -4,13 +4,18 @@ Every PLL and divider locked to a reference passes the reference's error
 through unchanged and adds its own exact synthesis error, so a consumer's
 chain reduces to three things: the reference at its root, the exact
 synthesis error of the whole chain (``actual / target - 1``, computed by the
-exact audit), and the spread of any spreading PLL output on the way.
+exact audit), and the spread the chain inherits (made by a PLL on the way,
+which reaches every output of it, or by an output that spreads alone:
+:mod:`clockplan.spreading`). A PLL further down passes the whole sweep.
 Consumers on different references get their own chains.
 
 A reference without accuracy keys gets the typical figures of its kind's
 grade (``clockplan/data/oscillator_grades.toml``) where the kind has one
 (``rc``, ``crystal``, ``xo``, ``tcxo``, ``ocxo``), always marked as assumed;
-a ``vcxo`` or ``mems`` without figures is not checked.
+a ``vcxo`` or ``mems`` without figures is not checked. Figures whose
+stability band is not rated over the board's temperature range (the
+board's or the typical grade's) are not used either: the band says nothing
+outside its rated range (basis ``unrated-band``; the stage reports it).
 """
 
 from __future__ import annotations
@@ -26,8 +31,10 @@ from clockplan.ppm.display import format_limits
 from clockplan.ppm.grades import Grade
 from clockplan.ppm.montecarlo import ConsumerChain
 from clockplan.ppm.oscillator import OscillatorSpec
-from clockplan.ppm.results import BASIS_BOARD, BASIS_NONE, BASIS_TYPICAL
-from clockplan.ppm.spread import SpreadAllowance, SpreadSpectrum
+from clockplan.ppm.results import BASIS_BOARD, BASIS_NONE, BASIS_TYPICAL, BASIS_UNRATED
+from clockplan.ppm.spread import SpreadSpectrum
+from clockplan.ppm.temperature import NO_TEMPERATURE_MODEL, StabilityBand
+from clockplan.spreading import SpreadSource, spread_allowance, spreads_on_chain
 
 if TYPE_CHECKING:
     from clockplan.analysis import Analysis
@@ -38,6 +45,7 @@ __all__ = [
     "TYPICAL_GRADE",
     "GRADE_RANK",
     "consumer_budget",
+    "band_rated_over",
     "ReferenceModel",
     "reference_models",
     "ConsumerLink",
@@ -49,22 +57,6 @@ __all__ = [
 TYPICAL_GRADE = {"rc": "rc", "crystal": "xo", "xo": "xo", "tcxo": "tcxo", "ocxo": "ocxo"}
 #: Where each kind sits on the grade ladder (on-chip RC < crystal/XO < TCXO < OCXO).
 GRADE_RANK = {"rc": 0, "crystal": 1, "xo": 1, "vcxo": 1, "mems": 1, "tcxo": 2, "ocxo": 3}
-
-
-def _allowance(spread: tuple[Fraction, Fraction], rate: tuple[Fraction, Fraction] | None) -> SpreadAllowance | None:
-    """A standard's allowed sweep ``(min, max)`` as a mode and depth.
-
-    An asymmetric sweep that crosses zero (not a shape any standard we know
-    uses) is read as the largest centre-spread inside it: never more than allowed.
-    """
-    low, high = spread
-    if low == high == 0:
-        return None
-    if high == 0:
-        return SpreadAllowance("down", -low, rate)
-    if low == 0:
-        return SpreadAllowance("up", high, rate)
-    return SpreadAllowance("center", 2 * min(-low, high), rate)
 
 
 def consumer_budget(budget: "StandardBudget | None") -> ConsumerBudget | None:
@@ -79,8 +71,7 @@ def consumer_budget(budget: "StandardBudget | None") -> ConsumerBudget | None:
     """
     if budget is None or budget.ppm is None:
         return None
-    allowance = _allowance(budget.spread, budget.spread_rate_hz) if budget.spread is not None else None
-    return ConsumerBudget(budget.ppm, allowance)
+    return ConsumerBudget(budget.ppm, spread_allowance(budget))
 
 
 def _budget_source(budget: "StandardBudget") -> str:
@@ -90,15 +81,37 @@ def _budget_source(budget: "StandardBudget") -> str:
     return derived or "board file"
 
 
+def band_rated_over(spec: OscillatorSpec, temperature_c: tuple[float, float]) -> bool:
+    """False when ``spec``'s stability band is not rated over ``temperature_c`` (a curve, or no data: True).
+
+    Examples
+    --------
+    >>> from clockplan.units import parse_ppm
+    >>> band = StabilityBand(*parse_ppm("±1 ppm"), rated_c=(0.0, 70.0))
+    >>> spec = OscillatorSpec("tcxo", parse_ppm("±2 ppm"), band)
+    >>> band_rated_over(spec, (0.0, 70.0)), band_rated_over(spec, (-40.0, 85.0))
+    (True, False)
+    """
+    band = spec.temperature
+    if not isinstance(band, StabilityBand) or band == NO_TEMPERATURE_MODEL:
+        return True
+    return band.rated_over(*temperature_c)
+
+
 @dataclass(frozen=True)
 class ReferenceModel:
-    """A board reference with the accuracy figures the stage uses and where they come from."""
+    """A board reference with the accuracy figures the stage uses and where they come from.
+
+    ``unrated`` holds the figures that were not used (basis ``unrated-band``):
+    their stability band is not rated over the board's temperature range.
+    """
 
     reference: "Reference"
     index: int
     spec: OscillatorSpec | None
     basis: str
     grade: Grade | None = None
+    unrated: OscillatorSpec | None = None
 
 
 def _key(board: "Board", index: int, name: str) -> tuple[str, int | None]:
@@ -108,6 +121,9 @@ def _key(board: "Board", index: int, name: str) -> tuple[str, int | None]:
 
 def reference_models(board: "Board", grades: Sequence[Grade]) -> tuple[ReferenceModel, ...]:
     """Each reference's figures: the board's, else its kind's typical grade, else none.
+
+    Figures whose stability band is not rated over the board's temperature
+    range are kept aside (``unrated``), with the basis ``unrated-band`` and no ``spec``.
 
     Raises
     ------
@@ -123,12 +139,27 @@ def reference_models(board: "Board", grades: Sequence[Grade]) -> tuple[Reference
             try:
                 spec.temperature.extremes(*board.temperature_c)
             except BoardError as err:
+                if "temperature" in board.unstated:
+                    from clockplan.ppm.conditions import TEMPERATURE_HINT
+
+                    # The table is not wrong: the board never said where it runs (the 25 °C stand-in).
+                    raise BoardError(
+                        f"reference {reference.id!r} has a temperature table, but the board states no operating "
+                        "temperature", file=board.source_file, key="board.temperature",
+                        line=board.lines.get("board"), hint=TEMPERATURE_HINT,
+                    ) from None
                 key, line = _key(board, index, "temperature_curve")
                 raise err.located(file=board.source_file, key=key, line=line) from None
-            models.append(ReferenceModel(reference, index, spec, BASIS_BOARD))
+            if band_rated_over(spec, board.temperature_c):
+                models.append(ReferenceModel(reference, index, spec, BASIS_BOARD))
+            else:
+                models.append(ReferenceModel(reference, index, None, BASIS_UNRATED, unrated=spec))
         elif reference.kind in TYPICAL_GRADE and TYPICAL_GRADE[reference.kind] in by_name:
             grade = by_name[TYPICAL_GRADE[reference.kind]]
-            models.append(ReferenceModel(reference, index, grade.spec, BASIS_TYPICAL, grade))
+            if band_rated_over(grade.spec, board.temperature_c):
+                models.append(ReferenceModel(reference, index, grade.spec, BASIS_TYPICAL, grade))
+            else:
+                models.append(ReferenceModel(reference, index, None, BASIS_UNRATED, grade, unrated=grade.spec))
         else:
             models.append(ReferenceModel(reference, index, None, BASIS_NONE))
     return tuple(models)
@@ -140,8 +171,8 @@ class ConsumerLink:
 
     ``synthesis_error`` is ``None`` when a setting upstream is missing;
     ``budget`` is ``None`` when the consumer sets no frequency tolerance.
-    ``extra_spreads`` names spreading outputs further up the chain than the
-    one used (only the nearest is modelled).
+    ``spread_source`` says where the inherited ``spread`` is made (a board
+    holds at most one spread per clock path, :func:`clockplan.spreading.check_spreads`).
     """
 
     id: str
@@ -150,18 +181,7 @@ class ConsumerLink:
     spread: SpreadSpectrum | None
     budget: ConsumerBudget | None
     budget_source: str
-    extra_spreads: tuple[str, ...] = ()
-
-
-def _spreads(analysis: "Analysis", chain: Sequence[str]) -> list[tuple[str, SpreadSpectrum]]:
-    """Spreading outputs on a chain, nearest to the consumer first."""
-    graph = analysis.graph
-    found = []
-    for node in reversed(chain):
-        attributes = graph.nodes[node]
-        if attributes["role"] == "pll_output" and attributes["part"].spread is not None:
-            found.append((node, attributes["part"].spread))
-    return found
+    spread_source: SpreadSource | None = None
 
 
 def consumer_links(analysis: "Analysis") -> tuple[ConsumerLink, ...]:
@@ -188,16 +208,16 @@ def consumer_links(analysis: "Analysis") -> tuple[ConsumerLink, ...]:
                 line=board.lines.get(key) or board.lines.get(f"consumer[{index}]"),
                 hint="a budget is an error range around nominal, e.g. '±100 ppm' or '-50..+30 ppm'",
             ) from None
-        spreads = _spreads(analysis, result.chain)
+        spreads = spreads_on_chain(board, analysis.graph, result.chain)
         links.append(
             ConsumerLink(
                 id=result.id,
                 reference=result.chain[0],
                 synthesis_error=result.synthesis_error,
-                spread=spreads[0][1] if spreads else None,
+                spread=spreads[0].spread if spreads else None,
                 budget=budget,
                 budget_source=_budget_source(consumer.budget) if budget is not None else "",
-                extra_spreads=tuple(node for node, _ in spreads[1:]),
+                spread_source=spreads[0] if spreads else None,
             )
         )
     return tuple(links)

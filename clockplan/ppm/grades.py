@@ -21,6 +21,7 @@ from clockplan.ppm.display import format_limits
 from clockplan.ppm.montecarlo import ConsumerChain
 from clockplan.ppm.oscillator import OscillatorSpec
 from clockplan.ppm.parse import parse_oscillator_spec
+from clockplan.ppm.temperature import StabilityBand
 from clockplan.units import format_quantity, format_time
 
 __all__ = ["DEFAULT_MARGIN", "Grade", "GradeAdvice", "load_grades", "advise_grade"]
@@ -44,7 +45,7 @@ class Grade:
         band = spec.temperature
         parts = [
             f"{self.label}: tolerance {format_limits(spec.initial)}",
-            f"stability {format_limits((band.lo, band.hi))}" if hasattr(band, "lo") else "curve",
+            _band_text(band) if isinstance(band, StabilityBand) else "curve",
         ]
         if spec.power is not None:
             power = spec.power
@@ -57,6 +58,13 @@ class Grade:
                 parts.append(f"power {format_quantity(power.steady_w, 'W', 3)}")
             parts.append(f"warm-up {_duration_text(power.warmup_s)}")
         return ", ".join(parts)
+
+
+def _band_text(band: StabilityBand) -> str:
+    text = f"stability {format_limits((band.lo, band.hi))}"
+    if band.rated_c is not None:
+        text += f" over {band.rated_c[0]:g}..{band.rated_c[1]:g} °C"
+    return text
 
 
 def _duration_text(seconds: float) -> str:
@@ -100,6 +108,12 @@ class GradeAdvice:
         return "\n".join(self.lines)
 
 
+def _rated_over(spec: OscillatorSpec, temperature_range: tuple[float, float]) -> bool:
+    """A grade's figures hold over the range: its band is rated over it (a curve always is)."""
+    band = spec.temperature
+    return not isinstance(band, StabilityBand) or band.rated_c is None or band.rated_over(*temperature_range)
+
+
 def _fits(results: Sequence[AccuracyResult], margin: Fraction) -> bool:
     return all(r.passes and r.margin >= margin * r.budget.half_width for r in results)
 
@@ -141,6 +155,9 @@ def advise_grade(
     downstream = [c for c in consumers if c.reference == reference]
     tried: list[tuple[str, bool]] = []
     for grade in grades:
+        if not _rated_over(grade.spec, temperature_range):
+            tried.append((grade.name, False))  # its typical band says nothing over this range
+            continue
         results = tuple(
             consumer_accuracy(grade.spec, c.synthesis_error, c.spread, temperature_range, lifetime_s, c.budget)
             for c in downstream
@@ -149,9 +166,15 @@ def advise_grade(
         tried.append((grade.name, fits))
         if fits:
             return GradeAdvice(reference, grade, results, tuple(tried), _advice_lines(grade, downstream, margin))
+    unrated = [grade.label for grade in grades if not _rated_over(grade.spec, temperature_range)]
     lines = (
         f"No grade up to {grades[-1].label if grades else 'any'} keeps every consumer inside its budget "
         f"with {float(margin):.0%} margin: look at the synthesis errors, spread settings and budgets.",
+        *(
+            [f"Not tried over {temperature_range[0]:g}..{temperature_range[1]:g} °C (their typical bands are "
+             f"rated over a narrower range): {', '.join(unrated)}."]
+            if unrated else []
+        ),
         PLANNING_NOTE,
     )
     return GradeAdvice(reference, None, (), tuple(tried), lines)

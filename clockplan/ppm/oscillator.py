@@ -13,7 +13,7 @@ from fractions import Fraction
 from clockplan.errors import BoardError
 from clockplan.ppm.aging import NO_AGING, AgingModel
 from clockplan.ppm.crystal_load import CrystalLoad
-from clockplan.ppm.temperature import StabilityBand, TemperatureModel
+from clockplan.ppm.temperature import NO_TEMPERATURE_MODEL, StabilityBand, TemperatureModel
 
 __all__ = [
     "OSCILLATOR_KINDS",
@@ -87,14 +87,14 @@ class OscillatorSpec:
     Examples
     --------
     >>> from clockplan.units import parse_ppm
-    >>> xo = OscillatorSpec("xo", parse_ppm("±20 ppm"), StabilityBand(*parse_ppm("±25 ppm")))
+    >>> xo = OscillatorSpec("xo", parse_ppm("±20 ppm"), StabilityBand(*parse_ppm("±25 ppm"), rated_c=(-40.0, 85.0)))
     >>> xo.kind
     'xo'
     """
 
     kind: str
     initial: tuple[Fraction, Fraction]
-    temperature: TemperatureModel = StabilityBand(Fraction(0), Fraction(0))
+    temperature: TemperatureModel = NO_TEMPERATURE_MODEL
     aging: AgingModel = NO_AGING
     supply_sensitivity: tuple[Fraction, Fraction] = _ZERO_RANGE
     load_sensitivity: tuple[Fraction, Fraction] = _ZERO_RANGE

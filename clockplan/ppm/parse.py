@@ -19,6 +19,7 @@ from clockplan.ppm.crystal_load import CrystalLoad
 from clockplan.ppm.oscillator import DISTRIBUTIONS, OSCILLATOR_KINDS, OscillatorPower, OscillatorSpec, trim_range
 from clockplan.ppm.spread import SpreadAllowance, SpreadSpectrum
 from clockplan.ppm.temperature import (
+    NO_TEMPERATURE_MODEL,
     AtCutCurve,
     PointTable,
     StabilityBand,
@@ -37,6 +38,7 @@ from clockplan.units import (
 
 __all__ = [
     "REFERENCE_KEYS",
+    "STABILITY_RANGE_HINT",
     "parse_oscillator_spec",
     "parse_temperature_model",
     "parse_aging",
@@ -52,7 +54,7 @@ T = TypeVar("T")
 #: Keys of a reference table read here; the board loader owns the others
 #: (``name``, ``frequency``, ...) and passes them through.
 REFERENCE_KEYS = (
-    "kind", "tolerance", "stability", "temperature_curve", "aging", "load",
+    "kind", "tolerance", "stability", "stability_range", "temperature_curve", "aging", "load",
     "supply_sensitivity", "load_sensitivity", "distribution", "trim", "power",
 )
 
@@ -108,13 +110,25 @@ def _magnitude(value: Any, key: str) -> Fraction:
     return high if low == -high else high - low
 
 
+#: What the error for a band without its rated range tells the user to add (docs/board-format.md).
+STABILITY_RANGE_HINT = (
+    'add stability_range = "-40..85 C" beside it, with the temperature range the datasheet rates this band over '
+    "(board files written before stability_range: copy the range from the datasheet line that gives the band; "
+    "docs/board-format.md, 'Stability bands')"
+)
+
+
 def parse_temperature_model(table: dict, key: str) -> TemperatureModel:
-    """Read ``stability`` (a band) or ``temperature_curve`` of a reference table.
+    """Read ``stability`` with its ``stability_range``, or ``temperature_curve``, of a reference table.
+
+    A band must state the temperature range it is rated over: a figure such
+    as ``±0.5 ppm`` says nothing about where it holds.
 
     Examples
     --------
-    >>> parse_temperature_model({"stability": "±0.5 ppm"}, "reference[0]").hi
-    Fraction(1, 2000000)
+    >>> band = parse_temperature_model({"stability": "±0.5 ppm", "stability_range": "-40..85 C"}, "reference[0]")
+    >>> band.hi, band.rated_c
+    (Fraction(1, 2000000), (-40.0, 85.0))
     >>> parse_temperature_model({"temperature_curve": {"model": "tuning-fork"}}, "reference[0]").coefficient
     -3.4e-08
     """
@@ -124,10 +138,25 @@ def parse_temperature_model(table: dict, key: str) -> TemperatureModel:
             key=f"{key}.temperature_curve",
             hint="a reference has a stability band or a temperature curve, not both",
         )
+    if "stability_range" in table and "stability" not in table:
+        raise BoardError(
+            "'stability_range' without a 'stability' band",
+            key=f"{key}.stability_range",
+            hint="stability_range is the temperature range a stability band is rated over: give the band "
+            "(e.g. stability = '±0.5 ppm'), or remove stability_range",
+        )
     if "stability" in table:
-        return StabilityBand(*_read(parse_ppm, table["stability"], f"{key}.stability"))
+        low, high = _read(parse_ppm, table["stability"], f"{key}.stability")
+        if "stability_range" not in table:
+            raise BoardError(
+                f"the stability band {table['stability']!r} does not say over which temperatures it holds",
+                key=f"{key}.stability",
+                hint=STABILITY_RANGE_HINT,
+            )
+        rated = parse_temperature_range(table["stability_range"], f"{key}.stability_range")
+        return StabilityBand(low, high, rated)
     if "temperature_curve" not in table:
-        return StabilityBand(Fraction(0), Fraction(0))
+        return NO_TEMPERATURE_MODEL
     where = f"{key}.temperature_curve"
     curve = _table(table["temperature_curve"], where, '{ model = "at-cut", angle_offset_arcmin = 4 }')
     model = _require(curve, "model", where, "model is 'at-cut', 'tuning-fork' or 'points'")
@@ -294,6 +323,7 @@ def parse_oscillator_spec(table: dict, key: str, frequency: Fraction | None = No
     Examples
     --------
     >>> spec = parse_oscillator_spec({"kind": "tcxo", "tolerance": "±1 ppm", "stability": "±0.5 ppm",
+    ...                               "stability_range": "-40..85 C",
     ...                               "aging": {"first_year": "±1 ppm", "per_year": "±0.5 ppm"}}, "reference[0]")
     >>> spec.kind, spec.initial[1]
     ('tcxo', Fraction(1, 1000000))

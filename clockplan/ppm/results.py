@@ -32,6 +32,7 @@ __all__ = [
     "BASIS_BOARD",
     "BASIS_TYPICAL",
     "BASIS_NONE",
+    "BASIS_UNRATED",
     "ppm_number",
     "CURVE_POINTS",
     "TemperatureCurve",
@@ -46,6 +47,8 @@ __all__ = [
 BASIS_BOARD = "board"
 BASIS_TYPICAL = "typical-grade"
 BASIS_NONE = "none"
+#: Figures exist, but their stability band is not rated over the board's temperature range: not used.
+BASIS_UNRATED = "unrated-band"
 
 Number = Fraction | float
 _PPM = 10**6
@@ -174,6 +177,8 @@ class ConsumerAccuracy:
     yield_fraction: float | None = None
     yield_standard_error: float | None = None
     spec: OscillatorSpec | None = field(default=None, compare=False, repr=False)
+    spread_source: str | None = None
+    spread_key: str | None = None
     sampled_reference_errors: "np.ndarray | None" = field(default=None, compare=False, repr=False)
 
     @property
@@ -322,7 +327,8 @@ class ConsumerAccuracy:
                 rows.append(("spread", f"{self.result.spread_note}: the carrier is checked"))
             else:
                 sweep = self.spread.extremes[0] if low_side else self.spread.extremes[1]
-                rows.append((f"spread sweep ({self.result.spread_note})", sweep))
+                made = f" made by {self.spread_source}" if self.spread_source else ""
+                rows.append((f"spread sweep{made} ({self.result.spread_note})", sweep))
                 linear += sweep
         cross = self.result.worst_case - linear
         if cross != 0:
@@ -379,6 +385,8 @@ class ConsumerAccuracy:
             "mode": self.spread.mode,
             "depth_ppm": ppm_number(self.spread.depth),
             "rate_hz": None if rate is None else (rate.numerator if rate.denominator == 1 else float(rate)),
+            "source": self.spread_source,
+            "key": self.spread_key,
             "within_allowance": self.result.spread_ok,
             "note": self.result.spread_note,
         }
@@ -413,6 +421,7 @@ def _grade_json(grade: Grade, fits: bool | None) -> dict[str, Any]:
         "fits": fits,
         "tolerance_ppm": [ppm_number(spec.initial[0]), ppm_number(spec.initial[1])],
         "stability_ppm": [ppm_number(band.lo), ppm_number(band.hi)] if hasattr(band, "lo") else None,
+        "stability_range_c": list(band.rated_c) if getattr(band, "rated_c", None) is not None else None,
         "power": _power_json(spec.power),
         "summary": grade.summary(),
     }
@@ -531,7 +540,8 @@ class ReferenceAdvices:
             rows.append((
                 ref.id,
                 ref.kind,
-                {BASIS_BOARD: "board", BASIS_TYPICAL: "typical (assumed)", BASIS_NONE: "none"}[ref.basis],
+                {BASIS_BOARD: "board", BASIS_TYPICAL: "typical (assumed)", BASIS_NONE: "none",
+                 BASIS_UNRATED: "band not rated over the board's range"}[ref.basis],
                 ref.verdict + (f"; re-plan {', '.join(ref.unreachable)}" if ref.unreachable and ref.advice else ""),
                 grade.label if grade is not None else "-",
                 grade.summary().split(": ", 1)[-1] if grade is not None else "-",

@@ -32,21 +32,27 @@ from clockplan.ppm.board import (
     consumer_links,
     reference_models,
 )
+from clockplan.ppm.conditions import condition_findings, require_conditions
 from clockplan.ppm.display import format_error, format_limits
 from clockplan.ppm.grades import DEFAULT_MARGIN, Grade, advise_grade, load_grades
 from clockplan.ppm.montecarlo import ConsumerChain, monte_carlo_yield
 from clockplan.ppm.oscillator import OscillatorSpec
 from clockplan.ppm.results import (
+    BASIS_NONE,
     BASIS_TYPICAL,
+    BASIS_UNRATED,
     ConsumerAccuracy,
     MonteCarloSummary,
     ReferenceAdvice,
     ReferenceAdvices,
 )
 from clockplan.ppm.temperature import StabilityBand
+from clockplan.spreading import spread_allowance
 
 if TYPE_CHECKING:
     from clockplan.analysis import Analysis, AnalysisOptions
+    from clockplan.parts import Board
+    from clockplan.standards.model import StandardBudget
 
 __all__ = ["STAGE_NAME", "KEPT_SAMPLES", "accuracy_stage"]
 
@@ -90,6 +96,8 @@ def _accuracy(model: ReferenceModel, link: ConsumerLink, analysis: "Analysis") -
         budget=link.budget,
         budget_source=link.budget_source,
         spread=link.spread,
+        spread_source=link.spread_source.part if link.spread_source else None,
+        spread_key=link.spread_source.key if link.spread_source else None,
         temperature_range=board.temperature_c,
         lifetime_s=board.lifetime_s,
         required_margin=DEFAULT_MARGIN * budget.half_width,
@@ -156,7 +164,9 @@ def _advice(
     advice = advise_grade(0, fixable, board.temperature_c, board.lifetime_s, grades=grades) if fixable else None
     failing = tuple(
         link.id for link in judged
-        if link.id not in unreachable and link.id in accuracies and not accuracies[link.id].passes
+        if link.id not in unreachable and (
+            (link.id in accuracies and not accuracies[link.id].passes) or model.basis == BASIS_UNRATED
+        )
     )
     thin = tuple(link.id for link in judged if link.id in accuracies and accuracies[link.id].thin)
     oven = None
@@ -215,12 +225,28 @@ def _room_text(accuracy: ConsumerAccuracy) -> str:
 
 def _cure(link: ConsumerLink, accuracy: ConsumerAccuracy, advice: ReferenceAdvice) -> str:
     if link.id in advice.unreachable:
-        cause = "its synthesis error" if accuracy.result.checked == "carrier" else "its synthesis error and spread"
+        synthesis = format_error(accuracy.result.synthesis_error)
+        if accuracy.result.checked == "carrier" or link.spread_source is None:
+            return f"no reference can fix it: its synthesis error alone ({synthesis}) leaves no margin in the budget; re-plan the chain"
+        source = link.spread_source
+        alone = _synthesis_alone_fits(link, accuracy)
+        cause = (
+            f"the {source.describe} breaks it, not the synthesis error ({synthesis})" if alone
+            else f"its synthesis error ({synthesis}) and the {source.describe} leave no margin"
+        )
         return (
-            f"no reference can fix it: {cause} alone ({format_error(accuracy.result.synthesis_error)}) "
-            "leaves no margin in the budget; re-plan the chain"
+            f"no reference can fix it: {cause}, since no spread allowance of this consumer covers it; "
+            f"turn the spread of {source.part} off or bring it inside the consumer's allowance, or feed "
+            f"{link.id} from a clock that does not spread" + ("" if alone else ", and re-plan the chain")
         )
     return "fix: " + _advice_text(advice)
+
+
+def _synthesis_alone_fits(link: ConsumerLink, accuracy: ConsumerAccuracy) -> bool:
+    """Whether the chain's synthesis error alone, on a perfect reference and without the spread, keeps the margin."""
+    ideal = OscillatorSpec(accuracy.spec.kind if accuracy.spec is not None else "xo", (Fraction(0), Fraction(0)))
+    budget = link.budget or _NO_BUDGET
+    return _fits(consumer_accuracy(ideal, link.synthesis_error, None, accuracy.temperature_range, accuracy.lifetime_s, budget))
 
 
 def _consumer_findings(link: ConsumerLink, accuracy: ConsumerAccuracy, advice: ReferenceAdvice) -> list[Finding]:
@@ -231,6 +257,8 @@ def _consumer_findings(link: ConsumerLink, accuracy: ConsumerAccuracy, advice: R
         return [Finding(Severity.INFO, "ppm-no-budget", link.id, message)]
     budget = f"the {format_limits(link.budget.tolerance)} budget ({link.budget_source})"
     spread = f" (the spread counts as error: {r.spread_note})" if r.spread_ok is False else ""
+    if r.spread_ok is False and link.spread_source is not None:
+        spread = f" (the {link.spread_source.describe} counts as error: {r.spread_note})"
     if not r.passes and not r.rss_passes:
         message = (
             f"{worst} breaks {budget}{spread}; statistical (RSS) {format_error(r.rss)}"
@@ -263,7 +291,7 @@ def _reference_findings(model: ReferenceModel, advice: ReferenceAdvice, links: S
             f"{datasheet_keys}"
         )
         findings.append(Finding(Severity.INFO, "ppm-assumed", ref.id, message))
-    elif model.spec is None:
+    elif model.basis == BASIS_NONE:
         message = (
             f"no accuracy data for reference {ref.id} (and no typical grade for kind '{ref.kind}'): the frequency "
             f"error of {', '.join(advice.consumers) or 'its consumers'} is not checked; {datasheet_keys}"
@@ -292,12 +320,46 @@ def _skipped(link: ConsumerLink) -> Finding:
     )
 
 
-def _spread_note(link: ConsumerLink) -> Finding:
+def _spread_not_allowed(link: ConsumerLink, budget: "StandardBudget") -> Finding | None:
+    """A consumer whose standard allows no spread inherits one: an error that names the spreading part."""
+    source = link.spread_source
+    if source is None or budget is None or budget.key == "inline" or spread_allowance(budget) is not None:
+        return None  # a budget of the board's own (no standard): the sweep counts as frequency error
     return Finding(
-        Severity.INFO, "ppm-spread", link.id,
-        f"more than one spreading output on its chain ({', '.join(link.extra_spreads)} further up): "
-        "only the one nearest to the consumer is modelled",
+        Severity.ERROR, "spread-not-allowed", link.id,
+        f"{budget.title} allows no spread, but this clock inherits the {source.describe} "
+        f"({source.key}; a spread made by modulating a loop reaches every output of that PLL and every clock "
+        f"downstream); fix: feed {link.id} from a clock that does not spread (another PLL, or an output that "
+        f"spreads alone: independent_spread), or turn the spread of {source.part} off",
     )
+
+
+def _through_pll(link: ConsumerLink, board: "Board") -> Finding | None:
+    """A spread that reaches the consumer through PLLs: its sweep is passed whole; say what that leaves out."""
+    source = link.spread_source
+    if source is None or not source.through or source.spread.modulation_hz is None:
+        return None
+    rate = float(source.spread.modulation_hz)
+    gains, unknown = [], []
+    for pll_id in source.through:
+        loop = board.part(pll_id).loop
+        if loop is None:
+            unknown.append(pll_id)
+        else:
+            gains.append((pll_id, float(loop.closed_loop_power([rate])[0]) ** 0.5))
+    peaking = [(pll_id, gain) for pll_id, gain in gains if gain > 1]
+    parts = ", ".join(source.through)
+    message = (
+        f"the {source.describe} reaches this clock through {parts}; its whole sweep is counted "
+        "(a loop narrower than the rate would attenuate it)"
+    )
+    if peaking:
+        shown = ", ".join(f"{pll_id} |H| = {gain:.3f}" for pll_id, gain in peaking)
+        message += f", but the loop response at the rate enlarges it ({shown}), which is not added"
+    if unknown:
+        message += f"; the loop response of {', '.join(unknown)} at the rate is not known, so its peaking is not added"
+    severity = Severity.WARNING if peaking or unknown else Severity.INFO
+    return Finding(severity, "spread-through-pll", link.id, message)
 
 
 # --------------------------------------------------------------------------- the stage
@@ -333,11 +395,13 @@ def accuracy_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysi
     models = reference_models(analysis.board, grades)
     by_id = {m.reference.id: m for m in models}
     links = consumer_links(analysis)
+    require_conditions(analysis.board, models, links)
     findings: list[Finding] = []
     accuracies: dict[str, ConsumerAccuracy] = {}
     for link in links:
-        if link.extra_spreads:
-            findings.append(_spread_note(link))
+        for finding in (_spread_not_allowed(link, analysis.board.part(link.id).budget), _through_pll(link, analysis.board)):
+            if finding is not None:
+                findings.append(finding)
         if by_id[link.reference].spec is None:
             continue
         if link.synthesis_error is None:
@@ -351,6 +415,7 @@ def accuracy_stage(analysis: "Analysis", options: "AnalysisOptions") -> "Analysi
         if link.id in accuracies:
             findings += _consumer_findings(link, accuracies[link.id], advices[link.reference])
     for model in models:
+        findings += condition_findings(model, analysis.board, links)
         findings += _reference_findings(model, advices[model.reference.id], links)
     consumers = tuple(
         dataclasses.replace(c, accuracy=accuracies[c.id]) if c.id in accuracies else c for c in analysis.consumers

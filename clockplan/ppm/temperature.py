@@ -9,7 +9,8 @@ is specified):
 * :class:`TuningForkCurve` -- the parabola of a tuning-fork (kHz) crystal;
 * :class:`PointTable` -- measured or datasheet points, linearly interpolated;
 * :class:`StabilityBand` -- a plain ``lo..hi`` band, as TCXO, OCXO, MEMS and
-  on-chip RC datasheets state it.
+  on-chip RC datasheets state it, with the temperature range it is rated
+  over (``rated_c``).
 
 How the band enters the analysis
 --------------------------------
@@ -21,6 +22,12 @@ planning assumption, neither the datasheet's guarantee nor its typical curve.
 The curve models are deterministic functions of temperature; the Monte Carlo
 evaluates them at each board's temperature, shared by every reference on the
 board.
+
+A band holds only over the temperature range its datasheet rates it over
+(``rated_c``); outside that range the figure is unknown, not the same.
+:meth:`StabilityBand.rated_over` says whether a board's range lies inside
+it; the accuracy stage refuses to judge a consumer on a band that does not
+cover the board's range (``docs/frequency-accuracy.md``).
 """
 
 from __future__ import annotations
@@ -41,6 +48,7 @@ __all__ = [
     "TUNING_FORK_COEFFICIENT",
     "TemperatureExtremes",
     "StabilityBand",
+    "NO_TEMPERATURE_MODEL",
     "AtCutCurve",
     "TuningForkCurve",
     "PointTable",
@@ -52,7 +60,7 @@ REFERENCE_TEMPERATURE_C = 25.0
 
 # AT-cut coefficients about 25 °C (Bechmann 1956, Proc. IRE 44; the
 # higher-order values of Bechmann, Ballato & Lukaszek 1962, Proc. IRE 50,
-# as reproduced in the frequency-control handbooks). Values quoted from memory
+# as reproduced in later frequency-control literature). Values quoted from memory
 # and marked so in the tests that check them.
 #: First-order coefficient per minute of arc of cut-angle offset, 1/°C.
 AT_CUT_LINEAR_PER_ARCMIN = -5.15e-6 / 60.0
@@ -110,22 +118,48 @@ def _polynomial_extremes(coeffs: tuple[float, ...], origin: float, t_lo: float, 
 
 @dataclass(frozen=True)
 class StabilityBand:
-    """Frequency stays inside ``lo..hi`` (fractional) over the rated range.
+    """Frequency stays inside ``lo..hi`` (fractional) over the rated range ``rated_c``.
+
+    ``rated_c`` is the ``(min, max)`` temperature range in °C the datasheet
+    rates the band over; ``None`` when it is not stated (only the zero band
+    :data:`NO_TEMPERATURE_MODEL` that stands for "no temperature data", and
+    bands built by hand in Python). The band says nothing outside its rated
+    range: :meth:`rated_over` tells whether a board's range is inside it.
 
     Examples
     --------
     >>> from clockplan.units import parse_ppm
-    >>> band = StabilityBand(*parse_ppm("±0.5 ppm"))
+    >>> band = StabilityBand(*parse_ppm("±0.5 ppm"), rated_c=(-40.0, 85.0))
     >>> band.extremes(-40, 85).high
     Fraction(1, 2000000)
+    >>> band.rated_over(-40, 85), band.rated_over(-55, 85)
+    (True, False)
     """
 
     lo: Fraction
     hi: Fraction
+    rated_c: tuple[float, float] | None = None
 
     def __post_init__(self) -> None:
         if self.lo > self.hi:
             raise BoardError(f"stability band {self.lo}..{self.hi} has min above max", hint="write it as min..max")
+        if self.rated_c is not None:
+            low, high = self.rated_c
+            if not (math.isfinite(low) and math.isfinite(high)) or low > high:
+                raise BoardError(
+                    f"rated range {low}..{high} °C of a stability band is not a range",
+                    hint='write the range the datasheet rates the band over as min..max, e.g. "-40..85 C"',
+                )
+
+    def rated_over(self, t_lo: float, t_hi: float) -> bool:
+        """True when ``t_lo..t_hi`` lies inside the rated range (its ends included).
+
+        False when the band states no rated range: where it holds is then unknown.
+        """
+        _check_range(t_lo, t_hi)
+        if self.rated_c is None:
+            return False
+        return self.rated_c[0] <= t_lo and t_hi <= self.rated_c[1]
 
     def fractional_error(self, temps_c: np.ndarray) -> np.ndarray:
         """Not a function of temperature: NaN everywhere, so no curve is invented.
@@ -136,13 +170,22 @@ class StabilityBand:
         return np.full(np.shape(temps_c), np.nan)
 
     def extremes(self, t_lo: float, t_hi: float) -> TemperatureExtremes:
-        """Band edges; no temperature is attached to them."""
+        """Band edges; no temperature is attached to them.
+
+        The edges are returned whatever the range: whether the band is rated
+        over it is :meth:`rated_over`'s question, asked by the stage.
+        """
         _check_range(t_lo, t_hi)
         return TemperatureExtremes(self.lo, None, self.hi, None)
 
     def sample(self, temps_c: np.ndarray, rng: np.random.Generator) -> np.ndarray:
         """Uniform draw inside the band, one per board (see module notes)."""
         return rng.uniform(float(self.lo), float(self.hi), size=np.shape(temps_c))
+
+
+#: The zero band a reference gets when its file gives neither ``stability``
+#: nor ``temperature_curve``: no temperature term at all (the stage warns).
+NO_TEMPERATURE_MODEL = StabilityBand(Fraction(0), Fraction(0))
 
 
 @dataclass(frozen=True)

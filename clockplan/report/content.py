@@ -59,7 +59,6 @@ STATUS_WORDS = ("PASS", "warn", "FAIL")
 #: What the summary says when no consumer has a margin to show.
 NO_MARGINS = "none to show (every target is exact and no ppm or jitter budget is set)"
 
-_SECONDS_PER_YEAR = 365.25 * 86400
 
 
 @dataclass(frozen=True)
@@ -421,10 +420,9 @@ def tree_text(analysis: Analysis) -> str:
 
 
 def _conditions(analysis: Analysis) -> str:
-    cold, hot = analysis.board.temperature_c
-    years = analysis.board.lifetime_s / _SECONDS_PER_YEAR
-    life = f", {years:.3g} year(s) of aging" if years else ""
-    return f"{cold:g} °C to {hot:g} °C{life}"
+    from clockplan.ppm.conditions import conditions_text
+
+    return conditions_text(analysis.board)
 
 
 def summarize(analysis: Analysis) -> Summary:

@@ -10,13 +10,15 @@ from __future__ import annotations
 from clockplan.analysis import Analysis
 from clockplan.errors import ClockplanError
 
-__all__ = ["FORMATS", "render_report", "format_for_path"]
+__all__ = ["FORMATS", "DIAGRAM_FORMATS", "render_report", "format_for_path", "output_format"]
 
 #: The values of ``--format``.
 FORMATS = ("table", "json", "markdown", "csv", "html")
+#: The formats an ``--output`` suffix may ask for besides the reports: the tree diagram.
+DIAGRAM_FORMATS = ("dot", "svg")
 
 _SUFFIXES = {".json": "json", ".md": "markdown", ".markdown": "markdown", ".csv": "csv", ".html": "html",
-             ".htm": "html", ".txt": "table"}
+             ".htm": "html", ".txt": "table", ".dot": "dot", ".gv": "dot", ".svg": "svg"}
 
 
 def format_for_path(path: str) -> str | None:
@@ -31,6 +33,36 @@ def format_for_path(path: str) -> str | None:
         if path.lower().endswith(suffix):
             return name
     return None
+
+
+def output_format(path: str) -> str:
+    """The format a report's ``--output`` file name asks for; an unknown or missing suffix is an error.
+
+    A report written under a name that says something else (``review.svg`` holding text) would
+    mislead whoever opens it, so only the suffixes of :data:`FORMATS` and :data:`DIAGRAM_FORMATS`
+    are accepted without ``--format``.
+
+    Raises
+    ------
+    ClockplanError
+        The suffix names no format clockplan writes.
+
+    Examples
+    --------
+    >>> output_format("review.svg")
+    'svg'
+    """
+    fmt = format_for_path(path)
+    if fmt is not None:
+        return fmt
+    name = path.replace("\\", "/").rsplit("/", 1)[-1]
+    suffix = "." + name.rsplit(".", 1)[1] if "." in name.strip(".") else ""
+    what = f"clockplan writes no {suffix!r} file" if suffix else "the file name has no suffix to tell the format"
+    raise ClockplanError(
+        f"--output {path}: {what}",
+        hint="name it .txt .md .csv .html or .json for a report, .dot or .svg for the tree diagram, "
+        "or give --format (table, json, markdown, csv, html)",
+    )
 
 
 def render_report(analysis: Analysis, fmt: str, command: str = "audit", width: int = 100) -> str:

@@ -104,7 +104,13 @@ def analysis_document(analysis: Analysis, command: str = "audit") -> dict[str, A
     doc: dict[str, Any] = {
         "schema": SCHEMA_VERSION,
         "command": command,
-        "board": {"name": board.name, "file": board.source_file},
+        "board": {
+            "name": board.name,
+            "file": board.source_file,
+            "temperature_c": list(board.temperature_c),
+            "lifetime_s": board.lifetime_s,
+            "assumed_conditions": list(board.unstated),
+        },
         "verdict": "fail" if analysis.has_errors else "pass",
         "consumers": [_consumer(c, _status(analysis, c.id), _chain_status(analysis, c.id)) for c in analysis.consumers],
         "plls": _plls(analysis),

@@ -46,16 +46,18 @@ def screenshot_html(html_path: str | Path, png_path: str | Path, width: int = 12
     >>> screenshot_html("report.html", "report.png")  # doctest: +SKIP
     PosixPath('report.png')
     """
+    if not Path(html_path).is_file():
+        raise ClockplanError(f"no page to show: {html_path} does not exist", hint="write the HTML report first")
     program = browser or find_browser()
     if program is None:
         raise ClockplanError("no Chromium-family browser is installed", hint=_INSTALL_HINT)
-    if not Path(html_path).is_file():
-        raise ClockplanError(f"no page to show: {html_path} does not exist", hint="write the HTML report first")
     png_path = Path(png_path).resolve()
     png_path.unlink(missing_ok=True)
     with tempfile.TemporaryDirectory(prefix="clockplan-chromium-") as profile:
         command = [
             program, "--headless", "--no-sandbox", "--disable-gpu", "--hide-scrollbars", "--no-first-run",
+            # No network at all: the report must need nothing from outside, and a closed network must not stall it.
+            "--disable-background-networking", "--disable-component-update", "--disable-sync", "--disable-quic",
             f"--user-data-dir={profile}", "--host-resolver-rules=MAP * ~NOTFOUND",
             f"--window-size={width},{height}", f"--screenshot={png_path}", Path(html_path).resolve().as_uri(),
         ]

@@ -3,7 +3,8 @@
 * UART: how far the two ends' baud rates may differ, from the frame length and
   the receiver's oversampling, and the exact baud error a divider leaves.
 * CAN: the oscillator tolerance a bit timing allows (the two conditions of
-  Bosch's paper on CAN bit timing configuration).
+  F. Hartwich and A. Bassemir, "The Configuration of the CAN Bit Timing",
+  6th International CAN Conference, 1999; segments of ISO 11898-1).
 * RTC: the frequency error allowed by a timekeeping target.
 * Data converters: the RMS clock jitter allowed by a target SNR at an input
   frequency, and the SNR a jitter gives.

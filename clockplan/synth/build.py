@@ -18,6 +18,7 @@ from dataclasses import dataclass, field
 from fractions import Fraction
 from typing import Any
 
+from clockplan.boardfile import unstated_conditions
 from clockplan.parts import Board
 from clockplan.synth.layout import Fan
 from clockplan.synth.library import TYPICAL_NOTE, BufferTemplate, DividerTemplate, OscillatorTemplate, PllTemplate
@@ -270,6 +271,7 @@ def parts_board(problem: Problem, parts: TreeParts, name: str | None = None) -> 
         name=name or spec.name,
         temperature_c=spec.temperature_c,
         lifetime_s=spec.lifetime_s,
+        unstated=unstated_conditions(spec.raw_board),
         references=tuple(references),
         plls=tuple(plls),
         dividers=tuple(dividers),

@@ -18,7 +18,7 @@ from typing import Any
 from clockplan.synth.evaluate import Check
 from clockplan.synth.grouping import Candidate, LeafJudge
 from clockplan.synth.library import PllTemplate
-from clockplan.synth.tree import Block, DirectClass, MainReference, Tree
+from clockplan.synth.tree import Block, DirectClass, MainReference, Problem, Tree
 from clockplan.units import format_frequency
 
 __all__ = ["Reason", "Explanation", "explain"]
@@ -283,7 +283,7 @@ def _serve_alone(judge: LeafJudge, cls: int) -> tuple[set[Fraction | None], str]
     for hz, references in judge.references.items():
         fitting = [r for r in references if problem.fits(r, cls)]
         if not fitting:
-            why = f"at {format_frequency(hz)} its ppm budget breaks on every allowed grade ({', '.join(r.name for r in references)}) even with exact synthesis"
+            why = _no_grade_reason(problem, hz, references)
         # Only the dearest grade that fits (usually the most accurate and quietest) is tried, to keep the
         # explanation quick: a clock that fails there may, rarely, pass on another grade.
         for reference in fitting[-1:]:
@@ -325,3 +325,16 @@ def explain(judge: LeafJudge, ranked: Sequence[Candidate], stopped: bool = False
         choices=_choices(judge, best.tree),
         next_tree=_next_tree(best, ranked[1] if len(ranked) > 1 else None),
     )
+
+
+def _no_grade_reason(problem: Problem, hz: Fraction, references: Sequence[Any]) -> str:
+    """Why no allowed oscillator at ``hz`` serves a class: its ppm budget, or bands not rated over the board's range."""
+    low, high = problem.spec.temperature_c
+    unrated = [r.name for r in references if not problem.rated_over_board(r)]
+    rated = [r.name for r in references if r.name not in unrated]
+    parts = []
+    if rated:
+        parts.append(f"its ppm budget breaks on every allowed grade ({', '.join(rated)}) even with exact synthesis")
+    if unrated:
+        parts.append(f"the stability of {', '.join(unrated)} is not rated over the board's {low:g}..{high:g} °C")
+    return f"at {format_frequency(hz)} " + "; ".join(parts)

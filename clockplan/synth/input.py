@@ -19,6 +19,7 @@ from typing import Any
 from clockplan.boardfile import (
     finish_part,
     read_board_section,
+    unstated_conditions,
     read_consumer,
     read_reference,
 )
@@ -34,7 +35,14 @@ from clockplan.tomlread import (
 )
 from clockplan.units import parse_frequency, parse_ratio
 
-__all__ = ["SynthesisSettings", "ConsumerList", "parse_consumer_list", "load_consumer_list", "PENDING_SOURCE"]
+__all__ = [
+    "SynthesisSettings",
+    "ConsumerList",
+    "parse_consumer_list",
+    "load_consumer_list",
+    "require_conditions",
+    "PENDING_SOURCE",
+]
 
 _SECTIONS = ("board", "consumer", "reference", "synthesis")
 #: The source a consumer carries until synthesis connects it.
@@ -77,6 +85,7 @@ class ConsumerList:
     fixed_reference: Reference | None = None
     raw_reference: dict[str, Any] | None = None
     source_file: str | None = None
+    board_line: int | None = None
 
 
 def _strings(value: Any) -> tuple[str, ...]:
@@ -194,7 +203,39 @@ def parse_consumer_list(text: str, file: str | None = None) -> ConsumerList:
         fixed_reference=reference,
         raw_reference=raw_reference,
         source_file=file,
+        board_line=ctx.line_of("board"),
     )
+
+
+def require_conditions(spec: ConsumerList) -> None:
+    """Refuse a consumer list with a ppm budget but no ``temperature`` or ``lifetime`` in ``[board]``.
+
+    Synthesis chooses the oscillators, and their figures drift with
+    temperature and age; without the conditions the trees would be judged at
+    25 °C on parts that never age (``docs/synthesis.md``).
+
+    Raises
+    ------
+    BoardError
+        Located at ``board.temperature`` or ``board.lifetime``, naming a consumer whose budget needs it.
+    """
+    from clockplan.ppm.conditions import LIFETIME_HINT, TEMPERATURE_HINT
+
+    judged = [c.id for c in spec.consumers if c.budget is not None and c.budget.ppm is not None]
+    if not judged:
+        return
+    hints = {"temperature": TEMPERATURE_HINT, "lifetime": LIFETIME_HINT}
+    for key in unstated_conditions(spec.raw_board):
+        hint = hints[key] if spec.board_line is not None else hints[key].replace("to [board]", "in a [board] section")
+        raise BoardError(
+            f"the consumer list states no {key}, but {judged[0]!r} has a frequency-error budget and synthesis "
+            f"chooses oscillators whose figures {'drift with temperature' if key == 'temperature' else 'age'}: "
+            f"the trees would be judged {'at 25 °C only' if key == 'temperature' else 'on parts that never age'}",
+            file=spec.source_file,
+            key=f"board.{key}",
+            line=spec.board_line,
+            hint=hint,
+        )
 
 
 def load_consumer_list(path: str | Path) -> ConsumerList:

@@ -70,7 +70,7 @@ TYPICAL_NOTE = (
 
 _SECTIONS = ("oscillator", "pll", "divider", "buffer")
 _ACCURACY_KEYS = (
-    "kind", "tolerance", "stability", "temperature_curve", "aging", "load",
+    "kind", "tolerance", "stability", "stability_range", "temperature_curve", "aging", "load",
     "supply_sensitivity", "load_sensitivity", "distribution", "trim", "power",
 )
 #: Keys of a PLL template that are the board file's own [[pll]] keys, written as they are.

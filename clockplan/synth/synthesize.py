@@ -28,7 +28,7 @@ from clockplan.errors import BoardError
 from clockplan.synth.evaluate import Evaluator, Verified, verify_tree
 from clockplan.synth.explain import EXPLAIN_SECONDS, Explanation, explain
 from clockplan.synth.grouping import BranchAndBound, Candidate, LeafJudge, SearchStats, TopTrees, exhaustive_search
-from clockplan.synth.input import ConsumerList
+from clockplan.synth.input import ConsumerList, require_conditions
 from clockplan.synth.library import PartsLibrary, default_library, load_library
 from clockplan.synth.tree import MainReference, Problem
 
@@ -179,6 +179,7 @@ def synthesize(spec: ConsumerList, library: PartsLibrary | None = None, options:
     6
     """
     options = options or SynthesisOptions()
+    require_conditions(spec)
     started = time.monotonic()
     library = library if library is not None else library_for(spec)
     problem = Problem.of(spec, library)

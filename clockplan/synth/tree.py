@@ -235,7 +235,9 @@ class Problem:
         An exact class gets exactly zero synthesis error, so its frequency error is
         the oscillator's alone: the same worst case the accuracy stage computes,
         whatever else shares the tree. A class allowed a synthesis error, or an
-        oscillator without accuracy figures, is not prejudged (True).
+        oscillator without accuracy figures, is not prejudged (True); one whose
+        stability band is not rated over the board's temperature range fails a
+        class with a budget (the audit would not judge it).
         """
         spec = _accuracy_spec(oscillator)
         klass = self.classes[cls]
@@ -246,15 +248,24 @@ class Problem:
             self._fits[key] = self._zero_error_fits(spec, klass)
         return self._fits[key]
 
+    def rated_over_board(self, oscillator: "MainReference | OscillatorTemplate") -> bool:
+        """False when the oscillator's stability band is not rated over the board's temperature range."""
+        from clockplan.ppm.board import band_rated_over
+
+        spec = _accuracy_spec(oscillator)
+        return spec is None or band_rated_over(spec, self.spec.temperature_c)
+
     def _zero_error_fits(self, spec: Any, klass: ConsumerClass) -> bool:
         from clockplan.ppm.accuracy import consumer_accuracy
-        from clockplan.ppm.board import consumer_budget
+        from clockplan.ppm.board import band_rated_over, consumer_budget
 
         consumers = {c.id: c for c in self.spec.consumers}
         for consumer_id in klass.consumers:
             budget = consumer_budget(consumers[consumer_id].budget)
             if budget is None:
                 continue
+            if not band_rated_over(spec, self.spec.temperature_c):
+                return False  # its band says nothing over the board's range: the audit would not judge it
             result = consumer_accuracy(spec, Fraction(0), None, self.spec.temperature_c, self.spec.lifetime_s, budget)
             if not result.passes:
                 return False
