@@ -11,16 +11,17 @@ nothing moves it. Two things do:
   accuracy stage assumes it). A locked loop passes that fractional error
   unchanged to its PFD, VCO and outputs.
 * a **spread-spectrum sweep** that modulates the loop: a down-spread of depth
-  δ moves the VCO (and everything downstream of it) down by up to δ.
-  :func:`vco_sweep` is the one place that reads the spread data of the
-  model, so a change in where the model keeps spread touches only it.
+  δ moves the VCO (and everything downstream of it) down by up to δ; a spread
+  an output makes alone moves that output and what it feeds.
+  :func:`vco_sweep` and :func:`output_sweep` are the one place that reads the
+  spread data of the model.
 
 Every band is a fractional ``(low, high)`` pair with ``low <= 0 <= high``,
 exact (:class:`~fractions.Fraction`). Downstream bands compose
-multiplicatively: ``(1 + a)(1 + b) - 1``. Assumptions (all on the side that
-can only make a check stricter): a spread on any output of a PLL is taken to
-modulate its VCO, and a sweep passes through every downstream loop (a loop
-narrower than the modulation rate would filter it; see docs/planning.md).
+multiplicatively: ``(1 + a)(1 + b) - 1``. Assumption (on the side that can
+only make a check stricter, as the accuracy stage takes it too): a sweep
+passes whole through every downstream loop (a loop narrower than the
+modulation rate would attenuate it; see docs/planning.md).
 """
 
 from __future__ import annotations
@@ -36,7 +37,7 @@ from clockplan.parts import Board, FrequencyRange, Pll, Reference
 if TYPE_CHECKING:
     import networkx as nx
 
-__all__ = ["Band", "PllBand", "ZERO_BAND", "compose_bands", "vco_sweep", "reference_band", "pll_bands", "margined_pll"]
+__all__ = ["Band", "PllBand", "ZERO_BAND", "compose_bands", "vco_sweep", "output_sweep", "reference_band", "pll_bands", "margined_pll"]
 
 Band = tuple[Fraction, Fraction]
 #: No movement at all.
@@ -54,31 +55,37 @@ def compose_bands(a: Band, b: Band) -> Band:
     return a[0] + b[0] + a[0] * b[0], a[1] + b[1] + a[1] * b[1]
 
 
+def _sweep_of(spread: Any) -> Band:
+    if spread is None or not hasattr(spread, "extremes"):
+        return ZERO_BAND
+    low, high = spread.extremes
+    return min(Fraction(low), Fraction(0)), max(Fraction(high), Fraction(0))
+
+
 def vco_sweep(pll: Pll) -> Band:
     """How far a spread sweep moves ``pll``'s VCO: ``(low, high)``, fractional.
 
-    Reads the spread data the model has: a spread on the PLL itself (a
-    ``spread`` attribute with ``extremes``) and a spread on any of its outputs,
-    all taken as a modulation of the loop (the stricter reading: a spread made
-    by a fractional output divider alone would leave the VCO still).
+    The one place that reads where the model keeps spread: a spread made by
+    modulating the loop (``[[pll]] spread``, :mod:`clockplan.spreading`) sweeps
+    the VCO. A spread an output makes alone (``independent_spread``) leaves the
+    VCO still; :func:`output_sweep` gives it.
 
     Examples
     --------
     >>> from clockplan.parts import IntChoices, PllOutput
     >>> from clockplan.ppm.spread import SpreadSpectrum
-    >>> out = PllOutput("pcie", IntChoices(1, 8), SpreadSpectrum("down", Fraction(5, 1000)))
     >>> part = Pll("loop", "osc", FrequencyRange(Fraction(1), Fraction(2)), FrequencyRange(Fraction(1), Fraction(2)),
-    ...            IntChoices(1, 1), Fraction(1), Fraction(2), "integer", (out,))
+    ...            IntChoices(1, 1), Fraction(1), Fraction(2), "integer", (PllOutput("pcie", IntChoices(1, 8)),),
+    ...            spread=SpreadSpectrum("down", Fraction(5, 1000)))
     >>> vco_sweep(part)
     (Fraction(-1, 200), Fraction(0, 1))
     """
-    low, high = Fraction(0), Fraction(0)
-    spreads = [getattr(pll, "spread", None)] + [getattr(out, "spread", None) for out in pll.outputs]
-    for spread in spreads:
-        if spread is not None and hasattr(spread, "extremes"):
-            a, b = spread.extremes
-            low, high = min(low, Fraction(a)), max(high, Fraction(b))
-    return low, high
+    return _sweep_of(getattr(pll, "spread", None))
+
+
+def output_sweep(output: Any) -> Band:
+    """How far a spread an output makes alone moves that output (and what it feeds), fractional."""
+    return _sweep_of(getattr(output, "spread", None))
 
 
 def _exact(value: Any) -> Fraction | None:
@@ -175,8 +182,11 @@ def pll_bands(board: Board, graph: "nx.DiGraph") -> dict[str, PllBand]:
             continue
         upstream = ZERO_BAND
         for node in chain[1:-1]:
-            if graph.nodes[node]["role"] == "pll":
+            role = graph.nodes[node]["role"]
+            if role == "pll":
                 upstream = compose_bands(upstream, vco_sweep(board.part(node)))
+            elif role == "pll_output":
+                upstream = compose_bands(upstream, output_sweep(graph.nodes[node]["part"]))
         ref = references[root.id]
         bands[pll.id] = PllBand(pll.id, root.id, ref.band, ref.basis, upstream, vco_sweep(pll))
     return bands

@@ -42,7 +42,8 @@ pfd = ["10 MHz", "{pfd_hi}"]
 r = [1, 8]
 n = [8, 64]
 mode = "integer"
-outputs.o = {{ divider = [1, 64]{spread} }}
+outputs.o = {{ divider = [1, 64] }}
+{spread}
 {settings}
 
 [[consumer]]
@@ -90,7 +91,7 @@ def test_a_frequency_outside_at_nominal_keeps_its_own_finding_only():
 
 
 def test_a_down_spread_moves_the_vco_down_only():
-    spread = ', spread = { mode = "down", depth = "0.5 %", rate = "31.5 kHz" }'
+    spread = 'spread = { mode = "down", depth = "0.5 %", rate = "31.5 kHz" }'
     # At the top edge a down-spread cannot push it out...
     assert "vco-range-extremes" not in _codes(_board(spread=spread))
     # ...at the bottom edge it does, by 3 GHz x 0.5 % = 15 MHz.
@@ -100,7 +101,7 @@ def test_a_down_spread_moves_the_vco_down_only():
 
 
 def test_the_band_composes_reference_and_spread_exactly():
-    spread = ', spread = { mode = "center", depth = "1 %", rate = "31.5 kHz" }'
+    spread = 'spread = { mode = "center", depth = "1 %", rate = "31.5 kHz" }'
     board = _board(tolerance="±10 ppm", spread=spread)
     band = pll_bands(board, build_graph(board))["p"]
     ref = (Fraction(-10, 10**6), Fraction(10, 10**6))
@@ -148,3 +149,56 @@ def test_a_board_feasible_only_on_a_range_edge_is_explained():
     conflicts = {c.constraint: c.message for c in explain_infeasible(plan).conflicts}
     assert "range-margin" in conflicts
     assert "VCO 3 GHz" in conflicts["range-margin"] and "3 Hz (0.001 ppm) above the top edge 3 GHz" in conflicts["range-margin"]
+
+
+CASCADE = """
+[board]
+name = "alone"
+temperature = ["25 C", "25 C"]
+lifetime = "0 years"
+
+[[reference]]
+id = "ref"
+frequency = "100 MHz"
+kind = "xo"
+tolerance = "±0 ppm"
+
+[[pll]]
+id = "p"
+input = "ref"
+vco = ["2.4 GHz", "3 GHz"]
+pfd = ["10 MHz", "100 MHz"]
+r = [1, 8]
+n = [8, 64]
+mode = "integer"
+outputs.o = { divider = [1, 64], independent_spread = true, spread = { mode = "down", depth = "0.5 %", rate = "31.5 kHz" } }
+outputs.x = { divider = [1, 64] }
+
+[[pll]]
+id = "q"
+input = "p.o"
+vco = ["2.4 GHz", "3 GHz"]
+pfd = ["10 MHz", "100 MHz"]
+r = [1, 8]
+n = [8, 64]
+mode = "integer"
+outputs.y = { divider = [1, 64] }
+
+[[consumer]]
+id = "c"
+source = "q.y"
+frequency = "100 MHz"
+
+[[consumer]]
+id = "d"
+source = "p.x"
+frequency = "100 MHz"
+"""
+
+
+def test_a_spread_an_output_makes_alone_moves_what_it_feeds_not_its_vco():
+    board = parse_board(CASCADE, "alone.toml")
+    bands = pll_bands(board, build_graph(board))
+    zero = (Fraction(0), Fraction(0))
+    assert bands["p"].vco == zero and bands["p"].input == zero
+    assert bands["q"].input == (Fraction(-1, 200), Fraction(0)) and bands["q"].vco == (Fraction(-1, 200), Fraction(0))
