@@ -340,7 +340,15 @@ def _explain_plls(plan: "BoardPlan", explanation: Explanation, missing: set[str]
                     explained |= labels
                     break
             else:
-                code, text = _blocking(pll, problem, budget)
                 involved = tuple(sorted({t.label for s in problem.outputs for t in s.targets}))
-                explanation.conflicts.append(Conflict(involved, code, f"the outputs of {pll_id} together: {text}"))
+                infeasible, bound = _proven_infeasible(problem, budget)
+                if infeasible and bound:
+                    explanation.conflicts.append(_bounded(set(involved), pll, bound))
+                elif infeasible:
+                    code, text = _blocking(pll, problem, budget)
+                    explanation.conflicts.append(Conflict(involved, code, f"the outputs of {pll_id} together: {text}"))
+                else:  # the PLL can serve them at this input: the board search missed it, nothing blocks it
+                    explanation.conflicts.append(Conflict(involved, "search-bound", (
+                        f"{', '.join(sorted(labels))}: {pll_id} can make them from its planned input, but the board "
+                        "search did not reach that setting (its cascade trials are bounded); raise --time-limit")))
                 explained |= labels
