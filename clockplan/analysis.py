@@ -39,12 +39,15 @@ class AnalysisOptions:
 
     ``deadline`` is a ``time.monotonic()`` instant after which a long stage (the
     Monte Carlo) stops early and says so in its result and a finding.
+    ``loop_bandwidth_hz`` is the bandwidth of the in-band spur check for a PLL
+    that states none (None: the default of :mod:`clockplan.plan.spurs`).
     """
 
     samples: int = 0
     seed: int | None = None
     progress: Callable[[float], None] | None = None
     deadline: float | None = None
+    loop_bandwidth_hz: Fraction | None = None
 
 
 @dataclass(frozen=True)
@@ -159,7 +162,7 @@ def analyze(board: Board, settings: Settings | None = None, options: AnalysisOpt
         settings=settings,
         frequencies=freqs,
         consumers=_consumer_results(board, graph, freqs),
-        findings=tuple(check_settings(board, settings, freqs)),
+        findings=tuple(check_settings(board, settings, freqs, options.loop_bandwidth_hz, graph)),
         graph=graph,
     )
     for stage in STAGES:

@@ -82,11 +82,29 @@ def _add_budget_options(parser: argparse.ArgumentParser, time_limit: bool = True
                             "report says how many of the N boards it simulated")
 
 
+def _add_loop_bandwidth_option(parser: argparse.ArgumentParser) -> None:
+    """The in-band spur check's bandwidth: ``audit`` and ``plan`` share it, so they raise the same warnings."""
+    parser.add_argument(
+        "--loop-bandwidth",
+        default=None,
+        metavar="HZ",
+        help="loop bandwidth for the in-band spur flag of PLLs that do not state one (default 200 kHz)",
+    )
+
+
+def _loop_bandwidth(args: argparse.Namespace):
+    from clockplan.units import parse_frequency
+
+    text = getattr(args, "loop_bandwidth", None)
+    return parse_frequency(text) if text is not None else None
+
+
 def _analysis_options(args: argparse.Namespace, progress=None):
     from clockplan.analysis import AnalysisOptions
 
     deadline = args.started + args.time_limit if getattr(args, "time_limit", None) else None
-    return AnalysisOptions(samples=args.samples, seed=args.seed, progress=progress, deadline=deadline)
+    return AnalysisOptions(samples=args.samples, seed=args.seed, progress=progress, deadline=deadline,
+                           loop_bandwidth_hz=_loop_bandwidth(args))
 
 
 def _build_parser() -> argparse.ArgumentParser:
@@ -107,6 +125,7 @@ def _build_parser() -> argparse.ArgumentParser:
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     audit.add_argument("board", help="board file (TOML)")
+    _add_loop_bandwidth_option(audit)
     _add_output_options(audit)
     _add_budget_options(audit)
     audit.set_defaults(run=_run_audit)
@@ -129,12 +148,7 @@ def _build_parser() -> argparse.ArgumentParser:
     plan.add_argument("--time-limit", type=_seconds, default=10.0, metavar="S",
                       help="time budget of the run in seconds (default 10): the search, then the Monte Carlo of "
                       "--samples; a stage that stops at it says so in the report")
-    plan.add_argument(
-        "--loop-bandwidth",
-        default=None,
-        metavar="HZ",
-        help="loop bandwidth for the in-band spur flag of PLLs that do not state one (default 200 kHz)",
-    )
+    _add_loop_bandwidth_option(plan)
     _add_output_options(plan)
     _add_budget_options(plan, time_limit=False)
     plan.set_defaults(run=_run_plan)
@@ -444,14 +458,13 @@ def _run_plan(args: argparse.Namespace) -> int:
     from clockplan.boardfile import load_board
     from clockplan.plan.board_planner import PlanOptions, plan_board
     from clockplan.plan.output import plan_findings
-    from clockplan.units import parse_frequency
 
     if args.write and args.in_place:
         raise ClockplanError("give either --write OUT or --in-place, not both", hint="--in-place writes back into the input file")
     board = load_board(args.board)
     options = PlanOptions(alternatives=args.alternatives, time_limit_s=args.time_limit)
     if args.loop_bandwidth is not None:
-        options = PlanOptions(args.alternatives, args.time_limit, parse_frequency(args.loop_bandwidth))
+        options = PlanOptions(args.alternatives, args.time_limit, _loop_bandwidth(args))
     plan = plan_board(board, options)
     analysis = analyze(board, plan.settings, _analysis_options(args))
     analysis = analysis.with_findings(plan_findings(plan, analysis))

@@ -28,6 +28,10 @@ name = "cascade"
 [[reference]]
 id = "ref"
 frequency = "10 MHz"
+# An ideal reference: no error band, so the planner keeps no margin from the range edges and the
+# exhaustive search below (which knows no margin) stays the reference (docs/planning.md, Ranges).
+kind = "xo"
+tolerance = "±0 ppm"
 
 [[pll]]
 id = "up"

@@ -182,7 +182,7 @@ def test_a_warning_upstream_stays_on_its_part():
 
 def test_settings_table_reads_the_operating_mode():
     # A fractional-capable PLL whose planned N is whole runs as integer-N (no fractional
-    # spurs): the edge-router's serdes synthesizer (100 MHz PFD, N = 25, 2.5 GHz VCO) reads
+    # spurs): the edge-router's serdes synthesizer (83.33 MHz PFD, N = 30, 2.5 GHz VCO) reads
     # int-N, the audio PLL's N = 225792/3125 reads frac-N (fractions module: N is not whole).
     from clockplan.plan.board_planner import plan_board
     from clockplan.report.content import settings_table
@@ -190,6 +190,6 @@ def test_settings_table_reads_the_operating_mode():
     board = load_board("boards/edge-router.toml")
     plan = plan_board(board)
     modes = {row[0]: (row[1], row[3]) for row in settings_table(analyze(board, plan.settings)).rows}
-    assert modes["serdes_synth"] == ("int-N", "25")
+    assert modes["serdes_synth"] == ("int-N", "30")
     assert modes["audio_pll"] == ("frac-N", "225792/3125")
     assert Fraction(225792, 3125).denominator != 1

@@ -33,7 +33,7 @@ from fractions import Fraction
 from typing import TYPE_CHECKING, Any
 
 from clockplan.errors import InfeasibleError
-from clockplan.parts import Board, Buffer, Consumer, Divider, IntChoices, Pll, PllSetting, Settings
+from clockplan.parts import Board, Buffer, Consumer, Divider, IntChoices, Pll, PllSetting, Reference, Settings
 from clockplan.plan.choices import at_or_above, at_or_below, ladder_of
 from clockplan.plan.objective import Score
 from clockplan.plan.pll_solver import OutputSpec, PllProblem, SearchLimits, Target, solve_pll
@@ -44,7 +44,7 @@ from clockplan.units import format_frequency
 if TYPE_CHECKING:
     import networkx as nx
 
-__all__ = ["PlanOptions", "SubPlan", "BoardPlan", "plan_board", "check_pins"]
+__all__ = ["PlanOptions", "SubPlan", "BoardPlan", "plan_board", "check_pins", "margined_board"]
 
 
 @dataclass(frozen=True)
@@ -119,8 +119,10 @@ class BoardPlan:
     first), ``notes`` the bounds that may have cut a better plan off,
     ``proven_notes`` the bounds that were hit where the plans found are
     provably best on the objective's leading criteria (see
-    :func:`_proven_criteria`), ``bandwidths`` the loop bandwidth each PLL's
-    spur flag used.
+    :func:`_proven_criteria`), ``unused_notes`` the parts that feed no consumer (set to their smallest value), ``bandwidths`` the loop bandwidth each PLL's
+    spur flag used, ``proven_criteria`` how many leading criteria of the
+    objective the best plan is proven best on although a bound was hit (None
+    when no bound was hit: the search was complete; see :func:`_search_proof`).
     """
 
     board: Board
@@ -130,6 +132,8 @@ class BoardPlan:
     bandwidths: dict[str, Fraction | float | None]
     elapsed_s: float = 0.0
     proven_notes: list[str] = field(default_factory=list)
+    unused_notes: list[str] = field(default_factory=list)
+    proven_criteria: int | None = None
 
     @property
     def feasible(self) -> bool:
@@ -200,11 +204,14 @@ class _Planner:
         self.deadline = time.monotonic() + options.time_limit_s
         self.notes: list[str] = []
         self.proven_notes: list[str] = []
+        self.proven_levels: list[int] = []  # per proven note: how many leading criteria it proves (3 or 5)
+        self.unused_notes: list[str] = []
         self.bandwidths: dict[str, Fraction | float | None] = {
             pll.id: loop_bandwidth_of(pll, options.loop_bandwidth_hz) for pll in board.plls
         }
         self._cache: dict[tuple[str, Fraction], list[SubPlan]] = {}
         self._wish_cache: dict[str, list[Fraction]] = {}
+        self._vco_cache: dict[str, list[Fraction]] = {}
 
     # ----------------------------------------------------------------- helpers
 
@@ -214,6 +221,10 @@ class _Planner:
     def _note(self, text: str) -> None:
         if text not in self.notes:
             self.notes.append(text)
+
+    def _unused(self, text: str) -> None:
+        if text not in self.unused_notes:
+            self.unused_notes.append(text)
 
     def _children(self, node: str) -> list[str]:
         return sorted(self.graph.successors(node))
@@ -280,6 +291,11 @@ class _Planner:
         """Try the ratios that matter for what is below the divider."""
         fixed = self.board.pins.get(divider.id, {}).get("ratio")
         ratios = [fixed] if fixed is not None else self._divider_ratios(divider, hz)
+        if not ratios and not self._consumers_below(divider.id):
+            # Nothing below uses it: any ratio serves; never a reason to call the board infeasible.
+            self._unused(f"{divider.id} feeds no consumer: its ratio is set to its smallest allowed value, "
+                         f"{divider.ratio.lo}; consider disabling it")
+            ratios = [divider.ratio.lo]
         if not ratios:
             return [self._blocked(divider.id, f"no ratio of {divider.id} ({divider.ratio.describe()}) gives a usable frequency from {format_frequency(hz)}")]
         plans = []
@@ -288,7 +304,7 @@ class _Planner:
                 score = sub.score.with_dividers([ratio])
                 plans.append(replace(sub, score=score, dividers={**sub.dividers, divider.id: ratio}))
             if time.monotonic() > self.deadline:
-                self._note("the search stopped at its time limit: the plan is the best found, not proven optimal")
+                self._note("the search stopped at its time limit")
                 break
         return _ranked(plans, self.keep)
 
@@ -366,7 +382,7 @@ class _Planner:
         for candidate in candidates[:width]:
             plans += self._complete_pll(pll, candidate, free, pinned_dividers)
             if time.monotonic() > self.deadline:
-                self._note("the search stopped at its time limit: the plan is the best found, not proven optimal")
+                self._note("the search stopped at its time limit")
                 break
         if not plans:
             return [self._blocked(pll.id, f"{pll.id}: no output divider gives the parts it feeds a usable frequency")]
@@ -424,22 +440,8 @@ class _Planner:
         if lift.targets or lift.open_dividers or len(lift.plls) != 1:
             return []
         pll, factor = lift.plls[0]
-        targets = []
-        for out in pll.outputs:
-            spec = self.output_spec(out.name, f"{pll.id}.{out.name}", out.divider)
-            if spec is None:
-                continue
-            if len({t.hz for t in spec.targets}) != 1 or len(spec.chain) != 1:
-                return []
-            targets.append((spec.targets[0].hz, out.divider))
-        if not targets:
-            return []
-        step = lcm_fractions(hz for hz, _ in targets)
         wishes: list[tuple[Fraction, Fraction]] = []
-        for m in multiples_in(step, pll.vco.lo, pll.vco.hi)[:16]:  # a range: sliced, never listed whole
-            vco = m * step
-            if not all((vco / hz).denominator == 1 and int(vco / hz) in choices for hz, choices in targets):
-                continue
+        for vco in self._exact_vcos(pll):
             n_first = max(ceil_fraction(vco / pll.pfd.hi), ceil_fraction(pll.feedback_min))
             for n in range(n_first, min(n_first + 4, floor_fraction(pll.feedback_max) + 1)):
                 pfd = vco / n
@@ -532,6 +534,7 @@ class _Planner:
         )
         if text not in self.proven_notes:
             self.proven_notes.append(text)
+            self.proven_levels.append(proven)
 
     def _free_dividers(self, pll: Pll, out: Any, vco: Fraction) -> tuple[list[int], int]:
         """Dividers to try on an output without targets of its own, most promising first, and how many there were.
@@ -543,6 +546,9 @@ class _Planner:
         node = f"{pll.id}.{out.name}"
         lift = self._lift(node)
         if not lift.plls and not lift.open_dividers and not lift.targets:
+            if not self._consumers_below(node):
+                self._unused(f"{node} feeds no consumer: its divider is set to its smallest allowed value, "
+                             f"{out.divider.lo}; consider disabling the output")
             return [out.divider.lo], 1  # an unused output: the smallest allowed divider
         options: set[int] = set()
         for downstream, factor in lift.plls:
@@ -556,8 +562,58 @@ class _Planner:
             d = vco / hz
             if d.denominator == 1 and int(d) in options and int(d) not in wished:
                 wished.append(int(d))
-        ordered = wished + [d for d in sorted(options) if d not in wished]
+        # Next, the dividers whose frequency lets the downstream PLL be exact with a whole N (for the
+        # VCO chosen here: the wishes above are made without it), highest frequency first.
+        exact = [d for d in sorted(options) if d not in wished and self._feeds_exactly(node, vco / d)]
+        ordered = wished + exact + [d for d in sorted(options) if d not in wished and d not in exact]
         return ordered[: self.options.max_cascade_solves], len(ordered)
+
+    def _feeds_exactly(self, node: str, hz: Fraction) -> bool:
+        """True if ``hz`` at ``node`` lets the one PLL below make one of its exact VCO frequencies with a whole N."""
+        lift = self._lift(node)
+        if lift.targets or lift.open_dividers or len(lift.plls) != 1:
+            return False
+        pll, factor = lift.plls[0]
+        vcos = self._exact_vcos(pll)
+        if not vcos:
+            return False
+        f_in = hz / factor
+        if pll.input_range is not None and f_in not in pll.input_range:
+            return False
+        pinned = self.board.pins.get(pll.id, {}).get("r")
+        lo = max(1, ceil_fraction(f_in / pll.pfd.hi))
+        rs = [pinned] if pinned is not None else list(ladder_of(pll.ref_divider, lo, lo + 8).between(lo, lo + 8))[:4]
+        for r in rs:
+            pfd = f_in / r
+            if pfd not in pll.pfd:
+                continue
+            for v in vcos:
+                n = v / pfd
+                if n.denominator == 1 and pll.feedback_min <= n <= pll.feedback_max:
+                    return True
+        return False
+
+    def _exact_vcos(self, pll: Pll) -> list[Fraction]:
+        """Up to 16 VCO frequencies at which every constrained output of ``pll`` is exact (single targets only)."""
+        if pll.id not in self._vco_cache:
+            targets = []
+            for out in pll.outputs:
+                spec = self.output_spec(out.name, f"{pll.id}.{out.name}", out.divider)
+                if spec is None:
+                    continue
+                if len({t.hz for t in spec.targets}) != 1 or len(spec.chain) != 1:
+                    targets = []
+                    break
+                targets.append((spec.targets[0].hz, out.divider))
+            found: list[Fraction] = []
+            if targets:
+                step = lcm_fractions(hz for hz, _ in targets)
+                for m in multiples_in(step, pll.vco.lo, pll.vco.hi)[:16]:
+                    v = m * step
+                    if all((v / hz).denominator == 1 and int(v / hz) in choices for hz, choices in targets):
+                        found.append(v)
+            self._vco_cache[pll.id] = found
+        return self._vco_cache[pll.id]
 
     def _wishes(self, node: str) -> list[Fraction]:
         if node not in self._wish_cache:
@@ -597,6 +653,69 @@ def _proven_criteria(found: list[SubPlan], keep: int, board: Board) -> int:
     return 5
 
 
+def _fixed_input(planner: "_Planner", node: str) -> Fraction | None:
+    """The frequency at ``node`` when no setting can change it (a reference through buffers and fixed dividers)."""
+    parents = list(planner.graph.predecessors(node))
+    if not parents:
+        return None
+    parent = parents[0]
+    part = planner.graph.nodes[parent].get("part")
+    if part is None:
+        return None
+    if isinstance(part, Reference):
+        return part.frequency
+    if isinstance(part, Buffer):
+        return _fixed_input(planner, parent)
+    if isinstance(part, Divider):
+        ratio = planner._fixed_ratio(part)
+        above = _fixed_input(planner, parent) if ratio is not None else None
+        return above / ratio if above is not None else None
+    return None
+
+
+def _pfd_ceiling(planner: "_Planner", pll: Pll) -> Fraction:
+    """The highest PFD frequency any plan can give ``pll``.
+
+    The top of its PFD range, or lower when its input frequency is fixed by
+    the board: then only ``input / R`` for an allowed R can be reached.
+    """
+    top = pll.pfd.hi
+    hz = _fixed_input(planner, pll.id)
+    if hz is None:
+        return top
+    pinned = planner.board.pins.get(pll.id, {}).get("r")
+    r = pinned if pinned is not None else at_or_above(pll.ref_divider, max(1, ceil_fraction(hz / top)))
+    return hz / r if r is not None and hz / r <= top else top
+
+
+def _search_proof(planner: "_Planner", best: SubPlan) -> int | None:
+    """How many leading criteria of the objective ``best`` is proven best on, when a search bound was hit.
+
+    None when no bound was hit (the search was complete). Otherwise the larger of:
+
+    * the local proofs: every bound hit was a cut cascade trial whose plans
+      are at the floor of criteria 1-3 (or 1-5) (:func:`_proven_criteria`);
+      any other bound proves nothing locally (0);
+    * the global proof: the best plan itself is feasible, exact and integer-N
+      (criteria 1-3 at their least possible value, and criterion 5 at 0), and
+      when every PLL runs at the highest PFD frequency any plan could give it
+      (:func:`_pfd_ceiling`), criterion 4 is at its ceiling too (5). No plan,
+      found or not, can then beat it on those criteria.
+    """
+    if not planner.notes and not planner.proven_notes:
+        return None
+    local = 0 if planner.notes else min(planner.proven_levels, default=0)
+    proof = 0
+    if _ideal(best):
+        proof = 3
+        ceiling = Fraction(1)
+        for pll_id in best.plls:
+            ceiling *= _pfd_ceiling(planner, planner.board.part(pll_id))
+        if best.score.pfd_product == ceiling:
+            proof = 5
+    return max(local, proof)
+
+
 def _settled(plans: list[SubPlan], keep: int) -> bool:
     """True once ``keep`` plans below a cascade output are exact and integer-N throughout.
 
@@ -608,13 +727,25 @@ def _settled(plans: list[SubPlan], keep: int) -> bool:
 
 
 def _cannot_run(pll: Pll, hz: Fraction, problem: PllProblem) -> str:
-    pfd_r_lo = ceil_fraction(hz / pll.pfd.hi)
-    pfd_r_hi = floor_fraction(hz / pll.pfd.lo)
-    if not ladder_of(pll.ref_divider, max(1, pfd_r_lo), pfd_r_hi).between(max(1, pfd_r_lo), pfd_r_hi):
-        return f"{pll.id}: no allowed R ({pll.ref_divider.describe()}) puts {format_frequency(hz)} / R inside the PFD range {format_frequency(pll.pfd.lo)} to {format_frequency(pll.pfd.hi)}"
+    """Why no setting of ``pll`` runs from ``hz``: only a reason checked here (a pinned R is the R checked)."""
+    pfd_range = f"{format_frequency(pll.pfd.lo)} to {format_frequency(pll.pfd.hi)}"
+    pinned = ""
+    if problem.r_pin is not None:
+        pfd = hz / problem.r_pin
+        if pfd not in pll.pfd:
+            return (f"{pll.id}: the pinned R = {problem.r_pin} puts its {format_frequency(hz)} input at a PFD of "
+                    f"{format_frequency(pfd)}, outside the PFD range {pfd_range}")
+        pinned = f" with the pinned R = {problem.r_pin}"
+    else:
+        pfd_r_lo = ceil_fraction(hz / pll.pfd.hi)
+        pfd_r_hi = floor_fraction(hz / pll.pfd.lo)
+        if not ladder_of(pll.ref_divider, max(1, pfd_r_lo), pfd_r_hi).between(max(1, pfd_r_lo), pfd_r_hi):
+            return f"{pll.id}: no allowed R ({pll.ref_divider.describe()}) puts {format_frequency(hz)} / R inside the PFD range {pfd_range}"
+    vco_range = f"{format_frequency(pll.vco.lo)} to {format_frequency(pll.vco.hi)}"
     if problem.n_pin is not None:
-        return f"{pll.id}: the pinned N = {problem.n_pin} puts the VCO outside {format_frequency(pll.vco.lo)} to {format_frequency(pll.vco.hi)} for every allowed R"
-    return f"{pll.id}: no N in {pll.feedback_min}..{pll.feedback_max} reaches the VCO range {format_frequency(pll.vco.lo)} to {format_frequency(pll.vco.hi)} from {format_frequency(hz)}"
+        return f"{pll.id}: the pinned N = {problem.n_pin} puts the VCO outside {vco_range} for every allowed R{pinned}"
+    return (f"{pll.id}: no N in {pll.feedback_min}..{pll.feedback_max} reaches the VCO range {vco_range} from "
+            f"{format_frequency(hz)}{pinned}")
 
 
 # --------------------------------------------------------------------------- ranking
@@ -666,11 +797,32 @@ def _k_best(branches: list[list[SubPlan]], keep: int) -> list[SubPlan]:
 # --------------------------------------------------------------------------- entry point
 
 
-def plan_board(board: Board, options: PlanOptions | None = None) -> BoardPlan:
+def margined_board(board: Board) -> Board:
+    """``board`` with every PLL's input, PFD and VCO ranges narrowed by the margin its frequency band needs.
+
+    The planner chooses settings on this board, so that each range holds over
+    the reference's worst-case error and any spread sweep
+    (:mod:`clockplan.extremes`), not only at nominal; the audit checks the
+    same band (``vco-range-extremes``...).
+    """
+    from clockplan.extremes import margined_pll, pll_bands
+    from clockplan.graph import build_graph
+
+    if not board.plls:
+        return board
+    bands = pll_bands(board, build_graph(board))
+    plls = tuple(margined_pll(pll, bands.get(pll.id)) for pll in board.plls)
+    return board if plls == board.plls else replace(board, plls=plls)
+
+
+def plan_board(board: Board, options: PlanOptions | None = None, *, margin: bool = True) -> BoardPlan:
     """Find settings for every open R, N and divider of ``board``.
 
     Pinned settings (the board file's ``settings``, complete or partial) are
-    kept. The answer ranks plans by :mod:`clockplan.plan.objective`.
+    kept. The answer ranks plans by :mod:`clockplan.plan.objective`. Each
+    PLL's ranges keep the margin of its frequency band (:func:`margined_board`);
+    ``margin=False`` plans at nominal only (the explanation uses it to tell
+    whether the margin is what blocks a board).
 
     Raises
     ------
@@ -691,9 +843,11 @@ def plan_board(board: Board, options: PlanOptions | None = None) -> BoardPlan:
     options = options or PlanOptions()
     started = time.monotonic()
     check_pins(board)
-    graph = build_graph(board)
-    planner = _Planner(board, graph, options)
+    planned = margined_board(board) if margin else board
+    graph = build_graph(planned)
+    planner = _Planner(planned, graph, options)
     branches = [planner.plan_node(ref.id, ref.frequency) for ref in board.references]
     ranked = _k_best(branches, planner.keep)
+    proof = _search_proof(planner, ranked[0])
     return BoardPlan(board, ranked[0], ranked[1:], planner.notes, planner.bandwidths, time.monotonic() - started,
-                     planner.proven_notes)
+                     planner.proven_notes, planner.unused_notes, proof)

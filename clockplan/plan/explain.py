@@ -41,7 +41,9 @@ class Conflict:
     ``consumers`` are the consumers involved, ``constraint`` a short code of
     what blocks them (``integer-n``, ``denominator``, ``vco-range``,
     ``output-divider``, ``pfd-range``, ``n-range``, ``pinned``, ``combined``,
-    ``part-cannot-run``, ``unreachable``, ``time-limit``), ``message`` the explanation in words.
+    ``part-cannot-run``, ``unreachable``, ``time-limit``, ``search-bound``: a bounded search found
+    nothing, so no constraint is named; ``range-margin``: feasible only on a range edge the
+    reference's error band crosses), ``message`` the explanation in words.
     """
 
     consumers: tuple[str, ...]
@@ -118,11 +120,14 @@ class _Budget:
     deadline: float
     ran_out: bool = False
 
-    def best(self, problem: PllProblem):
-        best = solve_pll(problem, SearchLimits(keep=1, deadline=self.deadline)).best
+    def search(self, problem: PllProblem):
+        result = solve_pll(problem, SearchLimits(keep=1, deadline=self.deadline))
         if time.monotonic() > self.deadline:
             self.ran_out = True
-        return best
+        return result
+
+    def best(self, problem: PllProblem):
+        return self.search(problem).best
 
 
 def _feasible(problem: PllProblem, budget: _Budget) -> bool:
@@ -130,10 +135,35 @@ def _feasible(problem: PllProblem, budget: _Budget) -> bool:
     return best is not None and best.score.feasible
 
 
+def _proven_infeasible(problem: PllProblem, budget: _Budget) -> tuple[bool, str]:
+    """Whether the search proves ``problem`` infeasible: (infeasible, the bound that stops a proof, or "").
+
+    A search cut short by a bound (a divider range too wide to sweep, capped
+    multiples, the time limit) that found nothing feasible proves nothing: an
+    explanation may only state a reason it has checked.
+    """
+    search = budget.search(problem)
+    if search.best is not None and search.best.score.feasible:
+        return False, ""
+    return True, (search.notes[0] if search.notes else "")
+
+
+def _bounded(labels: set[str], pll: Pll, note: str) -> Conflict:
+    names = ", ".join(sorted(labels))
+    return Conflict(
+        tuple(sorted(labels)), "search-bound",
+        f"{names}: the search of {pll.id} found no setting within its allowed error, but it was cut short ({note}); "
+        "no constraint is named as blocking because none was proven to; raise --time-limit, or narrow the divider "
+        "ranges the part allows")
+
+
 def _blocking(pll: Pll, problem: PllProblem, budget: _Budget) -> tuple[str, str]:
+    bounded = False
     for code, text, relaxed in _relaxations(pll, problem):
-        if _feasible(relaxed, budget):
+        infeasible, bound = _proven_infeasible(relaxed, budget)
+        if not infeasible:
             return code, text
+        bounded = bounded or bool(bound)
     free = _unpinned(pll, problem)
     if free is not None:
         pinned_text = f"the pinned settings of {pll.id} block it; remove them to let the planner choose"
@@ -142,6 +172,9 @@ def _blocking(pll: Pll, problem: PllProblem, budget: _Budget) -> tuple[str, str]
         for code, text, relaxed in _relaxations(pll, free):
             if _feasible(relaxed, budget):
                 return "pinned", f"{pinned_text}, and then: {text}"
+    if bounded:  # a relaxed search cut short proves nothing either way: say only what was found
+        return "combined", (f"no single relaxed constraint of {pll.id} was found to help, but some relaxed searches "
+                            "were cut short, so one may")
     return "combined", f"several constraints of {pll.id} together block it (no single relaxation helps)"
 
 
@@ -165,9 +198,9 @@ def _pll_problems(plan: "BoardPlan") -> dict[str, PllProblem]:
     """The PLL problems the planner solved for the nearest plan (input frequencies from that plan)."""
     from clockplan.frequency import propagate
     from clockplan.graph import build_graph
-    from clockplan.plan.board_planner import PlanOptions, _Planner
+    from clockplan.plan.board_planner import PlanOptions, _Planner, margined_board
 
-    board = plan.board
+    board = margined_board(plan.board)  # the ranges the planner searched: with the margin of each PLL's band
     graph = build_graph(board)
     freqs = propagate(board, graph, plan.settings)
     planner = _Planner(board, graph, PlanOptions())
@@ -209,6 +242,7 @@ def explain_infeasible(plan: "BoardPlan", time_limit_s: float = 10.0) -> Explana
         )
     for reason in plan.best.blocked:
         explanation.conflicts.append(Conflict((), "part-cannot-run", reason))
+    _explain_margin(plan, explanation, time_limit_s)
     missing = {cid for cid, err in plan.best.errors.items() if abs(err) > tolerances.get(cid, Fraction(0))}
     if not missing:
         return explanation
@@ -220,11 +254,49 @@ def explain_infeasible(plan: "BoardPlan", time_limit_s: float = 10.0) -> Explana
             (), "time-limit", "the explanation stopped at its time limit: the blocking constraints named may be "
             "incomplete; raise --time-limit"))
         return explanation  # a consumer left unexamined is not shown unreachable
+    bounded = bool(plan.notes)
     for cid in sorted(missing - explained):
-        explanation.conflicts.append(
-            Conflict((cid,), "unreachable", f"{cid}: no setting upstream makes its frequency within ±{format_ppm(tolerances[cid]).lstrip('+')}")
-        )
+        allowed = f"±{format_ppm(tolerances[cid]).lstrip('+')}"
+        if bounded:  # a bounded search proves nothing unreachable: say only what was checked
+            explanation.conflicts.append(Conflict((cid,), "search-bound", (
+                f"{cid}: no setting found within {allowed}, but the search was cut short ({plan.notes[0]}); "
+                "a feasible plan may exist")))
+        else:
+            explanation.conflicts.append(
+                Conflict((cid,), "unreachable", f"{cid}: no setting upstream makes its frequency within {allowed}")
+            )
     return explanation
+
+
+def _explain_margin(plan: "BoardPlan", explanation: Explanation, time_limit_s: float) -> None:
+    """Say so when the ranges' margin for the reference's error band and spread is what blocks the board.
+
+    The planner keeps every input, PFD and VCO range clear of its edges by
+    that band (docs/planning.md, Ranges at the extremes). When the board plans
+    feasibly without the margin, the plan it would give sits on an edge that
+    the reference's drift (or a spread sweep) crosses: a real failure, named.
+    """
+    from clockplan.plan.board_planner import PlanOptions, margined_board, plan_board
+
+    board = plan.board
+    narrowed = margined_board(board)
+    if narrowed is board:
+        return
+    at_nominal = plan_board(board, PlanOptions(time_limit_s=max(0.1, time_limit_s / 4)), margin=False)
+    if not at_nominal.feasible:
+        return
+    from clockplan.audit import check_range_extremes
+    from clockplan.extremes import pll_bands
+    from clockplan.frequency import propagate
+    from clockplan.graph import build_graph
+
+    graph = build_graph(board)
+    edges = check_range_extremes(board, propagate(board, graph, at_nominal.settings), pll_bands(board, graph))
+    detail = "; ".join(f"{f.node}: {f.message.split(';')[0]}" for f in edges) or "a range edge is crossed"
+    explanation.conflicts.append(Conflict((), "range-margin", (
+        "a plan exists at nominal frequencies only, on a range edge the reference's worst-case error (or a spread "
+        f"sweep) crosses: {detail}. Widen the part's range, use a more accurate reference, or choose parts whose "
+        "ranges do not end at the frequencies needed")))
 
 
 def _explain_plls(plan: "BoardPlan", explanation: Explanation, missing: set[str], explained: set[str], budget: _Budget) -> None:
@@ -238,7 +310,12 @@ def _explain_plls(plan: "BoardPlan", explanation: Explanation, missing: set[str]
             if not labels:
                 continue
             alone = replace(problem, outputs=(spec,))
-            if not _feasible(alone, budget):
+            infeasible, bound = _proven_infeasible(alone, budget)
+            if infeasible and bound:
+                explanation.conflicts.append(_bounded(labels, pll, bound))
+                explained |= labels
+                continue
+            if infeasible:
                 code, text = _blocking(pll, alone, budget)
                 near = budget.best(alone)
                 detail = ""
@@ -252,15 +329,26 @@ def _explain_plls(plan: "BoardPlan", explanation: Explanation, missing: set[str]
                 if other is spec:
                     continue
                 pair = replace(problem, outputs=(spec, other))
-                if not _feasible(pair, budget):
+                infeasible, bound = _proven_infeasible(pair, budget)
+                if infeasible:
                     involved = tuple(sorted({t.label for t in spec.targets + other.targets}))
-                    if all(c.consumers != involved for c in explanation.conflicts):
+                    if bound:
+                        explanation.conflicts.append(_bounded(set(involved), pll, bound))
+                    elif all(c.consumers != involved for c in explanation.conflicts):
                         code, _ = _blocking(pll, pair, budget)
                         explanation.conflicts.append(Conflict(involved, code, _pair_message(pll, spec, other) + f" (blocking: {code})"))
                     explained |= labels
                     break
             else:
-                code, text = _blocking(pll, problem, budget)
                 involved = tuple(sorted({t.label for s in problem.outputs for t in s.targets}))
-                explanation.conflicts.append(Conflict(involved, code, f"the outputs of {pll_id} together: {text}"))
+                infeasible, bound = _proven_infeasible(problem, budget)
+                if infeasible and bound:
+                    explanation.conflicts.append(_bounded(set(involved), pll, bound))
+                elif infeasible:
+                    code, text = _blocking(pll, problem, budget)
+                    explanation.conflicts.append(Conflict(involved, code, f"the outputs of {pll_id} together: {text}"))
+                else:  # the PLL can serve them at this input: the board search missed it, nothing blocks it
+                    explanation.conflicts.append(Conflict(involved, "search-bound", (
+                        f"{', '.join(sorted(labels))}: {pll_id} can make them from its planned input, but the board "
+                        "search did not reach that setting (its cascade trials are bounded); raise --time-limit")))
                 explained |= labels

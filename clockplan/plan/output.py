@@ -13,8 +13,7 @@ from fractions import Fraction
 from typing import TYPE_CHECKING, Any
 
 from clockplan.findings import Finding, Severity
-from clockplan.plan.spurs import boundary_spur_offset, spur_in_band
-from clockplan.units import format_exact, format_frequency, format_ppm
+from clockplan.units import format_exact, format_ppm
 
 if TYPE_CHECKING:
     from rich.console import Console
@@ -23,7 +22,19 @@ if TYPE_CHECKING:
     from clockplan.plan.board_planner import BoardPlan, SubPlan
     from clockplan.plan.explain import Explanation
 
-__all__ = ["plan_findings", "plan_document", "render_plan"]
+__all__ = ["VERDICT_CRITERIA", "plan_findings", "search_finding", "verdict_criteria", "plan_document", "render_plan"]
+
+#: How many leading criteria of the objective (docs/planning.md) can change a
+#: verdict on every board: 1 feasibility (the ``frequency`` errors), 2 the
+#: synthesis error (it adds to every ppm budget), 3 integer-N (a fractional N
+#: brings spurs, the ``spur-in-band`` warning, and modulator noise). Criterion 5
+#: (fractional-N spurs in band) is 0 whenever 1-3 are at their floor.
+VERDICT_CRITERIA = 3
+
+_LATER = {
+    3: "the PFD frequency, fewer and smaller dividers, the spur offset",
+    5: "fewer and smaller dividers, the spur offset",
+}
 
 
 def _number(value: Fraction | float | None) -> int | float | None:
@@ -33,32 +44,62 @@ def _number(value: Fraction | float | None) -> int | float | None:
 
 
 def plan_findings(plan: "BoardPlan", analysis: "Analysis") -> list[Finding]:
-    """Findings the plan adds: spurs inside the loop bandwidth, and search bounds that were hit.
+    """Findings the plan adds to the audit of its settings: the search note and parts left unused.
 
-    A bound that may have cut a better plan off is a warning; one hit where the
-    plan found is provably best on the objective's leading criteria is info.
+    The ``spur-in-band`` warnings come from the audit itself
+    (:func:`clockplan.plan.spurs.spur_findings`), so ``plan`` and ``audit``
+    agree on the same settings. See :func:`search_finding` for the one
+    ``search-bound`` note per search.
     """
     findings = []
-    for pll_id, point in analysis.frequencies.plls.items():
-        offset = boundary_spur_offset(point.pfd_hz, point.setting.n)
-        bandwidth = plan.bandwidths.get(pll_id)
-        if spur_in_band(offset, bandwidth):
-            findings.append(
-                Finding(
-                    Severity.WARNING,
-                    "spur-in-band",
-                    pll_id,
-                    f"the integer-boundary spur of {pll_id} sits {format_frequency(offset)} from the carrier, inside the "
-                    f"loop bandwidth of {format_frequency(Fraction(bandwidth))}; the loop will not filter it. "
-                    "Pin another N or R, or check the part's spur figures",
-                )
-            )
-    for note in plan.notes:
-        findings.append(Finding(Severity.WARNING, "search-bound", plan.board.name, note))
-    # A bound hit where the plan found is provably best on the leading criteria: worth knowing, not a warning.
-    for note in plan.proven_notes:
-        findings.append(Finding(Severity.INFO, "search-bound", plan.board.name, note))
+    search = search_finding(plan, analysis)
+    if search is not None:
+        findings.append(search)
+    for note in plan.unused_notes:
+        findings.append(Finding(Severity.INFO, "unused-part", plan.board.name, note))
     return findings
+
+
+def verdict_criteria(analysis: "Analysis") -> int:
+    """How many leading criteria decide this board's verdict: :data:`VERDICT_CRITERIA`, or 4 with a jitter budget at stake.
+
+    Criterion 4, the PFD frequency, sets the in-band noise: it can change the
+    verdict when a jitter budget fails or warns (a plan with a higher PFD
+    might pass it).
+    """
+    at_stake = any(
+        f.code.startswith("jitter") and f.severity in (Severity.ERROR, Severity.WARNING) for f in analysis.findings
+    )
+    return 4 if at_stake else VERDICT_CRITERIA
+
+
+def search_finding(plan: "BoardPlan", analysis: "Analysis") -> Finding | None:
+    """The one ``search-bound`` note of a search that hit a bound, or None for a complete search.
+
+    A warning only when the plan is not proven best on the criteria that
+    decide the verdict (:func:`verdict_criteria`); otherwise info, saying which
+    criteria are proven and which are not. Every bound hit is listed in it.
+    """
+    bounds = list(plan.notes) + list(plan.proven_notes)
+    if not bounds or plan.proven_criteria is None:
+        return None
+    proven = plan.proven_criteria
+    needed = verdict_criteria(analysis)
+    listed = "; ".join(bounds)
+    what = f"the search hit {len(bounds)} bound{'s' if len(bounds) > 1 else ''} ({listed})"
+    if proven >= needed:
+        later = _LATER.get(proven, "the later criteria")
+        return Finding(
+            Severity.INFO, "search-bound", plan.board.name,
+            f"{what}; the plan is still proven best on criteria 1-{proven} of the objective, which decide this "
+            f"verdict (docs/planning.md, Bounds); only the later ones ({later}) may not be the best possible",
+        )
+    partly = f"; it is proven best on criteria 1-{proven} only" if proven else ""
+    return Finding(
+        Severity.WARNING, "search-bound", plan.board.name,
+        f"{what}; the plan is the best found, not proven best on criteria 1-{needed} of the objective, which decide "
+        f"this verdict{partly}: a setting not tried may give a better plan; raise --time-limit or narrow the part's ranges",
+    )
 
 
 def _objective(sub: "SubPlan") -> dict[str, Any]:
@@ -92,6 +133,8 @@ def plan_document(analysis: "Analysis", plan: "BoardPlan", explanation: "Explana
         "objective": _objective(plan.best),
         "notes": list(plan.notes),
         "proven_notes": list(plan.proven_notes),
+        "proven_criteria": plan.proven_criteria,
+        "unused": list(plan.unused_notes),
         "loop_bandwidth_hz": {k: _number(v) for k, v in sorted(plan.bandwidths.items())},
     }
     if plan.alternatives:

@@ -139,8 +139,9 @@ class _Output:
     center: Fraction  # where one unit's error curve bottoms out (harmonic mean of t_lo, t_hi)
     window_lo: Fraction  # the output frequency range that keeps every target in tolerance
     window_hi: Fraction
-    ladder: Ladder
-    bottoms: Sequence[Fraction]  # d * center for each ladder value d, computed on access
+    ladder: Ladder  # every allowed divider (product) in the window: exact look-ups
+    bottoms: Sequence[Fraction]  # d * center for each value d of ``sweep``, computed on access
+    sweep: Ladder  # the dividers whose bottoms the sweep enumerates (``ladder``, or an even subset of a huge one)
     center_f: float = 0.0
     t_lo_f: float = 0.0
     t_hi_f: float = 0.0
@@ -205,23 +206,27 @@ def _build_output(spec: OutputSpec, vlo: Fraction, vhi: Fraction, limits: Search
     lo = max(1, floor_fraction(vlo / max(center, window_hi)))
     hi = ceil_fraction(vhi / smallest)
     if len(spec.chain) == 1:
-        ladder = ladder_of(spec.chain[0], lo, hi)
+        ladder = ladder_of(spec.chain[0], lo, hi)  # a lazy range: look-ups stay exact however wide it is
+        sweep = ladder
         if len(ladder.values) > limits.max_ladder:
-            # A range of 10^9 dividers (a 1 Hz output of a GHz VCO) cannot be swept whole:
-            # an even subset of the allowed values keeps the search bounded and honest.
+            # A range of 10^9 dividers (a 1 Hz output of a GHz VCO) cannot be swept whole: the
+            # sweep enumerates an even subset, while the exact path and every visited point still
+            # look the nearest allowed divider up in the whole range (exact divisors are never lost).
             total = len(ladder.values)
             stride = -(-total // limits.max_ladder)
-            ladder = Ladder(ladder.values[::stride], truncated=True)
+            sweep = Ladder(ladder.values[::stride], truncated=True)
             notes.append(
-                f"output {spec.name}: {total} divider values are too many to search; every "
-                f"{stride}th was tried, so the plan is the best found, not proven optimal"
+                f"output {spec.name}: {total} divider values are too many to search in full; every "
+                f"{stride}th was swept (exact divisors and the dividers next to each visited point "
+                "were all tried)"
             )
     else:
         ladder = product_ladder(spec.chain, max(1, lo // 2), 2 * hi + 2, limits.max_ladder)
         if ladder.truncated:
             notes.append(f"output {spec.name}: only the first {limits.max_ladder} divider products were searched")
-    bottoms = _Scaled(ladder.values, center)
-    return _Output(spec, t_lo, t_hi, center, window_lo, window_hi, ladder, bottoms, float(center), float(t_lo), float(t_hi))
+        sweep = ladder
+    bottoms = _Scaled(sweep.values, center)
+    return _Output(spec, t_lo, t_hi, center, window_lo, window_hi, ladder, bottoms, sweep, float(center), float(t_lo), float(t_hi))
 
 
 # --------------------------------------------------------------------------- the grid per R
@@ -371,7 +376,7 @@ class _Solver:
 
     def _out_of_time(self) -> bool:
         if self.limits.deadline is not None and time.monotonic() > self.limits.deadline:
-            self.notes.append("the search stopped at its time limit: the plan is the best found, not proven optimal")
+            self.notes.append("the search stopped at its time limit")
             return True
         return False
 
@@ -430,14 +435,19 @@ class _Solver:
         multiples = multiples_in(step, self.vlo, self.vhi)
         # With every tolerance zero, feasible means exact: a complete exact search settles feasibility.
         self._exact_settled = all(t.tolerance == 0 for out in self.outputs for t in out.spec.targets)
+        found = False
         if len(multiples) > self.limits.max_multiples:
             self._exact_settled = False
             self.notes.append(
                 f"{self.pll.id}: {len(multiples)} VCO frequencies are common multiples of the outputs; "
-                f"only the lowest {self.limits.max_multiples} were examined"
+                f"those on the feedback grid of each R (whole N, and k/M for a fixed modulus), and only the lowest "
+                f"{self.limits.max_multiples} others were examined"
             )
             multiples = multiples[: self.limits.max_multiples]
-        found = False
+            found = self._exact_on_grids(step)
+            rule = self.pll.denominator if self.pll.mode == "fractional" else None
+            if rule is None or rule.fixed is not None:
+                return found  # every grid point (whole N, k/M) that is a common multiple was visited above
         for index, m in enumerate(multiples):
             if index % 256 == 0 and self._out_of_time():
                 self._exact_settled = False
@@ -447,6 +457,45 @@ class _Solver:
                 continue
             for grid in self._exact_grids(v):
                 found = self._consider(grid, v / grid.pfd) is not None or found
+        return found
+
+    def _exact_on_grids(self, step: Fraction) -> bool:
+        """Exact VCO frequencies found from the feedback grid of each R, when the common multiples are too many.
+
+        On R's grid the VCO is ``pfd * N``. With ``pfd / step = p / q`` in lowest
+        terms, ``pfd * N`` is a multiple of ``step`` exactly when ``N * p / q`` is
+        whole: for a whole N when ``q | N``; for ``N = k / M`` (a fixed modulus)
+        when ``q | k p / M``... written as ``pfd / (M step) = p' / q'`` and ``q' | k``.
+        Only the grid points that are common multiples are visited, so a 1 Hz
+        output of a GHz VCO finds its exact divider at once. Up to ``keep + 1``
+        per R and class are kept (the smallest N first), within
+        ``max_multiples`` points in all.
+        """
+        found = False
+        budget = self.limits.max_multiples
+        keep = self.limits.keep + 1
+        moduli = [1]
+        if self.pll.mode == "fractional" and self.pll.denominator is not None and self.pll.denominator.fixed is not None:
+            moduli.append(self.pll.denominator.fixed)
+        for index, grid in enumerate(self.grids):
+            if index % 64 == 0 and self._out_of_time():
+                return found
+            for modulus in moduli:
+                q = (grid.pfd / (modulus * step)).denominator
+                first = ceil_fraction(grid.n_lo * modulus / q)
+                last = floor_fraction(grid.n_hi * modulus / q)
+                hits = 0
+                for j in range(first, last + 1):
+                    budget -= 1
+                    if budget < 0:
+                        return found
+                    n = Fraction(j * q, modulus)
+                    v = grid.pfd * n
+                    if all(_whole_in(out.ladder, v / out.t_lo) for out in self.outputs):
+                        found = self._consider(grid, n) is not None or found
+                        hits += 1
+                        if hits >= keep:
+                            break
         return found
 
     def _exact_grids(self, v: Fraction) -> list[_RGrid]:
@@ -493,7 +542,7 @@ class _Solver:
         points: set[Fraction] = {self.vlo, self.vhi}
         points |= {g.vco_lo for g in self.grids} | {g.vco_hi for g in self.grids}
         for out in self.outputs:
-            for index, d in enumerate(out.ladder.values):
+            for index, d in enumerate(out.sweep.values):
                 if index % 1024 == 1023 and self._out_of_time():
                     break
                 for edge in (d * out.center, d * out.window_lo, d * out.window_hi):
@@ -533,8 +582,8 @@ class _Solver:
                 j = below[k]
                 if j < len(out.bottoms) and out.bottoms[j] < q:
                     j = bisect.bisect_left(out.bottoms, q, j)
-                rise = out.ladder.values[i] * out.t_lo if i >= 0 else None
-                fall = out.ladder.values[j] * out.t_hi if j < len(out.bottoms) else None
+                rise = out.sweep.values[i] * out.t_lo if i >= 0 else None
+                fall = out.sweep.values[j] * out.t_hi if j < len(out.bottoms) else None
                 lines.append((rise, fall))
             floats = [(float(b) if b is not None else None, float(a) if a is not None else None) for b, a in lines]
             pf, qf = float(p), float(q)

@@ -16,7 +16,10 @@ from __future__ import annotations
 from fractions import Fraction
 from typing import Any
 
-__all__ = ["DEFAULT_LOOP_BANDWIDTH_HZ", "boundary_spur_offset", "loop_bandwidth_of", "spur_in_band"]
+from clockplan.findings import Finding, Severity
+from clockplan.units import format_frequency
+
+__all__ = ["DEFAULT_LOOP_BANDWIDTH_HZ", "boundary_spur_offset", "loop_bandwidth_of", "spur_in_band", "spur_findings"]
 
 #: Loop bandwidth assumed when neither the part nor the user gives one: a
 #: typical synthesizer loop of a few hundred kHz (common practice, from memory).
@@ -95,3 +98,41 @@ def spur_in_band(offset_hz: Fraction | None, bandwidth_hz: Fraction | float | No
     if offset_hz is None or bandwidth_hz is None:
         return False
     return offset_hz < Fraction(bandwidth_hz)
+
+
+def spur_findings(plls: Any, frequencies: Any, default_bandwidth: Fraction | float | None = DEFAULT_LOOP_BANDWIDTH_HZ) -> list[Finding]:
+    """``spur-in-band`` warnings for every PLL whose integer-boundary spur falls inside its loop bandwidth.
+
+    The one check both ``audit`` and ``plan`` run on a set of settings, so the
+    two commands agree.
+
+    Parameters
+    ----------
+    plls
+        The board's PLLs (each with an ``id`` and maybe ``loop`` data).
+    frequencies
+        The exact frequencies of the settings (``frequencies.plls[id]`` has
+        ``pfd_hz`` and ``setting.n``).
+    default_bandwidth
+        The bandwidth of a PLL that states none (``--loop-bandwidth``).
+    """
+    findings = []
+    for pll in plls:
+        point = frequencies.plls.get(pll.id)
+        if point is None:
+            continue
+        offset = boundary_spur_offset(point.pfd_hz, point.setting.n)
+        bandwidth = loop_bandwidth_of(pll, default_bandwidth)
+        if spur_in_band(offset, bandwidth):
+            assert offset is not None and bandwidth is not None
+            findings.append(
+                Finding(
+                    Severity.WARNING,
+                    "spur-in-band",
+                    pll.id,
+                    f"the integer-boundary spur of {pll.id} sits {format_frequency(offset)} from the carrier, inside the "
+                    f"loop bandwidth of {format_frequency(Fraction(bandwidth))}; the loop will not filter it. "
+                    "Pin another N or R, or check the part's spur figures",
+                )
+            )
+    return findings
