@@ -97,12 +97,17 @@ def pll_mode(value: Any) -> str:
     return text
 
 
-def _kind(value: Any) -> str:
+def _choice(value: Any, choices: tuple[str, ...], what: str, plural: str) -> str:
+    """``value`` as one of ``choices`` (case ignored), or a located error with the closest ones."""
     text = nonempty_text(value).lower()
-    if text not in REFERENCE_KINDS:
-        hint = did_you_mean(text, REFERENCE_KINDS) or "kinds: " + ", ".join(REFERENCE_KINDS)
-        raise BoardError(f"unknown oscillator kind {value!r}", hint=hint)
+    if text not in choices:
+        hint = did_you_mean(text, choices) or f"{plural}: " + ", ".join(choices)
+        raise BoardError(f"unknown {what} {value!r}", hint=hint)
     return text
+
+
+def _kind(value: Any) -> str:
+    return _choice(value, REFERENCE_KINDS, "oscillator kind", "kinds")
 
 
 # --------------------------------------------------------------------------- sections
@@ -141,11 +146,7 @@ def read_board_section(doc: dict, ctx: Locator) -> tuple[str, tuple[float, float
 
 def accuracy_policy(value: Any) -> str:
     """``"worst-case"`` or ``"statistical"`` (case and surrounding spaces ignored)."""
-    text = nonempty_text(value).lower()
-    if text not in ACCURACY_POLICIES:
-        hint = did_you_mean(text, ACCURACY_POLICIES) or "policies: " + ", ".join(ACCURACY_POLICIES)
-        raise BoardError(f"unknown accuracy policy {value!r}", hint=hint)
-    return text
+    return _choice(value, ACCURACY_POLICIES, "accuracy policy", "policies")
 
 
 def read_accuracy_policy(doc: dict, ctx: Locator) -> str:

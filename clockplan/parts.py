@@ -38,7 +38,7 @@ __all__ = [
 ]
 
 #: Oscillator kinds a reference can be (see docs/board-format.md).
-REFERENCE_KINDS = ("crystal", "xo", "vcxo", "tcxo", "ocxo", "mems", "rc")
+REFERENCE_KINDS = ("crystal", "xo", "vcxo", "tcxo", "ocxo", "mems", "rc", "external")
 
 #: How a frequency-error budget is judged (``[board] accuracy_policy``, docs/frequency-accuracy.md):
 #: every tolerance at its limit (the default), or the statistical (RSS) total on request.

@@ -26,9 +26,10 @@ __all__ = [
 ]
 
 #: Kinds of reference: a passive crystal driven by a chip's oscillator
-#: circuit, packaged oscillators (XO, VCXO, TCXO, OCXO, MEMS) and on-chip RC
-#: or ring oscillators.
-OSCILLATOR_KINDS = ("crystal", "xo", "vcxo", "tcxo", "ocxo", "mems", "rc")
+#: circuit, packaged oscillators (XO, VCXO, TCXO, OCXO, MEMS), on-chip RC
+#: or ring oscillators, and an ``external`` input: a clock from another unit
+#: (a network reference, a lab's 10 MHz), whose figures are that unit's.
+OSCILLATOR_KINDS = ("crystal", "xo", "vcxo", "tcxo", "ocxo", "mems", "rc", "external")
 
 #: How a part's tolerances are spread between their limits in the Monte Carlo.
 DISTRIBUTIONS = ("uniform", "normal")

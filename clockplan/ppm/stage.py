@@ -184,6 +184,8 @@ def _advice(
     ]
     always_on = [link.id for link in judged if _always_on(board.part(link.id))]
     offered, notes = applicable_grades(grades, ref.frequency, always_on)
+    if ref.kind == "external":  # another unit's clock: no local oscillator grade replaces it
+        offered, notes = (), (EXTERNAL_NOTE,)
     advice = advise_grade(0, fixable, board.temperature_c, board.lifetime_s, margin=board.margin_warning,
                            grades=offered) if fixable else None
     failing = tuple(
@@ -212,10 +214,20 @@ def _advice(
     )
 
 
+#: What the advice says for an external reference (a clock from another unit).
+EXTERNAL_NOTE = (
+    "an external reference: its accuracy is the sending unit's (state its tolerance, stability and aging as that "
+    "unit guarantees them); no local oscillator grade is proposed in its place"
+)
+
+
 # --------------------------------------------------------------------------- findings
 
 
 def _advice_text(advice: ReferenceAdvice, margin: Fraction) -> str:
+    if advice.kind == "external":
+        return (f"{advice.id} is an external reference: ask the unit that sends it for a tighter figure, or lock a "
+                "local oscillator of a better grade to it")
     if not advice.grades:
         return f"no oscillator grade in the table is commonly made at the frequency of {advice.id}: choose the part from its datasheet"
     if advice.advice is None or advice.advice.grade is None:
