@@ -507,3 +507,61 @@ def test_unrated_figures_need_no_condition_and_the_json_gives_each_grade_its_ran
     assert "25..25 °C (assumed: the board states no temperature)" in finding.message
     grades = analysis_document(analysis)["references"][0]["grades"]
     assert all(g["stability_range_c"] == [-40.0, 85.0] for g in grades)
+
+
+# --------------------------------------------------------------------------- supply sensitivity left out
+
+
+_SUPPLY_BOARD = """
+[board]
+name = "supply"
+temperature = ["0 C", "50 C"]
+lifetime = "1 year"
+
+[[reference]]
+id = "osc"
+frequency = "25 MHz"
+kind = "{kind}"
+tolerance = "±10 ppm"
+stability = "±10 ppm"
+stability_range = "0..50 C"
+aging = {{ first_year = "±1 ppm", per_year = "±1 ppm" }}
+{supply}
+
+[[consumer]]
+id = "phy"
+source = "osc"
+frequency = "25 MHz"
+ppm = "±100 ppm"
+"""
+
+
+@pytest.mark.parametrize(
+    ("kind", "supply", "warned"),
+    [
+        ("xo", "", True),                                  # left out: taken as 0, named
+        ("tcxo", "", True),
+        ("rc", "", True),
+        ("xo", 'supply_sensitivity = "0 ppm"', False),     # stated 0 is the board's own figure
+        ("xo", 'supply_sensitivity = "±0.2 ppm"', False),
+        ("crystal", "", False),                            # a passive crystal: the oscillator circuit's, not the part's
+        ("external", "", False),                           # another unit's clock
+    ],
+)
+def test_a_supply_sensitivity_left_out_is_named(kind, supply, warned):
+    from clockplan.analysis import analyze
+    from clockplan.boardfile import parse_board
+
+    analysis = analyze(parse_board(_SUPPLY_BOARD.format(kind=kind, supply=supply)))
+    found = [f for f in analysis.findings if f.code == "ppm-no-supply"]
+    assert bool(found) == warned
+    if warned:
+        assert found[0].node == "osc" and found[0].severity.value == "warning"
+
+
+def test_no_supply_warning_without_a_budget_that_depends_on_it():
+    from clockplan.analysis import analyze
+    from clockplan.boardfile import parse_board
+
+    text = _SUPPLY_BOARD.format(kind="xo", supply="").replace('ppm = "±100 ppm"\n', "")
+    assert not [f for f in analyze(parse_board(text)).findings if f.code == "ppm-no-supply"]

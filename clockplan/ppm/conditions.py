@@ -264,16 +264,32 @@ def _no_aging(model: "ReferenceModel", board: "Board", links: Sequence["Consumer
     return [Finding(Severity.WARNING, "ppm-no-aging", model.reference.id, message)]
 
 
+def _no_supply(model: "ReferenceModel", links: Sequence["ConsumerLink"]) -> list[Finding]:
+    spec = model.spec
+    if spec is None or model.basis != BASIS_BOARD or "supply_sensitivity" not in spec.unstated:
+        return []
+    if not _judged_ids(model, links):
+        return []
+    message = (
+        f"no supply_sensitivity: the frequency of this {spec.kind} part moves with its supply, and the shift is taken "
+        "as 0, an assumption "
+        "in the part's favour; give supply_sensitivity from the datasheet (the shift over the board's supply "
+        "tolerance), or write \"0 ppm\" where the supply is regulated well enough that it does not count"
+    )
+    return [Finding(Severity.WARNING, "ppm-no-supply", model.reference.id, message)]
+
+
 def condition_findings(model: "ReferenceModel", board: "Board", links: Sequence["ConsumerLink"]) -> list[Finding]:
     """The findings on one reference's conditions: a band not rated over the board, a short trim, no temperature term.
 
     Codes (``docs/json-output.md``): ``ppm-stability-range`` (error, on the
     reference and on each consumer whose budget it leaves unchecked),
-    ``ppm-trim`` (error), ``ppm-no-temperature`` and ``ppm-no-aging`` (warnings).
+    ``ppm-trim`` (error), ``ppm-no-temperature``, ``ppm-no-aging`` and ``ppm-no-supply`` (warnings).
     """
     if model.basis == BASIS_UNRATED and model.unrated is not None:
         return _unrated(model, board, links)
-    return _trim(model, board) + _no_temperature(model, board, links) + _no_aging(model, board, links)
+    return (_trim(model, board) + _no_temperature(model, board, links) + _no_aging(model, board, links)
+            + _no_supply(model, links))
 
 
 def conditions_text(board: "Board") -> str:

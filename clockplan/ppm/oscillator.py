@@ -103,6 +103,8 @@ class OscillatorSpec:
     crystal_load: CrystalLoad | None = None
     trim: tuple[Fraction, Fraction] | None = None
     power: OscillatorPower | None = None
+    #: Figures the board file left out that were taken as 0 (``"supply_sensitivity"``), for a finding.
+    unstated: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         if self.kind not in OSCILLATOR_KINDS:

@@ -38,6 +38,7 @@ from clockplan.units import (
 
 __all__ = [
     "REFERENCE_KEYS",
+    "SUPPLY_SENSITIVE",
     "STABILITY_RANGE_HINT",
     "parse_oscillator_spec",
     "parse_temperature_model",
@@ -58,6 +59,11 @@ REFERENCE_KEYS = (
     "supply_sensitivity", "load_sensitivity", "distribution", "trim", "power",
 )
 
+
+#: Kinds whose frequency moves with the supply, by a figure their datasheets give (packaged oscillators and
+#: on-chip RC oscillators; a passive crystal's shift comes from the chip's oscillator circuit, and an external
+#: reference's from the sending unit): without it, ``ppm-no-supply`` warns.
+SUPPLY_SENSITIVE = ("xo", "vcxo", "tcxo", "ocxo", "mems", "rc")
 
 def _read(parser: Callable[..., T], value: Any, key: str, *args: Any) -> T:
     """Run a unit parser and put the key path on its error."""
@@ -348,7 +354,7 @@ def parse_oscillator_spec(table: dict, key: str, frequency: Fraction | None = No
     initial = _read(parse_ppm, _require(table, "tolerance", key, "give the tolerance at 25 °C, e.g. '±20 ppm'"), f"{key}.tolerance")
     temperature = parse_temperature_model(table, key)
     aging = parse_aging(table["aging"], f"{key}.aging") if "aging" in table else NO_AGING
-    zero = "0 ppm"
+    zero = "0 ppm"  # a supply sensitivity left out is named by a finding (ppm-no-supply), never zero in silence
     supply = _read(parse_ppm, table.get("supply_sensitivity", zero), f"{key}.supply_sensitivity")
     load_sens = _read(parse_ppm, table.get("load_sensitivity", zero), f"{key}.load_sensitivity")
     load = parse_crystal_load(table["load"], f"{key}.load") if "load" in table else None
@@ -366,6 +372,7 @@ def parse_oscillator_spec(table: dict, key: str, frequency: Fraction | None = No
             crystal_load=load,
             trim=trim,
             power=power,
+            unstated=("supply_sensitivity",) if "supply_sensitivity" not in table and kind in SUPPLY_SENSITIVE else (),
         )
     except BoardError as err:
         raise err.located(key=key) from None
