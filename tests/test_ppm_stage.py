@@ -158,7 +158,8 @@ def test_ring_oscillator_unfit_and_crystal_fit_at_board_level(consumer, passes, 
     assert accuracy.passes is passes
     # Common practice: cooled by 35 °C a 4 MHz crystal moves about 10 ppm, a ring oscillator about 12.5 %.
     if consumer.endswith("ring"):
-        assert accuracy.result.worst_case == pytest.approx(0.01 + 0.125, abs=1e-12)  # ±1 % trim + 12.5 % cooled
+        # ±1 % trim + 12.5 % cooled + ±0.5 % over the supply (the demo states it since ppm-no-supply).
+        assert accuracy.result.worst_case == pytest.approx(0.01 + 0.125 + 0.005, abs=1e-12)
         assert accuracy.result.worst_temperature_c == -10.0
     else:
         # ±30 ppm + 10 ppm cooled + aging 5 ppm + 4 x 2 ppm over five years.
