@@ -17,6 +17,7 @@ from pathlib import Path
 from typing import Any, TypeVar
 
 from clockplan.errors import BoardError, ClockplanError, did_you_mean
+from clockplan.limits import check_limits
 from clockplan.parts import FrequencyRange, IntChoices
 from clockplan.units import parse_frequency, parse_ratio
 
@@ -317,6 +318,7 @@ def read_document(
         raise BoardError(f"not valid TOML: {err}", file=file, hint="write numbers of a sensible size") from None
     ctx = Locator(file, LineIndex(text))
     _check_nesting(doc, ctx)
+    check_limits(doc, ctx.error)
     for section in doc:
         if section not in sections:
             hint = hint_for(section) or did_you_mean(section, sections) or "sections: " + ", ".join(sections)
