@@ -18,6 +18,7 @@ explains the syntax.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from fractions import Fraction
@@ -302,12 +303,17 @@ def check_limits(doc: dict[str, Any], error: Callable[[str, str, str], BoardErro
 def _check(limit: Limit, value: Any, key: str, error: Callable[[str, str, str], BoardError]) -> None:
     try:
         numbers = limit.read(value)
+    except OverflowError:
+        numbers = [math.nan]  # too large for a float: far outside any range
     except (ClockplanError, ValueError, ArithmeticError, TypeError, AttributeError, IndexError):
         return  # not a number at all: the section reader says why
     for number in numbers:
         if not limit.inside(number):
             name = key.rsplit(".", 1)[-1]
-            side = "negative, below" if number < 0 <= limit.low else ("below" if number < limit.low else "above")
+            if number != number:
+                side = "far beyond"
+            else:
+                side = "negative, below" if number < 0 <= limit.low else ("below" if number < limit.low else "above")
             raise error(
                 key,
                 f"{name} = {_shorten(value)} is {side} its range {limit.shown}",
