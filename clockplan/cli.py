@@ -95,8 +95,13 @@ def _add_loop_bandwidth_option(parser: argparse.ArgumentParser) -> None:
 def _loop_bandwidth(args: argparse.Namespace):
     from clockplan.units import parse_frequency
 
+    from clockplan.errors import ClockplanError
+
     text = getattr(args, "loop_bandwidth", None)
-    return parse_frequency(text) if text is not None else None
+    try:
+        return parse_frequency(text) if text is not None else None
+    except ClockplanError as err:
+        raise err.located(key="--loop-bandwidth") from None
 
 
 def _analysis_options(args: argparse.Namespace, progress=None):
