@@ -538,6 +538,7 @@ def _add_loop_command(commands) -> None:
     loop.add_argument("board", help="board file (TOML)")
     loop.add_argument("pll", help="the PLL's id")
     loop.add_argument("--json", action="store_true", help="write the filter as a JSON document to stdout")
+    loop.add_argument("--fail-on", choices=("warning", "unchecked", "error"), default="error", help=_FAIL_ON_HELP)
     _add_display_options(loop)
     loop.set_defaults(run=_run_loop)
 
@@ -559,7 +560,8 @@ def _run_loop(args: argparse.Namespace) -> int:
 
         console.print(f"[bold]clockplan loop[/]: {escape(args.pll)} on {escape(analysis.board.name)} ({escape(args.board)})")
         console.print(loop_view(analysis, args.pll, result))
-    return EXIT_OK
+    # The exit rules of audit: a consumer over its jitter budget (in the table above) is an error finding.
+    return _exit_status(analysis, args.fail_on)
 
 
 # --------------------------------------------------------------------------- synthesis
