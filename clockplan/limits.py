@@ -238,7 +238,7 @@ LIMITS: tuple[Limit, ...] = (
     Limit("consumer.max_synthesis_error", _ppm, -1, 1, "±100 %", _OURS),
     Limit("consumer.ppm", _ppm, -1, 1, "±100 %", _OURS),
     Limit("consumer.jitter", _TIME, Fraction(1, 10**18), 1, "1 as .. 1 s", _OURS),
-    Limit("consumer.jitter_rms", _TIME, Fraction(1, 10**18), 1, "1 as .. 1 s", _OURS),
+    Limit("consumer.spread", _ppm, -1, 1, "±100 %", _OURS),
     Limit("consumer.jitter_pp", _TIME, Fraction(1, 10**18), 1, "1 as .. 1 s", _OURS),
     Limit("consumer.converter.snr", _DECIBELS, 0, 300, "0 .. 300 dB", _OURS),
     Limit("consumer.rtc.drift", _quantity("s"), Fraction(1, 10**18), 86400, "1 as .. 1 day", _OURS),
@@ -247,6 +247,8 @@ LIMITS: tuple[Limit, ...] = (
     Limit("consumer.uart.baud", _NUMBER, Fraction(1, 1000), 10**12, "0.001 .. 1e12 baud", _OURS),
     Limit("consumer.uart.divider", _NUMBER, Fraction(1, 1000), 10**12, "0.001 .. 1e12", _OURS),
     Limit("consumer.uart.oversampling", _NUMBER, 1, 10**6, "1 .. 1e6", _OURS),
+    Limit("consumer.uart.frame_bits", _NUMBER, 1, 1000, "1 .. 1000", _OURS),
+    Limit("consumer.uart.sample_ticks", _NUMBER, 0, 10**6, "0 .. 1e6", _OURS),
     Limit("consumer.can.*", _NUMBER, 0, 1000, "0 .. 1000 time quanta", _OURS),
     # --- parts library (synth/library.py)
     Limit("*.cost", _NUMBER, 0, 10**9, "0 .. 1e9", _OURS),

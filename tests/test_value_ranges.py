@@ -65,7 +65,7 @@ def _run(args: list[str]) -> tuple[int, str, str]:
 def test_the_base_board_reads_and_audits():
     # The rows below change one value each: the board itself must be good.
     board = parse_board(RICH, "rich.toml")
-    assert len(board.references) == 3
+    assert len(board.references) == 6 and len(board.plls) == 4
 
 
 @pytest.mark.parametrize("old, new, key", [c[1:] for c in CASES], ids=[c[0] for c in CASES])
@@ -130,3 +130,32 @@ def test_the_json_of_the_base_board_is_finite(tmp_path):
     code, out, err = _run(["audit", str(path), "--format", "json"])
     assert code in (0, 1), err
     json.loads(out, parse_constant=lambda name: pytest.fail(f"{name} in the JSON"))
+
+
+#: Rows of the range table the fuzz base board leaves out: alternatives to a key it has (a
+#: crystal's stray tolerance, an oven's power as currents, a loop as polynomials, a spread as a
+#: range, a uart's own divider) and the parts library's own keys (cost, output_divider).
+_NOT_IN_THE_FUZZ_BOARD = {
+    "*.load.stray_tolerance", "*.load.capacitor_tolerance", "*.power.steady_current", "*.power.warmup",
+    "*.spread.range", "*.vco_phase_noise.floor", "pll.output_divider", "pll.max_denominator",
+    "*.loop.open_loop_numerator", "*.loop.open_loop_denominator", "consumer.spread", "consumer.uart.divider",
+    "consumer.uart.frame_bits", "consumer.uart.sample_ticks", "*.cost",
+}
+
+
+def test_the_fuzz_base_board_has_a_value_for_every_other_row_of_the_range_table():
+    # tests/strategies.py plants extreme magnitudes in the numeric leaves of RANGES_BOARD: the
+    # campaign reaches a key of the table only if the board has it.
+    import tomllib
+
+    paths, stack = set(), [(tomllib.loads(RANGES_BOARD), ())]
+    while stack:
+        item, path = stack.pop()
+        if isinstance(item, dict):
+            for key, value in item.items():
+                paths.add(path + (key,))
+                stack.append((value, path + (key,)))
+        elif isinstance(item, list):
+            stack += [(value, path) for value in item]
+    missing = {limit.path for limit in LIMITS if not any(limit.matches(path) for path in paths)}
+    assert missing == _NOT_IN_THE_FUZZ_BOARD
