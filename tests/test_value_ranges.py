@@ -159,3 +159,12 @@ def test_the_fuzz_base_board_has_a_value_for_every_other_row_of_the_range_table(
             stack += [(value, path) for value in item]
     missing = {limit.path for limit in LIMITS if not any(limit.matches(path) for path in paths)}
     assert missing == _NOT_IN_THE_FUZZ_BOARD
+
+
+def test_board_format_lists_the_range_table_as_the_code_has_it():
+    from pathlib import Path
+
+    from clockplan.limits import limits_markdown
+
+    text = (Path(__file__).resolve().parents[1] / "docs" / "board-format.md").read_text(encoding="utf-8")
+    assert limits_markdown() in text
