@@ -43,8 +43,9 @@ _YEAR_S = 365.25 * 86400
 class Limit:
     """The range of one key (SI values; ``shown`` is the range as the docs and messages say it).
 
-    ``path`` is the key's path with array indices removed, ``*`` standing for any one
-    name (``"*.load.c1"`` is a crystal's motional capacitance wherever it appears);
+    ``path`` is the key's path with array indices written ``[]`` (any index), ``*``
+    standing for any one name (``"*.load.c1"`` is a crystal's motional capacitance
+    wherever it appears);
     it matches the end of a value's path. ``read`` turns the raw value into the
     numbers to check (several for a pair or a table of choices); ``allow_zero``
     admits an exact zero below ``low``.
@@ -60,7 +61,7 @@ class Limit:
 
     def matches(self, parts: tuple[str, ...]) -> bool:
         """True if the key path ``parts`` (indices removed) ends with this row's path."""
-        pattern = self.path.split(".")
+        pattern = self.path.replace("[]", "").split(".")
         if len(parts) < len(pattern):
             return False
         return all(p == "*" or p == q for p, q in zip(pattern, parts[-len(pattern):]))
@@ -206,18 +207,18 @@ LIMITS: tuple[Limit, ...] = (
     Limit("*.noise.modulator_order", _NUMBER, 0, 10, "0 .. 10", _OURS),
     Limit("*.additive_jitter", _TIME, Fraction(1, 10**18), 1, "0, or 1 as .. 1 s", _OURS, allow_zero=True),
     # --- PLLs: ratios and dividers (boardfile.py, synth/library.py)
-    Limit("pll.n", _NUMBER, Fraction(1, 1000), 10**12, "0.001 .. 1e12", _OURS),
-    Limit("pll.r", _NUMBER, 1, 10**12, "1 .. 1e12", _OURS),
-    Limit("pll.settings.n", _NUMBER, Fraction(1, 1000), 10**12, "0.001 .. 1e12", _OURS),
-    Limit("pll.settings.r", _NUMBER, 1, 10**12, "1 .. 1e12", _OURS),
-    Limit("pll.settings.outputs", _NUMBER, 1, 10**12, "1 .. 1e12", _OURS),
-    Limit("pll.outputs.*.divider", _NUMBER, 1, 10**12, "1 .. 1e12", _OURS),
-    Limit("pll.output_divider", _NUMBER, 1, 10**12, "1 .. 1e12", _OURS),
-    Limit("pll.denominator", _NUMBER, 1, 2**64, "1 .. 2^64", _OURS),
-    Limit("pll.max_denominator", _NUMBER, 1, 2**64, "1 .. 2^64", _OURS),
-    Limit("divider.ratio", _NUMBER, 1, 10**12, "1 .. 1e12", _OURS),
-    Limit("divider.settings.ratio", _NUMBER, 1, 10**12, "1 .. 1e12", _OURS),
-    Limit("buffer.outputs", _NUMBER, 1, 10**6, "1 .. 1e6", _OURS),
+    Limit("*.n", _NUMBER, Fraction(1, 1000), 10**12, "0.001 .. 1e12", _OURS),
+    Limit("*.r", _NUMBER, 1, 10**12, "1 .. 1e12", _OURS),
+    Limit("pll[].settings.n", _NUMBER, Fraction(1, 1000), 10**12, "0.001 .. 1e12", _OURS),
+    Limit("pll[].settings.r", _NUMBER, 1, 10**12, "1 .. 1e12", _OURS),
+    Limit("pll[].settings.outputs", _NUMBER, 1, 10**12, "1 .. 1e12", _OURS),
+    Limit("pll[].outputs.*.divider", _NUMBER, 1, 10**12, "1 .. 1e12", _OURS),
+    Limit("pll[].output_divider", _NUMBER, 1, 10**12, "1 .. 1e12", _OURS),
+    Limit("pll[].denominator", _NUMBER, 1, 2**64, "1 .. 2^64", _OURS),
+    Limit("pll[].max_denominator", _NUMBER, 1, 2**64, "1 .. 2^64", _OURS),
+    Limit("divider[].ratio", _NUMBER, 1, 10**12, "1 .. 1e12", _OURS),
+    Limit("divider[].settings.ratio", _NUMBER, 1, 10**12, "1 .. 1e12", _OURS),
+    Limit("buffer[].outputs", _NUMBER, 1, 10**6, "1 .. 1e6", _OURS),
     # --- loop response (jitter/parse.py) and loop filter (loopfilter/board.py)
     Limit("*.loop.damping", _NUMBER, Fraction(1, 1000), 1000, "0.001 .. 1000", _OURS),
     Limit("*.loop.phase_margin", _DEGREES, 0, 180, "0 .. 180°", _PRACTICE),
@@ -235,21 +236,21 @@ LIMITS: tuple[Limit, ...] = (
     Limit("*.loop_filter.c2", _quantity("F"), Fraction(1, 10**18), 1, "1 aF .. 1 F", _OURS),
     Limit("*.loop_filter.c3", _quantity("F"), Fraction(1, 10**18), 1, "1 aF .. 1 F", _OURS),
     # --- consumers: budgets (standards/resolve.py, jitter/parse.py)
-    Limit("consumer.max_synthesis_error", _ppm, -1, 1, "±100 %", _OURS),
-    Limit("consumer.ppm", _ppm, -1, 1, "±100 %", _OURS),
-    Limit("consumer.jitter", _TIME, Fraction(1, 10**18), 1, "1 as .. 1 s", _OURS),
-    Limit("consumer.spread", _ppm, -1, 1, "±100 %", _OURS),
-    Limit("consumer.jitter_pp", _TIME, Fraction(1, 10**18), 1, "1 as .. 1 s", _OURS),
-    Limit("consumer.converter.snr", _DECIBELS, 0, 300, "0 .. 300 dB", _OURS),
-    Limit("consumer.rtc.drift", _quantity("s"), Fraction(1, 10**18), 86400, "1 as .. 1 day", _OURS),
-    Limit("consumer.rtc.per", _each(lambda v: parse_duration(("1 " + v) if isinstance(v, str) and v.strip()[:1].isalpha() else v)),
+    Limit("consumer[].max_synthesis_error", _ppm, -1, 1, "±100 %", _OURS),
+    Limit("consumer[].ppm", _ppm, -1, 1, "±100 %", _OURS),
+    Limit("consumer[].jitter", _TIME, Fraction(1, 10**18), 1, "1 as .. 1 s", _OURS),
+    Limit("consumer[].spread", _ppm, -1, 1, "±100 %", _OURS),
+    Limit("consumer[].jitter_pp", _TIME, Fraction(1, 10**18), 1, "1 as .. 1 s", _OURS),
+    Limit("consumer[].converter.snr", _DECIBELS, 0, 300, "0 .. 300 dB", _OURS),
+    Limit("consumer[].rtc.drift", _quantity("s"), Fraction(1, 10**18), 86400, "1 as .. 1 day", _OURS),
+    Limit("consumer[].rtc.per", _each(lambda v: parse_duration(("1 " + v) if isinstance(v, str) and v.strip()[:1].isalpha() else v)),
           1, 100 * _YEAR_S, "1 s .. 100 years", _OURS),
-    Limit("consumer.uart.baud", _NUMBER, Fraction(1, 1000), 10**12, "0.001 .. 1e12 baud", _OURS),
-    Limit("consumer.uart.divider", _NUMBER, Fraction(1, 1000), 10**12, "0.001 .. 1e12", _OURS),
-    Limit("consumer.uart.oversampling", _NUMBER, 1, 10**6, "1 .. 1e6", _OURS),
-    Limit("consumer.uart.frame_bits", _NUMBER, 1, 1000, "1 .. 1000", _OURS),
-    Limit("consumer.uart.sample_ticks", _NUMBER, 0, 10**6, "0 .. 1e6", _OURS),
-    Limit("consumer.can.*", _NUMBER, 0, 1000, "0 .. 1000 time quanta", _OURS),
+    Limit("consumer[].uart.baud", _NUMBER, Fraction(1, 1000), 10**12, "0.001 .. 1e12 baud", _OURS),
+    Limit("consumer[].uart.divider", _NUMBER, Fraction(1, 1000), 10**12, "0.001 .. 1e12", _OURS),
+    Limit("consumer[].uart.oversampling", _NUMBER, 1, 10**6, "1 .. 1e6", _OURS),
+    Limit("consumer[].uart.frame_bits", _NUMBER, 1, 1000, "1 .. 1000", _OURS),
+    Limit("consumer[].uart.sample_ticks", _NUMBER, 0, 10**6, "0 .. 1e6", _OURS),
+    Limit("consumer[].can.*", _NUMBER, 0, 1000, "0 .. 1000 time quanta", _OURS),
     # --- parts library (synth/library.py)
     Limit("*.cost", _NUMBER, 0, 10**9, "0 .. 1e9", _OURS),
     Limit("*.power", lambda v: [] if isinstance(v, dict) else _quantity("W")(v), 0, 1000, "0 .. 1 kW", _OURS),
@@ -266,7 +267,7 @@ def limit_for(parts: tuple[str, ...]) -> Limit | None:
 
 
 def _specificity(limit: Limit) -> tuple[int, int]:
-    names = limit.path.split(".")
+    names = limit.path.replace("[]", "").split(".")
     return (len(names), -names.count("*"))
 
 
