@@ -61,6 +61,8 @@ def _add_output_options(parser: argparse.ArgumentParser) -> None:
 
 
 def _count(text: str) -> int:
+    if not text.isascii():  # int() would read full-width or Arabic-Indic digits
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number written with the digits 0-9")
     try:
         value = int(text)
     except ValueError:

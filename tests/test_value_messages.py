@@ -158,3 +158,11 @@ def test_a_non_finite_budget_figure_is_an_error_finding_and_null_in_the_json(mon
     assert "jitter.jitter_rms_s = nan" in " ".join(f.message for f in found)
     document = json.loads(dumps({"value": float("nan"), "list": [float("-inf"), 2.5]}))
     assert document == {"value": None, "list": [None, 2.5]}
+
+
+def test_a_count_option_with_non_ascii_digits_is_a_usage_error(tmp_path):
+    path = tmp_path / "board.toml"
+    path.write_text(MINIMAL, encoding="utf-8")
+    assert int("１２") == 12  # what Python alone would read
+    code, _, err = _run(["audit", str(path), "--samples", "１２"])
+    assert code == 2 and "digits 0-9" in err
