@@ -334,7 +334,7 @@ def test_rich_markup_in_a_board_name_prints_as_text_in_the_loop_command(tmp_path
     path.write_text(text.replace('name = "Sampling receiver"', 'name = "[/] [bold]receiver[/bold]"', 1), encoding="utf-8")
     status = main(["loop", str(path), "conv_synth", "--no-color", "--width", "140"])
     out = capsys.readouterr().out
-    assert status == 0
+    assert status == 1  # the demo fails on purpose; loop exits by audit's rules (issue 15)
     assert "[/] [bold]receiver[/bold]" in out
 
 

@@ -166,3 +166,24 @@ def test_a_count_option_with_non_ascii_digits_is_a_usage_error(tmp_path):
     assert int("１２") == 12  # what Python alone would read
     code, _, err = _run(["audit", str(path), "--samples", "１２"])
     assert code == 2 and "digits 0-9" in err
+
+
+@pytest.mark.parametrize("budget", ['"0 ppm"', '"-0.0 ppm"', '"0..0 ppm"'])
+def test_a_zero_width_ppm_budget_is_judged_not_divided_by(tmp_path, budget):
+    # Found by the extreme-magnitude mutation: a ±0 ppm budget divided its margin by zero.
+    from tests.boards import RANGES_BOARD
+
+    path = tmp_path / "board.toml"
+    path.write_text(RANGES_BOARD.replace('ppm = "±100 ppm"', f"ppm = {budget}", 1), encoding="utf-8")
+    code, out, err = _run(["audit", str(path), "--format", "json"])
+    assert code == 1, err  # a real oscillator never meets ±0 ppm
+    link = {c["id"]: c for c in json.loads(out)["consumers"]}["link"]
+    assert link["status"] == "fail"
+
+
+def test_budget_headroom_of_a_zero_width_budget():
+    from clockplan.margins import budget_headroom
+
+    assert budget_headroom(Fraction(3), Fraction(4)) == Fraction(3, 4)
+    assert budget_headroom(Fraction(0), Fraction(0)) == 0
+    assert budget_headroom(Fraction(-1, 10**9), Fraction(0)) == -1

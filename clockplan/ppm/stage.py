@@ -35,7 +35,7 @@ from clockplan.ppm.board import (
 )
 from clockplan.ppm.conditions import condition_findings, require_conditions
 from clockplan.ppm.display import format_error, format_limits
-from clockplan.margins import format_margin_warning, is_thin
+from clockplan.margins import budget_headroom, format_margin_warning, is_thin
 from clockplan.ppm.grades import (
     ALWAYS_ON_BELOW_HZ,
     Grade,
@@ -148,7 +148,7 @@ def _stopped_early(summary: MonteCarloSummary, board_name: str) -> Finding:
 
 
 def _fits(result: AccuracyResult, margin: Fraction) -> bool:
-    return result.passes and not is_thin(result.margin / result.budget.half_width, margin)
+    return result.passes and not is_thin(budget_headroom(result.margin, result.budget.half_width), margin)
 
 
 #: The note a budget derived from a timekeeping target carries (``rtc = { drift, per }``, clockplan.standards).

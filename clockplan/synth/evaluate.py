@@ -21,6 +21,7 @@ from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
 from clockplan.findings import Severity
+from clockplan.margins import budget_headroom
 from clockplan.units import format_ppm
 from clockplan.synth.build import parts_board, parts_text, tree_parts
 from clockplan.synth.tree import Block, DirectClass, MainReference, Problem, Tree
@@ -67,7 +68,7 @@ def _consumer_margins(analysis: "Analysis") -> dict[str, tuple[str, float]]:
         rows: list[tuple[str, float]] = []
         accuracy = result.accuracy
         if accuracy is not None and getattr(accuracy, "judged", False):
-            rows.append(("ppm", float(accuracy.result.margin / accuracy.budget.half_width)))
+            rows.append(("ppm", float(budget_headroom(accuracy.result.margin, accuracy.budget.half_width))))
         jitter = result.jitter
         if jitter is not None and jitter.budget_margin() is not None:
             rows.append(("jitter", float(jitter.budget_margin()[0])))
