@@ -128,7 +128,8 @@ def _duration_or_time(value: Any) -> float:
 
 
 def _ppm(value: Any) -> list[float | Fraction]:
-    return list(parse_ppm(value))
+    """The magnitudes of both ends of a frequency-error range (zero, or 1e-18 .. 1)."""
+    return [abs(end) for end in parse_ppm(value)]
 
 
 def _point_temperatures(value: Any) -> list[float | Fraction]:
@@ -153,6 +154,8 @@ _DEGREES = _each(_strip_units("degrees", "degree", "deg", "°"))
 _DECIBELS = _each(_strip_units("dBFS", "dBc", "dB"))
 
 _OURS = "our choice"
+#: The smallest frequency error read apart from zero: 1e-18 (1e-12 ppm), below the best optical clocks' figures.
+_PPM_LOW = Fraction(1, 10**18)
 _PRACTICE = "common practice"
 
 #: Every numeric key and its range. Frequencies (``frequency``, ``vco``, ``pfd``,
@@ -163,13 +166,13 @@ LIMITS: tuple[Limit, ...] = (
     Limit("board.lifetime", _DURATION, 0, 100 * _YEAR_S, "0 .. 100 years", _OURS),
     Limit("board.temperature", _TEMPERATURE, -273.15, 1000, "-273.15 .. 1000 °C", _OURS),
     # --- references: accuracy (ppm/parse.py)
-    Limit("*.tolerance", _ppm, -1, 1, "±100 % (±1e6 ppm)", _OURS),
-    Limit("*.stability", _ppm, -1, 1, "±100 % (±1e6 ppm)", _OURS),
+    Limit("*.tolerance", _ppm, _PPM_LOW, 1, "0, or 1e-12 ppm .. ±1e6 ppm (±100 %)", _OURS, allow_zero=True),
+    Limit("*.stability", _ppm, _PPM_LOW, 1, "0, or 1e-12 ppm .. ±1e6 ppm (±100 %)", _OURS, allow_zero=True),
     Limit("*.stability_range", _TEMPERATURE, -273.15, 1000, "-273.15 .. 1000 °C", _OURS),
-    Limit("*.supply_sensitivity", _ppm, -1, 1, "±100 % (±1e6 ppm)", _OURS),
-    Limit("*.load_sensitivity", _ppm, -1, 1, "±100 % (±1e6 ppm)", _OURS),
-    Limit("*.aging.first_year", _ppm, -1, 1, "±100 % (±1e6 ppm)", _OURS),
-    Limit("*.aging.per_year", _ppm, -1, 1, "±100 % (±1e6 ppm)", _OURS),
+    Limit("*.supply_sensitivity", _ppm, _PPM_LOW, 1, "0, or 1e-12 ppm .. ±1e6 ppm (±100 %)", _OURS, allow_zero=True),
+    Limit("*.load_sensitivity", _ppm, _PPM_LOW, 1, "0, or 1e-12 ppm .. ±1e6 ppm (±100 %)", _OURS, allow_zero=True),
+    Limit("*.aging.first_year", _ppm, _PPM_LOW, 1, "0, or 1e-12 ppm .. ±1e6 ppm (±100 %)", _OURS, allow_zero=True),
+    Limit("*.aging.per_year", _ppm, _PPM_LOW, 1, "0, or 1e-12 ppm .. ±1e6 ppm (±100 %)", _OURS, allow_zero=True),
     Limit("*.aging.time_constant", _DURATION, 1e-3, 100 * _YEAR_S, "1 ms .. 100 years", _OURS),
     Limit("*.temperature_curve.angle_offset_arcmin", _NUMBER, -600, 600, "-600 .. 600 arcmin (±10°)", _OURS),
     Limit("*.temperature_curve.coefficients_ppm", _NUMBER, -1000, 1000, "-1000 .. 1000 ppm/°C^k each", _OURS),
@@ -183,17 +186,17 @@ LIMITS: tuple[Limit, ...] = (
     Limit("*.load.capacitors", _quantity("F"), 0, Fraction(1, 10**6), "0 .. 1 µF", _OURS),
     Limit("*.load.stray", _quantity("F"), 0, Fraction(1, 10**6), "0 .. 1 µF", _OURS),
     Limit("*.load.stray_tolerance", _quantity("F"), 0, Fraction(1, 10**6), "0 .. 1 µF", _OURS),
-    Limit("*.load.capacitor_tolerance", _ppm, -1, 1, "±100 %", _OURS),
+    Limit("*.load.capacitor_tolerance", _ppm, _PPM_LOW, 1, "0, or 1e-12 ppm .. ±100 %", _OURS, allow_zero=True),
     Limit("*.trim", lambda v: _ppm(v) if not (isinstance(v, str) and v.rstrip().endswith("Hz")) else [],
-          -1, 1, "±100 %", _OURS),
+          _PPM_LOW, 1, "0, or 1e-12 ppm .. ±100 %", _OURS, allow_zero=True),
     Limit("*.power.supply", _quantity("V"), 0, 1000, "0 .. 1 kV", _OURS),
     Limit("*.power.warmup_current", _quantity("A"), 0, 100, "0 .. 100 A", _OURS),
     Limit("*.power.steady_current", _quantity("A"), 0, 100, "0 .. 100 A", _OURS),
     Limit("*.power.warmup", _quantity("W"), 0, 1000, "0 .. 1 kW", _OURS),
     Limit("*.power.steady", _quantity("W"), 0, 1000, "0 .. 1 kW", _OURS),
     Limit("*.power.warmup_time", _each(_duration_or_time), 0, 86400, "0 .. 1 day", _OURS),
-    Limit("*.spread.depth", _ppm, -1, 1, "±100 %", _OURS),
-    Limit("*.spread.range", _ppm, -1, 1, "±100 %", _OURS),
+    Limit("*.spread.depth", _ppm, _PPM_LOW, 1, "0, or 1e-12 ppm .. ±100 %", _OURS, allow_zero=True),
+    Limit("*.spread.range", _ppm, _PPM_LOW, 1, "0, or 1e-12 ppm .. ±100 %", _OURS, allow_zero=True),
     # --- phase noise (jitter/parse.py): levels relative to the carrier
     Limit("*.phase_noise", _levels_of_points, -400, 50, "-400 .. +50 dBc/Hz (levels)", _OURS),
     Limit("*.phase_noise.floor", _LEVELS, -400, 50, "-400 .. +50 dBc/Hz", _OURS),
@@ -236,10 +239,10 @@ LIMITS: tuple[Limit, ...] = (
     Limit("*.loop_filter.c2", _quantity("F"), Fraction(1, 10**18), 1, "1 aF .. 1 F", _OURS),
     Limit("*.loop_filter.c3", _quantity("F"), Fraction(1, 10**18), 1, "1 aF .. 1 F", _OURS),
     # --- consumers: budgets (standards/resolve.py, jitter/parse.py)
-    Limit("consumer[].max_synthesis_error", _ppm, -1, 1, "±100 %", _OURS),
-    Limit("consumer[].ppm", _ppm, -1, 1, "±100 %", _OURS),
+    Limit("consumer[].max_synthesis_error", _ppm, _PPM_LOW, 1, "0, or 1e-12 ppm .. ±100 %", _OURS, allow_zero=True),
+    Limit("consumer[].ppm", _ppm, _PPM_LOW, 1, "0, or 1e-12 ppm .. ±100 %", _OURS, allow_zero=True),
     Limit("consumer[].jitter", _TIME, Fraction(1, 10**18), 1, "1 as .. 1 s", _OURS),
-    Limit("consumer[].spread", _ppm, -1, 1, "±100 %", _OURS),
+    Limit("consumer[].spread", _ppm, _PPM_LOW, 1, "0, or 1e-12 ppm .. ±100 %", _OURS, allow_zero=True),
     Limit("consumer[].jitter_pp", _TIME, Fraction(1, 10**18), 1, "1 as .. 1 s", _OURS),
     Limit("consumer[].converter.snr", _DECIBELS, 0, 300, "0 .. 300 dB", _OURS),
     Limit("consumer[].rtc.drift", _quantity("s"), Fraction(1, 10**18), 86400, "1 as .. 1 day", _OURS),

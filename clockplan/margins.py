@@ -130,7 +130,12 @@ def budget_headroom(margin: Fraction, half_width: Fraction) -> Fraction:
     Fraction(2, 5)
     >>> budget_headroom(Fraction(0), Fraction(0)), budget_headroom(Fraction(-1, 10**6), Fraction(0))
     (Fraction(0, 1), Fraction(-1, 1))
+    >>> budget_headroom(-1e-6, Fraction(1, 10**400))
+    Fraction(-1000000000, 1)
     """
     if half_width == 0:
         return Fraction(0) if margin >= 0 else Fraction(-1)
-    return margin / half_width
+    # Exact, whatever mix of float and Fraction: a float margin over a Fraction width smaller than
+    # the smallest float would otherwise divide by 0.0. Held within ±1e9 so that it converts to a float.
+    headroom = Fraction(margin) / Fraction(half_width)
+    return min(max(headroom, Fraction(-(10**9))), Fraction(10**9))

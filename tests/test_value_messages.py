@@ -187,3 +187,25 @@ def test_budget_headroom_of_a_zero_width_budget():
     assert budget_headroom(Fraction(3), Fraction(4)) == Fraction(3, 4)
     assert budget_headroom(Fraction(0), Fraction(0)) == 0
     assert budget_headroom(Fraction(-1, 10**9), Fraction(0)) == -1
+
+
+def test_budget_headroom_of_a_float_margin_over_a_width_below_the_smallest_float():
+    # Found by the campaign: a budget of "5e-324 ppm" made float(width) 0.0 and a division by zero.
+    from clockplan.margins import budget_headroom
+
+    assert budget_headroom(1e-6, Fraction(1, 10**400)) == 10**9
+    assert budget_headroom(-1e-6, Fraction(1, 10**400)) == -(10**9)
+    assert budget_headroom(0.5, Fraction(1)) == Fraction(1, 2)
+
+
+@pytest.mark.parametrize("budget, refused", [('"5e-324 ppm"', True), ('"1e-13 ppm"', True),
+                                            ('"1e-12 ppm"', False), ('"0 ppm"', False)])
+def test_a_ppm_figure_below_1e_12_ppm_other_than_zero_is_refused(budget, refused):
+    from tests.boards import RANGES_BOARD
+
+    text = RANGES_BOARD.replace('ppm = "±100 ppm"', f"ppm = {budget}", 1)
+    if refused:
+        with pytest.raises(BoardError, match="below its range 0, or 1e-12 ppm"):
+            parse_board(text, "tiny.toml")
+    else:
+        assert parse_board(text, "tiny.toml") is not None
