@@ -113,6 +113,10 @@ def _unpinned(pll: Pll, problem: PllProblem) -> PllProblem | None:
     return replace(problem, r_pin=None, n_pin=None, outputs=outputs)
 
 
+class _OutOfTime(Exception):
+    """The explanation's deadline passed: it stops where it is and says so."""
+
+
 @dataclass
 class _Budget:
     """The explanation's time budget: every relaxed search shares one deadline."""
@@ -121,6 +125,9 @@ class _Budget:
     ran_out: bool = False
 
     def search(self, problem: PllProblem):
+        if time.monotonic() > self.deadline:  # no search starts past the deadline (each costs time even cut)
+            self.ran_out = True
+            raise _OutOfTime
         result = solve_pll(problem, SearchLimits(keep=1, deadline=self.deadline))
         if time.monotonic() > self.deadline:
             self.ran_out = True
@@ -222,11 +229,14 @@ def _pll_problems(plan: "BoardPlan") -> dict[str, PllProblem]:
     return problems
 
 
-def explain_infeasible(plan: "BoardPlan", time_limit_s: float = 10.0) -> Explanation:
+def explain_infeasible(plan: "BoardPlan", time_limit_s: float = 10.0, *, deadline: float | None = None) -> Explanation:
     """Explain why ``plan`` (the nearest plan of an infeasible board) misses.
 
-    The relaxed searches share ``time_limit_s`` (the ``plan`` command passes its
-    ``--time-limit``); when it runs out, the explanation says so.
+    The relaxed searches share ``time_limit_s`` from now, or stop at
+    ``deadline`` (a ``time.monotonic()`` instant) if that comes first: the
+    ``plan`` command passes its run's one deadline, so the explanation gets
+    what the search left, never a fresh budget. When it runs out, the
+    explanation says so.
 
     Examples
     --------
@@ -242,13 +252,18 @@ def explain_infeasible(plan: "BoardPlan", time_limit_s: float = 10.0) -> Explana
         )
     for reason in plan.best.blocked:
         explanation.conflicts.append(Conflict((), "part-cannot-run", reason))
-    _explain_margin(plan, explanation, time_limit_s)
+    end = time.monotonic() + time_limit_s
+    end = end if deadline is None else min(end, deadline)
+    _explain_margin(plan, explanation, end)
     missing = {cid for cid, err in plan.best.errors.items() if abs(err) > tolerances.get(cid, Fraction(0))}
     if not missing:
         return explanation
     explained: set[str] = set()
-    budget = _Budget(time.monotonic() + time_limit_s)
-    _explain_plls(plan, explanation, missing, explained, budget)
+    budget = _Budget(end)
+    try:
+        _explain_plls(plan, explanation, missing, explained, budget)
+    except _OutOfTime:
+        pass  # budget.ran_out is set: said below
     if budget.ran_out:
         explanation.conflicts.append(Conflict(
             (), "time-limit", "the explanation stopped at its time limit: the blocking constraints named may be "
@@ -268,7 +283,7 @@ def explain_infeasible(plan: "BoardPlan", time_limit_s: float = 10.0) -> Explana
     return explanation
 
 
-def _explain_margin(plan: "BoardPlan", explanation: Explanation, time_limit_s: float) -> None:
+def _explain_margin(plan: "BoardPlan", explanation: Explanation, end: float) -> None:
     """Say so when the ranges' margin for the reference's error band and spread is what blocks the board.
 
     The planner keeps every input, PFD and VCO range clear of its edges by
@@ -282,7 +297,9 @@ def _explain_margin(plan: "BoardPlan", explanation: Explanation, time_limit_s: f
     narrowed = margined_board(board)
     if narrowed is board:
         return
-    at_nominal = plan_board(board, PlanOptions(time_limit_s=max(0.1, time_limit_s / 4)), margin=False)
+    # A quarter of what is left, inside the run's deadline (never a fresh budget of its own).
+    left = max(0.0, end - time.monotonic())
+    at_nominal = plan_board(board, PlanOptions(time_limit_s=left / 4, deadline=end), margin=False)
     if not at_nominal.feasible:
         return
     from clockplan.audit import check_range_extremes
