@@ -21,6 +21,7 @@ from dataclasses import dataclass, field, replace
 from fractions import Fraction
 from typing import TYPE_CHECKING, Any
 
+from clockplan.deadline import CUT_RUN_NOTE
 from clockplan.parts import Denominator, FrequencyRange, IntChoices, Pll
 from clockplan.plan.pll_solver import OutputSpec, PllProblem, SearchLimits, solve_pll
 from clockplan.plan.rational import lcm_fractions
@@ -248,7 +249,8 @@ def explain_infeasible(plan: "BoardPlan", time_limit_s: float = 10.0, *, deadlin
     explanation = Explanation(nearest_errors=dict(plan.best.errors), tolerances=tolerances)
     if any("time limit" in note for note in plan.notes):
         explanation.conflicts.append(
-            Conflict((), "time-limit", "the search stopped at its time limit, so a feasible plan may exist; raise --time-limit")
+            Conflict((), "time-limit", "the search stopped at its time limit, so a feasible plan may exist; raise --time-limit "
+                     f"({CUT_RUN_NOTE})")
         )
     for reason in plan.best.blocked:
         explanation.conflicts.append(Conflict((), "part-cannot-run", reason))
@@ -267,7 +269,7 @@ def explain_infeasible(plan: "BoardPlan", time_limit_s: float = 10.0, *, deadlin
     if budget.ran_out:
         explanation.conflicts.append(Conflict(
             (), "time-limit", "the explanation stopped at its time limit: the blocking constraints named may be "
-            "incomplete; raise --time-limit"))
+            f"incomplete; raise --time-limit ({CUT_RUN_NOTE})"))
         return explanation  # a consumer left unexamined is not shown unreachable
     bounded = bool(plan.notes)
     for cid in sorted(missing - explained):

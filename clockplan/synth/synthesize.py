@@ -24,6 +24,7 @@ from dataclasses import dataclass, field
 from fractions import Fraction
 from pathlib import Path
 
+from clockplan.deadline import CUT_RUN_NOTE
 from clockplan.errors import BoardError
 from clockplan.synth.evaluate import Evaluator, Verified, verify_tree
 from clockplan.synth.explain import EXPLAIN_SECONDS, Explanation, explain
@@ -232,7 +233,7 @@ def synthesize(spec: ConsumerList, library: PartsLibrary | None = None, options:
     if stats.stopped:
         notes.append(
             f"the search stopped at its time limit ({options.time_limit_s:g} s): these are the best trees found, "
-            "not proven the best; raise --time-limit to search further"
+            f"not proven the best; raise --time-limit to search further ({CUT_RUN_NOTE})"
         )
     passing: list[ProposedTree] = []
     failing: list[ProposedTree] = []
