@@ -256,7 +256,10 @@ def explain_infeasible(plan: "BoardPlan", time_limit_s: float = 10.0, *, deadlin
         explanation.conflicts.append(Conflict((), "part-cannot-run", reason))
     end = time.monotonic() + time_limit_s
     end = end if deadline is None else min(end, deadline)
-    _explain_margin(plan, explanation, end)
+    if not _explain_margin(plan, explanation, end):
+        explanation.conflicts.append(Conflict(
+            (), "time-limit", "the time limit passed before the check of the ranges' margin for the reference's "
+            f"error band: a board blocked by that margin is not named so; raise --time-limit ({CUT_RUN_NOTE})"))
     missing = {cid for cid, err in plan.best.errors.items() if abs(err) > tolerances.get(cid, Fraction(0))}
     if not missing:
         return explanation
@@ -285,25 +288,28 @@ def explain_infeasible(plan: "BoardPlan", time_limit_s: float = 10.0, *, deadlin
     return explanation
 
 
-def _explain_margin(plan: "BoardPlan", explanation: Explanation, end: float) -> None:
+def _explain_margin(plan: "BoardPlan", explanation: Explanation, end: float) -> bool:
     """Say so when the ranges' margin for the reference's error band and spread is what blocks the board.
 
     The planner keeps every input, PFD and VCO range clear of its edges by
     that band (docs/planning.md, Ranges at the extremes). When the board plans
     feasibly without the margin, the plan it would give sits on an edge that
     the reference's drift (or a spread sweep) crosses: a real failure, named.
+    False if the deadline ``end`` passed before the check could run.
     """
     from clockplan.plan.board_planner import PlanOptions, margined_board, plan_board
 
     board = plan.board
     narrowed = margined_board(board)
     if narrowed is board:
-        return
+        return True
+    if time.monotonic() > end:
+        return False
     # A quarter of what is left, inside the run's deadline (never a fresh budget of its own).
     left = max(0.0, end - time.monotonic())
     at_nominal = plan_board(board, PlanOptions(time_limit_s=left / 4, deadline=end), margin=False)
-    if not at_nominal.feasible:
-        return
+    if not at_nominal.feasible:  # proven only when the search at nominal was not cut by the deadline
+        return not any("time limit" in note for note in at_nominal.notes)
     from clockplan.audit import check_range_extremes
     from clockplan.extremes import pll_bands
     from clockplan.frequency import propagate
@@ -316,6 +322,7 @@ def _explain_margin(plan: "BoardPlan", explanation: Explanation, end: float) -> 
         "a plan exists at nominal frequencies only, on a range edge the reference's worst-case error (or a spread "
         f"sweep) crosses: {detail}. Widen the part's range, use a more accurate reference, or choose parts whose "
         "ranges do not end at the frequencies needed")))
+    return True
 
 
 def _explain_plls(plan: "BoardPlan", explanation: Explanation, missing: set[str], explained: set[str], budget: _Budget) -> None:

@@ -557,7 +557,7 @@ class _Solver:
         points |= {g.vco_lo for g in self.grids} | {g.vco_hi for g in self.grids}
         for out in self.outputs:
             for index, d in enumerate(out.sweep.values):
-                if index % 1024 == 1023 and self._out_of_time():
+                if index % 64 == 63 and self._out_of_time():
                     break
                 for edge in (d * out.center, d * out.window_lo, d * out.window_hi):
                     if self.vlo <= edge <= self.vhi:
