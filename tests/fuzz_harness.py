@@ -27,7 +27,7 @@ from pathlib import Path
 from clockplan.errors import ClockplanError
 
 __all__ = ["FuzzCrash", "Outcome", "run_case", "run_cli_case", "run_command_case", "alarm", "crash_signature",
-           "OVERRUN_SLACK_S"]
+           "OVERRUN_SLACK_S", "OVERRUN_EXEMPT"]
 
 
 class FuzzCrash(Exception):
@@ -252,6 +252,10 @@ def run_cli_case(data: bytes, args: list[str], *, hang_s: float = 60.0) -> tuple
 #: 1 s; the rest is room for a machine shared by other jobs).
 OVERRUN_SLACK_S = 2.0
 
+#: Commands whose run may pass its --time-limit, and why (docs/files-and-time-limits.md): the limit
+#: bounds their Monte Carlo, not the drawing that follows it.
+OVERRUN_EXEMPT = {"plots": "drawing the PNG files with matplotlib comes on top of the limit"}
+
 
 def run_command_case(case, *, hang_s: float = 60.0, slack_s: float = OVERRUN_SLACK_S) -> tuple[int, str, str]:
     """Run one :class:`tests.fuzz_commands.CommandCase`; check what :func:`run_cli_case` checks, and more.
@@ -283,14 +287,15 @@ def run_command_case(case, *, hang_s: float = 60.0, slack_s: float = OVERRUN_SLA
         except Exception as exc:
             raise FuzzCrash(type(exc).__name__, "".join(traceback.format_exception(exc, limit=-4)), stage) from None
         seconds = time.monotonic() - started
-        stdout, stderr = out.getvalue(), err.getvalue()
+        # The case's temporary folder is a new name each run: taken out, one crash keeps one signature.
+        stdout, stderr = out.getvalue().replace(tmp, "<tmp>"), err.getvalue().replace(tmp, "<tmp>")
         if "Traceback" in stderr or "Traceback" in stdout:
             raise FuzzCrash("traceback", stderr[-2000:], stage)
         if status not in (0, 1, 2, 3):
             raise FuzzCrash(f"exit-{status}", stderr[-2000:], stage)
         if status in (2, 3) and not stderr.startswith("clockplan: "):
             raise FuzzCrash("malformed-error", stderr[:500], stage)
-        if case.time_limit is not None and seconds > case.time_limit + slack_s:
+        if case.time_limit is not None and seconds > case.time_limit + slack_s and case.command not in OVERRUN_EXEMPT:
             raise FuzzCrash("overrun", f"clockplan {' '.join(case.args)}: {seconds:.2f} s with --time-limit "
                             f"{case.time_limit:g}", stage)
         for name, data in case.files.items():
