@@ -12,6 +12,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 __all__ = ["coprime_board", "huge_loop_board", "cascade_board", "wide_part_consumers", "wide_part_library",
+           "many_classes_consumers",
            "Case", "CASES", "write_case"]
 
 _REF = '[[reference]]\nid = "ref"\nfrequency = "25 MHz"\n\n'
@@ -75,6 +76,21 @@ def wide_part_consumers(count: int = 12) -> str:
     return text
 
 
+def many_classes_consumers(count: int = 300) -> str:
+    """A consumer list of ``count`` consumers at 1, 2, 3... MHz: as many classes, a pair table of count^2 checks.
+
+    Found by the fuzz campaign (a board with hundreds of consumers, as a consumer list).
+    """
+    text = "[board]\nname = \"many classes stress\"\ntemperature = [\"0 C\", \"85 C\"]\nlifetime = \"6 months\"\n\n"
+    # A clock no part reaches and two usual ones, as the campaign's case had: every pair check fails
+    # its way through the VCO multiples and words its reason.
+    text += '[[consumer]]\nid = "far"\nfrequency = "773.478 GHz"\n\n[[consumer]]\nid = "net"\nfrequency = "156.25 MHz"\n\n'
+    text += '[[consumer]]\nid = "audio"\nfrequency = "11.2896 MHz"\nstandard = "10gbase-r"\n\n'
+    for k in range(count):
+        text += f'[[consumer]]\nid = "bulk{k}"\nfrequency = "{k + 1} MHz"\n\n'
+    return text
+
+
 def wide_part_library(outputs: int = 1_000_000) -> str:
     """A parts library with one fractional-N PLL template of ``outputs`` outputs."""
     return (
@@ -103,6 +119,7 @@ CASES: tuple[Case, ...] = (
     Case("part of a million outputs (synthesize)",
          {"board.toml": wide_part_consumers(), "library.toml": wide_part_library()},
          ("synthesize", "@board.toml", "--library", "@library.toml")),
+    Case("300 consumer classes (synthesize)", {"board.toml": many_classes_consumers()}, ("synthesize", "@board.toml")),
 )
 
 
