@@ -148,3 +148,18 @@ def test_spare_allocation_matches_exhaustive_search_and_ignores_useless_spares(l
     fans = [fan_for(load - e, buffers) for load, e in zip(loads, extras)]
     key = tuple(sum(parts, Fraction(0)) for parts in zip(*(fan.cost.key() for fan in fans)))
     assert key == _brute_force(loads, eligible, spare, buffers)
+
+
+def test_the_margin_check_past_the_deadline_is_named_as_not_done():
+    # With a reference error band the explanation first re-plans without the ranges' margin; past
+    # the run's deadline it skips that and says so, instead of passing over it in silence.
+    text = coprime_board(plls=1).replace('frequency = "25 MHz"\n', 'frequency = "25 MHz"\ntolerance = "±50 ppm"\n', 1)
+    board = parse_board(text, "stress.toml")
+    plan = plan_board(board, PlanOptions(time_limit_s=0.2))
+    assert not plan.feasible
+    explanation = explain_infeasible(plan, 60.0, deadline=time.monotonic() - 1.0)
+    margin = [c for c in explanation.conflicts if "margin" in c.message and c.constraint == "time-limit"]
+    assert len(margin) == 1 and CUT_RUN_NOTE in margin[0].message
+    # With time to spare the check runs, and no such line appears.
+    explanation = explain_infeasible(plan, 2.0)
+    assert not [c for c in explanation.conflicts if "margin for the reference" in c.message]
