@@ -15,9 +15,9 @@ import tomllib
 from dataclasses import dataclass, field
 from importlib import resources
 
-from tests.strategies import Picker, _key, _value
+from tests.strategies import Picker, _key, _value, to_toml
 
-__all__ = ["CommandCase", "COMMANDS", "command_case", "mutate_library", "consumer_list"]
+__all__ = ["CommandCase", "COMMANDS", "command_case", "mutate_library", "consumer_list", "with_loop_filter"]
 
 #: Every command of ``clockplan`` the campaign drives.
 COMMANDS = ("audit", "plan", "explain", "diagram", "plots", "loop", "synthesize", "standards", "new")
@@ -102,6 +102,35 @@ def mutate_library(pick: Picker) -> bytes:
     return "\n".join(lines).encode("utf-8")
 
 
+def with_loop_filter(pick: Picker, data: bytes, pll_id: str) -> bytes:
+    """The board with a ``loop_filter`` table on PLL ``pll_id`` (plausible or extreme values), else unchanged.
+
+    Generated boards carry no loop filter, and ``loop`` needs one: without it every ``loop`` run would
+    stop at the same located error.
+    """
+    try:
+        doc = tomllib.loads(data.decode("utf-8"))
+    except (UnicodeDecodeError, tomllib.TOMLDecodeError, RecursionError):
+        return data
+    plls = doc.get("pll")
+    if not isinstance(plls, list):
+        return data
+    for pll in plls:
+        if isinstance(pll, dict) and pll.get("id") == pll_id:
+            pll["loop_filter"] = {
+                "order": pick.choice((2, 3, 4, 3)),
+                "charge_pump": pick.choice(("2.5 mA", "100 uA", "1 nA", "1e400 A", "0 A")),
+                "kvco": pick.choice(("40 MHz/V", "5 MHz/V", "0 Hz/V", "1e300 Hz/V")),
+                "bandwidth": pick.choice(("50 kHz", "200 kHz", "1 Hz", "1 GHz")),
+                "phase_margin": pick.choice((55, 45, 70, 0, 89.999, 1000)),
+            }
+            try:
+                return to_toml(doc).encode("utf-8")
+            except (TypeError, ValueError):
+                return data
+    return data
+
+
 def _budget_options(pick: Picker) -> list[str]:
     options = ["--time-limit", pick.choice(TIME_LIMITS)]
     if pick.chance(0.3):
@@ -131,7 +160,10 @@ def command_case(pick: Picker, data: bytes) -> CommandCase:
     elif command == "plots":
         args = ["plots", "{board}", "--output-dir", "{out}/plots", *_budget_options(pick)]
     elif command == "loop":
-        args = ["loop", "{board}", pick.choice(plls + ["nopll"]), *pick.choice((["--json"], []))]
+        pll = pick.choice(plls + ["nopll"])
+        if pick.chance(0.8):
+            files = {"board": with_loop_filter(pick, data, pll)}
+        args = ["loop", "{board}", pll, *pick.choice((["--json"], []))]
     elif command == "synthesize":
         files = {"board": consumer_list(data)}
         args = ["synthesize", "{board}", "--time-limit", pick.choice(TIME_LIMITS), "--alternatives", str(pick.integer(0, 2))]
