@@ -17,7 +17,7 @@ import math
 import time
 from dataclasses import dataclass
 
-__all__ = ["Deadline", "CUT_RUN_NOTE", "check_time_limit"]
+__all__ = ["Deadline", "CUT_RUN_NOTE", "MAX_SECONDS", "check_time_limit"]
 
 #: Said wherever a stage stopped at the time limit: a cut run is not reproducible.
 CUT_RUN_NOTE = "a run cut by its time limit depends on the machine's speed and may differ from run to run"
