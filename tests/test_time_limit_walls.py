@@ -163,3 +163,12 @@ def test_the_margin_check_past_the_deadline_is_named_as_not_done():
     # With time to spare the check runs, and no such line appears.
     explanation = explain_infeasible(plan, 2.0)
     assert not [c for c in explanation.conflicts if "margin for the reference" in c.message]
+
+
+def test_the_deadline_module_examples_hold():
+    import doctest
+
+    import clockplan.deadline
+
+    result = doctest.testmod(clockplan.deadline)
+    assert result.attempted >= 5 and result.failed == 0
