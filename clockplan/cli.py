@@ -109,9 +109,16 @@ def _loop_bandwidth(args: argparse.Namespace):
 def _analysis_options(args: argparse.Namespace, progress=None):
     from clockplan.analysis import AnalysisOptions
 
-    deadline = args.started + args.time_limit if getattr(args, "time_limit", None) else None
+    deadline = _run_deadline(args).at if getattr(args, "time_limit", None) else None
     return AnalysisOptions(samples=args.samples, seed=args.seed, progress=progress, deadline=deadline,
                            loop_bandwidth_hz=_loop_bandwidth(args))
+
+
+def _run_deadline(args: argparse.Namespace):
+    """The run's one :class:`~clockplan.deadline.Deadline`, from --time-limit counted from the start."""
+    from clockplan.deadline import Deadline
+
+    return Deadline(args.started, args.started + args.time_limit)
 
 
 def _build_parser() -> argparse.ArgumentParser:
@@ -191,7 +198,17 @@ def _bounded(parse, lo: float, hi: float, what: str, lo_open: bool = False):
 
 
 _alternatives = _bounded(int, 0, 100, "a whole number")
-_seconds = _bounded(float, 0, 3600, "a number of seconds", lo_open=True)
+
+
+def _seconds(text: str) -> float:
+    """An argparse type for --time-limit: finite seconds above 0 and at most an hour (never nan or inf)."""
+    from clockplan.deadline import check_time_limit
+
+    try:
+        return check_time_limit(float(text))
+    except ValueError:
+        raise argparse.ArgumentTypeError(
+            f"expected a number of seconds above 0 and at most 3600, got {text!r}") from None
 
 
 def _console(args: argparse.Namespace):
@@ -461,6 +478,8 @@ def _run_new(args: argparse.Namespace) -> int:
 
 
 def _run_plan(args: argparse.Namespace) -> int:
+    from dataclasses import replace
+
     from clockplan.analysis import analyze
     from clockplan.boardfile import load_board
     from clockplan.plan.board_planner import PlanOptions, plan_board
@@ -469,9 +488,12 @@ def _run_plan(args: argparse.Namespace) -> int:
     if args.write and args.in_place:
         raise ClockplanError("give either --write OUT or --in-place, not both", hint="--in-place writes back into the input file")
     board = load_board(args.board)
-    options = PlanOptions(alternatives=args.alternatives, time_limit_s=args.time_limit)
+    deadline = _run_deadline(args)
+    # One deadline for the run: the search stops at 70 % of it, leaving the rest to the
+    # explanation of an infeasible board and the budget stages, which stop at the deadline itself.
+    options = PlanOptions(alternatives=args.alternatives, time_limit_s=args.time_limit, deadline=deadline.share(0.7))
     if args.loop_bandwidth is not None:
-        options = PlanOptions(args.alternatives, args.time_limit, _loop_bandwidth(args))
+        options = replace(options, loop_bandwidth_hz=_loop_bandwidth(args))
     plan = plan_board(board, options)
     analysis = analyze(board, plan.settings, _analysis_options(args))
     analysis = analysis.with_findings(plan_findings(plan, analysis))
@@ -479,7 +501,7 @@ def _run_plan(args: argparse.Namespace) -> int:
     if not plan.feasible:
         from clockplan.plan.explain import explain_infeasible
 
-        explanation = explain_infeasible(plan, args.time_limit)
+        explanation = explain_infeasible(plan, args.time_limit, deadline=deadline.at)
     _emit_plan(args, analysis, plan, explanation)
     if explanation is not None:
         raise InfeasibleError(
@@ -606,6 +628,7 @@ def _run_synthesize(args: argparse.Namespace) -> int:
     options = SynthesisOptions(
         alternatives=2 if alternatives is None else alternatives,
         time_limit_s=30.0 if time_limit is None else time_limit,
+        deadline=args.started + (30.0 if time_limit is None else time_limit),
     )
     result = synthesize(spec, library, options)
     if args.json:

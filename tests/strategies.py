@@ -427,7 +427,8 @@ def _unknown_key(pick: Picker, doc: dict[str, Any]) -> None:
 
 def _many_parts(pick: Picker, doc: dict[str, Any]) -> None:
     consumers = doc.setdefault("consumer", [])
-    source = doc["reference"][0]["id"] if doc.get("reference") else "ref0"
+    references = doc.get("reference")
+    source = references[0].get("id", "ref0") if isinstance(references, list) and references and isinstance(references[0], dict) else "ref0"
     for k in range(pick.choice([50, 300])):
         consumers.append({"id": f"bulk{k}", "source": source, "frequency": f"{k + 1} MHz"})
 

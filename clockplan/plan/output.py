@@ -87,6 +87,10 @@ def search_finding(plan: "BoardPlan", analysis: "Analysis") -> Finding | None:
     needed = verdict_criteria(analysis)
     listed = "; ".join(bounds)
     what = f"the search hit {len(bounds)} bound{'s' if len(bounds) > 1 else ''} ({listed})"
+    if any("time limit" in bound for bound in bounds):
+        from clockplan.deadline import CUT_RUN_NOTE
+
+        what += f" ({CUT_RUN_NOTE})"
     if proven >= needed:
         later = _LATER.get(proven, "the later criteria")
         return Finding(

@@ -21,6 +21,7 @@ from collections.abc import Sequence
 from fractions import Fraction
 from typing import TYPE_CHECKING
 
+from clockplan.deadline import CUT_RUN_NOTE
 from clockplan.errors import BoardError
 from clockplan.findings import Finding, Severity
 from clockplan.parts import WORST_CASE, Consumer
@@ -143,7 +144,8 @@ def _stopped_early(summary: MonteCarloSummary, board_name: str) -> Finding:
     return Finding(
         Severity.WARNING, "monte-carlo-time-limit", board_name,
         f"the Monte Carlo stopped at its time limit after {summary.samples:,} of {summary.requested:,} boards; "
-        f"the yields are from the {summary.samples:,} boards simulated (raise --time-limit, or ask fewer --samples)",
+        f"the yields are from the {summary.samples:,} boards simulated (raise --time-limit, or ask fewer --samples; "
+        f"{CUT_RUN_NOTE})",
     )
 
 
