@@ -57,6 +57,8 @@ def _add_display_options(parser: argparse.ArgumentParser) -> None:
 def _add_output_options(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="write the JSON document (docs/json-output.md) to stdout")
     _add_display_options(parser)
+    parser.add_argument("--wide", action="store_true",
+                        help="every column of the consumer table (the default below 160 columns: one line per consumer)")
     _add_report_options(parser)
 
 
@@ -200,7 +202,11 @@ def _emit(args: argparse.Namespace, analysis, command: str) -> int:
     elif fmt == "table" and not args.output:
         from clockplan.report.terminal import render_analysis
 
-        render_analysis(analysis, _console(args), title=command)
+        render_analysis(analysis, _console(args), title=command, wide=True if args.wide else None)
+    elif fmt == "table":
+        from clockplan.report.terminal import render_text
+
+        _deliver(args, render_text(analysis, command, args.width or 100, wide=True if args.wide else None))
     else:
         from clockplan.report.formats import render_report
 
@@ -502,9 +508,10 @@ def _emit_plan(args: argparse.Namespace, analysis, plan, explanation) -> None:
 
         _deliver(args, dumps(plan_document(analysis, plan, explanation)))
     elif fmt == "table" and not args.output:
-        render_plan(analysis, plan, _console(args), explanation)
+        render_plan(analysis, plan, _console(args), explanation, wide=True if args.wide else None)
     elif fmt == "table":
-        _deliver_drawn(args, lambda console: render_plan(analysis, plan, console, explanation))
+        _deliver_drawn(args, lambda console: render_plan(analysis, plan, console, explanation,
+                                                         wide=True if args.wide else None))
     else:
         from clockplan.report.formats import render_report
 
