@@ -64,6 +64,8 @@ __all__ = [
     "format_share",
     "unused_outputs",
     "thin_consumers",
+    "budget_origin",
+    "budgets_table",
 ]
 
 #: From this many columns the terminal shows the full consumer table; below it, one line per consumer.
@@ -441,6 +443,57 @@ def compact_consumers_table(analysis: Analysis) -> TextTable:
         for result in analysis.consumers
     )
     return TextTable("Consumers", columns, rows, status_column=2)
+
+
+#: How the notes of a budget derived from the board's figures begin (clockplan.standards.resolve).
+_DERIVATIONS = ("Converter SNR", "UART", "CAN", "RTC")
+
+
+def _derivations(notes: str) -> list[str]:
+    """The sentences of a budget's notes that derive a figure from the board's own (SNR, baud, drift)."""
+    import re
+
+    sentences = re.split(r"(?<=\.)\s+(?=[A-Z])", notes.strip()) if notes else []
+    return [s for s in sentences if s.startswith(_DERIVATIONS)]
+
+
+def budget_origin(consumer: Any) -> str:
+    """Where a consumer's ppm and jitter budget comes from, in one line.
+
+    A standard's budget names its key, confidence and source (and the fields
+    the board replaced); a budget the board derives from a converter's SNR,
+    a baud rate or a drift shows that derivation (the figures and the result).
+
+    Examples
+    --------
+    >>> budget_origin(board.part("adc_clk"))  # doctest: +SKIP
+    'the board: Converter SNR 70 dB at 180 MHz input: jitter at most 280 fs RMS (...)'
+    """
+    budget = getattr(consumer, "budget", None)
+    if budget is None:
+        return "no ppm or jitter budget"
+    derived = _derivations(getattr(budget, "notes", ""))
+    if budget.key == "inline":
+        return "the board's own figures" + (": " + " ".join(derived) if derived else "")
+    text = f"standard {budget.key} (confidence: {budget.confidence})"
+    if budget.source:
+        text += f"; source: {budget.source}"
+    if budget.overridden:
+        text += f"; the board sets its own {', '.join(budget.overridden)}"
+    if derived:
+        text += ": " + " ".join(derived)
+    return text
+
+
+def budgets_table(analysis: Analysis) -> TextTable:
+    """Each consumer's description (from the board file) and where its budget comes from."""
+    columns = (Column("consumer"), Column("description"), Column("budget from"))
+    rows = tuple(
+        (result.id, getattr(analysis.board.part(result.id), "description", None) or "-",
+         budget_origin(analysis.board.part(result.id)))
+        for result in analysis.consumers
+    )
+    return TextTable("Budgets and where they come from", columns, rows)
 
 
 def settings_table(analysis: Analysis) -> TextTable | None:
