@@ -350,6 +350,9 @@ def _add_report_commands(commands) -> None:
     plots.add_argument("board", help="board file (TOML)")
     plots.add_argument("--output-dir", "-d", metavar="FOLDER", default=".",
                        help="folder for the PNG files (default: .; created if missing)")
+    plots.add_argument("--every-consumer", action="store_true",
+                       help="a ppm and Monte Carlo panel for every consumer (default: those that fail, warn, are "
+                       "unchecked or have a thin margin; an overview shows every consumer's margin)")
     _add_budget_options(plots)
     plots.set_defaults(run=_run_plots)
 
@@ -423,7 +426,9 @@ def _run_plots(args: argparse.Namespace) -> int:
     for finding in analysis.findings:  # the images cannot say it: a Monte Carlo cut short by --time-limit
         if finding.code == "monte-carlo-time-limit":
             sys.stderr.write(f"clockplan: warning: {finding.message}\n")
-    data = collect_plot_data(analysis)
+    data = collect_plot_data(analysis, every=args.every_consumer)
+    for note in data.left_out:
+        sys.stdout.write(f"clockplan: {note}\n")
     if data.empty:
         sys.stdout.write("clockplan: nothing to plot: the board gives no phase-noise or oscillator accuracy data "
                          "(see docs/jitter.md and docs/frequency-accuracy.md)\n")

@@ -82,6 +82,7 @@ footer { margin-top: 2.5rem; color: var(--muted); font-size: .88rem; border-top:
 """
 
 _PLOT_CAPTIONS = {
+    "margins.png": "The worst margin of every consumer: the share of its budget left (clipped at -100 %).",
     "phase-noise.png": "Phase noise at each consumer; the shaded span is the integration band of its jitter budget.",
     "ppm-temperature.png": "Frequency error over the operating temperature range; dashed lines are the budget.",
     "monte-carlo.png": "Monte Carlo frequency error against the budget (dashed lines).",
