@@ -422,12 +422,15 @@ def _compact_frequency(result: ConsumerResult) -> str:
 
 
 def _compact_margin(analysis: Analysis, result: ConsumerResult) -> str:
-    """The worst margin, and the budgets that could not be checked (never hidden behind a margin that passes)."""
-    cell = _margin_cell(consumer_margins(analysis, result))
-    if not result.unchecked:
-        return cell
-    missing = ", ".join(result.unchecked) + " unchecked"
-    return missing if cell == "-" else f"{cell}; {missing}"
+    """The worst margin; for a consumer with a budget not checked, that budget (its margin is unknown,
+    so a margin that passes is never shown as its worst), unless a known margin already fails."""
+    margins = consumer_margins(analysis, result)
+    least = min(margins, key=lambda m: m.headroom) if margins else None
+    if result.unchecked and (least is None or least.headroom >= 0):
+        return ", ".join(result.unchecked) + ": unchecked"
+    if least is not None and math.isinf(least.headroom):
+        return least.describe  # only a synthesis margin is infinite: "exact target missed"
+    return f"{least.kind}: {least.describe}" if least is not None else "-"
 
 
 def compact_consumers_table(analysis: Analysis) -> TextTable:
