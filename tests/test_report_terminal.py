@@ -54,7 +54,7 @@ def test_summary_lines_at_fixed_width(capsys, exact_only):
         "(ppm); mcu (ppm); uart_clk (ppm); codec_mclk (ppm)",
         "worst margins:",
         "  synthesis: uart_clk 32.1 % left (-1.357 % of ±2 %)",
-        "margin warning: a passing budget with less than 20 % left is thin (margin_warning)",
+        "margin warning: 20 % (a passing budget with less left is thin)",
         "references: ref_main 25 MHz (crystal); mcu_rc 16 MHz (rc)",
         "conditions: -40 °C to 85 °C, 10 year(s) of aging",
         "Industrial gateway",

@@ -670,7 +670,7 @@ def _margin_warning_text(analysis: Analysis) -> str:
     threshold = analysis.board.margin_warning
     if threshold == 0:
         return "off (margin_warning = \"0 %\")"
-    return f"a passing budget with less than {format_margin_warning(threshold)} left is thin (margin_warning)"
+    return f"{format_margin_warning(threshold)} (a passing budget with less left is thin)"
 
 
 def thin_consumers(analysis: Analysis) -> list[str]:
