@@ -57,6 +57,8 @@ def _add_display_options(parser: argparse.ArgumentParser) -> None:
 def _add_output_options(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="write the JSON document (docs/json-output.md) to stdout")
     _add_display_options(parser)
+    parser.add_argument("--wide", action="store_true",
+                        help="every column of the consumer table (the default below 160 columns: one line per consumer)")
     _add_report_options(parser)
 
 
@@ -224,7 +226,11 @@ def _emit(args: argparse.Namespace, analysis, command: str) -> int:
     elif fmt == "table" and not args.output:
         from clockplan.report.terminal import render_analysis
 
-        render_analysis(analysis, _console(args), title=command)
+        render_analysis(analysis, _console(args), title=command, wide=True if args.wide else None)
+    elif fmt == "table":
+        from clockplan.report.terminal import render_text
+
+        _deliver(args, render_text(analysis, command, args.width or 100, wide=True if args.wide else None))
     else:
         from clockplan.report.formats import render_report
 
@@ -368,6 +374,9 @@ def _add_report_commands(commands) -> None:
     plots.add_argument("board", help="board file (TOML)")
     plots.add_argument("--output-dir", "-d", metavar="FOLDER", default=".",
                        help="folder for the PNG files (default: .; created if missing)")
+    plots.add_argument("--every-consumer", action="store_true",
+                       help="a ppm and Monte Carlo panel for every consumer (default: those that fail, warn, are "
+                       "unchecked or have a thin margin; an overview shows every consumer's margin)")
     _add_budget_options(plots)
     plots.set_defaults(run=_run_plots)
 
@@ -441,7 +450,9 @@ def _run_plots(args: argparse.Namespace) -> int:
     for finding in analysis.findings:  # the images cannot say it: a Monte Carlo cut short by --time-limit
         if finding.code == "monte-carlo-time-limit":
             sys.stderr.write(f"clockplan: warning: {finding.message}\n")
-    data = collect_plot_data(analysis)
+    data = collect_plot_data(analysis, every=args.every_consumer)
+    for note in data.left_out:
+        sys.stdout.write(f"clockplan: {note}\n")
     if data.empty:
         sys.stdout.write("clockplan: nothing to plot: the board gives no phase-noise or oscillator accuracy data "
                          "(see docs/jitter.md and docs/frequency-accuracy.md)\n")
@@ -531,9 +542,10 @@ def _emit_plan(args: argparse.Namespace, analysis, plan, explanation) -> None:
 
         _deliver(args, dumps(plan_document(analysis, plan, explanation)))
     elif fmt == "table" and not args.output:
-        render_plan(analysis, plan, _console(args), explanation)
+        render_plan(analysis, plan, _console(args), explanation, wide=True if args.wide else None)
     elif fmt == "table":
-        _deliver_drawn(args, lambda console: render_plan(analysis, plan, console, explanation))
+        _deliver_drawn(args, lambda console: render_plan(analysis, plan, console, explanation,
+                                                         wide=True if args.wide else None))
     else:
         from clockplan.report.formats import render_report
 

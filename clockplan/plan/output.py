@@ -151,14 +151,15 @@ def plan_document(analysis: "Analysis", plan: "BoardPlan", explanation: "Explana
     return doc
 
 
-def render_plan(analysis: "Analysis", plan: "BoardPlan", console: "Console", explanation: "Explanation | None" = None) -> None:
+def render_plan(analysis: "Analysis", plan: "BoardPlan", console: "Console", explanation: "Explanation | None" = None,
+                wide: bool | None = None) -> None:
     """Print the audit-style report of the plan, then the plan's own tables."""
     from rich.table import Table
 
     from clockplan.report.terminal import render_analysis
 
     title = "plan (nearest plan: NO FEASIBLE PLAN)" if explanation is not None else "plan"
-    render_analysis(analysis, console, title=title)
+    render_analysis(analysis, console, title=title, wide=wide)
     score = plan.best.score
     console.print(
         f"objective: worst synthesis error {format_ppm(score.worst_error).lstrip('+')}, "
