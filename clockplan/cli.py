@@ -188,6 +188,8 @@ def _bounded(parse, lo: float, hi: float, what: str, lo_open: bool = False):
     """An argparse type: ``parse(text)`` within ``lo..hi`` (``lo`` excluded if ``lo_open``)."""
 
     def convert(text: str):
+        if not text.isascii():  # int() and float() read full-width and other scripts' digits
+            raise argparse.ArgumentTypeError(f"expected {what} in ASCII digits, got {text!r}")
         try:
             value = parse(text)
         except ValueError:
@@ -206,6 +208,8 @@ def _seconds(text: str) -> float:
     """An argparse type for --time-limit: finite seconds above 0 and at most an hour (never nan or inf)."""
     from clockplan.deadline import check_time_limit
 
+    if not text.isascii():  # float() reads full-width and other scripts' digits
+        raise argparse.ArgumentTypeError(f"expected a number of seconds in ASCII digits, got {text!r}")
     try:
         return check_time_limit(float(text))
     except ValueError:

@@ -172,3 +172,12 @@ def test_the_deadline_module_examples_hold():
 
     result = doctest.testmod(clockplan.deadline)
     assert result.attempted >= 5 and result.failed == 0
+
+
+@pytest.mark.parametrize("option", [["--time-limit", "\uff11"], ["--alternatives", "\u0663"]])
+def test_options_refuse_digits_of_other_scripts(option, capsys):
+    # Full-width 1 and Arabic-Indic 3: Python's float() and int() read them; the command line must not.
+    from clockplan.cli import main
+
+    assert main(["plan", "boards/edge-router.toml", *option]) == 2
+    assert "ASCII digits" in capsys.readouterr().err
