@@ -357,3 +357,19 @@ def test_sigterm_at_random_moments_never_leaves_a_temporary_file(tmp_path):
         if out.exists():
             assert load_board(out).given_settings().plls
             out.unlink()
+
+
+# --------------------------------------------------------------------------- the campaign's generator
+
+
+@pytest.mark.parametrize("output", ["name-over-limit", "nul", "missing-folder", "fifo", "link-to-board", "name-at-limit"])
+@pytest.mark.parametrize("command", ["audit --output", "plan --write", "plan --in-place", "plots", "new",
+                                     "synthesize --write", "diagram --output"])
+def test_every_writing_command_keeps_the_file_promises(command, output, tmp_path, monkeypatch):
+    """The fuzz campaign's file cases (tests/file_strategies.py), one per command and hazard."""
+    from tests.file_strategies import FileCase, run_file_case
+
+    monkeypatch.setattr("clockplan.report.plots.plot_images", lambda data: {"phase-noise.png": b"\x89PNG new"})
+    status, err = run_file_case(FileCase(command, output, "bom-crlf"), tmp_path)
+    if output in ("name-over-limit", "nul", "missing-folder") and command not in ("plan --in-place", "plots"):
+        assert status == 2, err
