@@ -678,15 +678,20 @@ def _on_sigterm(signum, frame) -> None:  # noqa: ARG001 - the signal module's si
 
 
 def _install_signal_handlers() -> dict:
-    """Ctrl-C raises KeyboardInterrupt, SIGTERM :class:`_Terminated`; return the handlers to restore."""
+    """Ctrl-C raises KeyboardInterrupt, SIGTERM :class:`_Terminated`; return the handlers to restore.
+
+    A signal the caller set to be ignored stays ignored.
+    """
     import signal
 
     old = {}
-    try:
-        old[signal.SIGTERM] = signal.signal(signal.SIGTERM, _on_sigterm)
-        old[signal.SIGINT] = signal.signal(signal.SIGINT, signal.default_int_handler)
-    except ValueError:  # not the main thread: signals go elsewhere
-        pass
+    for signum, handler in ((signal.SIGTERM, _on_sigterm), (signal.SIGINT, signal.default_int_handler)):
+        try:
+            if signal.getsignal(signum) is signal.SIG_IGN:  # ignored by the caller (nohup, a background job): keep it so
+                continue
+            old[signum] = signal.signal(signum, handler)
+        except ValueError:  # not the main thread: signals go elsewhere
+            break
     return old
 
 
@@ -738,8 +743,8 @@ def _main(argv: Sequence[str] | None) -> int:
         sys.stderr.write("clockplan: terminated (SIGTERM); every file written is whole, old or new\n")
         return EXIT_TERMINATED
     except KeyboardInterrupt:
-        sys.stderr.write("clockplan: interrupted; every file written is whole, old or new, and a file being "
-                         "written keeps its old content\n")
+        sys.stderr.write("clockplan: interrupted; every file written is whole, old or new, and no temporary "
+                         "file is left\n")
         return EXIT_INTERRUPTED
     except Exception as err:  # anything else is a bug: one line, never a traceback
         return _report_bug(err)
