@@ -5,7 +5,12 @@ keys, wrong types, absurd values, deep nesting, unicode and duplicate ids,
 loops, dangling sources, empty or binary files...), run by
 ``tests/fuzz_harness.run_case`` through load, audit, every report, plan and
 the plan reports, and every ``--cli-every``-th case also through
-``clockplan.cli.main``. A case must end in results or a located
+``clockplan.cli.main``; every ``--commands-every``-th case also runs one command
+line drawn by ``tests/fuzz_commands.py`` over it (every command: ``loop``,
+``plots``, ``synthesize`` with a consumer list and a mutated parts library,
+``explain``, ``standards``, ``new``, ``diagram``, ``audit``, ``plan``), which
+must also end within its ``--time-limit`` plus 2 s and leave its inputs
+unchanged. A case must end in results or a located
 ``ClockplanError``; anything else is a crash. Crashes are grouped by cause,
 cut down to a small reproducer (lines dropped while the same crash stays) and
 saved to ``--crash-dir``.
@@ -33,7 +38,8 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from tests.fuzz_harness import FuzzCrash, crash_signature, run_case, run_cli_case  # noqa: E402
+from tests.fuzz_commands import command_case  # noqa: E402
+from tests.fuzz_harness import FuzzCrash, crash_signature, run_case, run_cli_case, run_command_case  # noqa: E402
 from tests.strategies import RandomPicker, generate_case  # noqa: E402
 
 _CLI_ARGS = (["audit", "--json"], ["plan", "--time-limit", "0.3"], ["audit", "--format", "markdown"],
@@ -57,6 +63,14 @@ def _run_one(job: tuple[int, int, dict]) -> tuple[int, str, tuple[str, str] | No
             args = _CLI_ARGS[(index // options["cli_every"]) % len(_CLI_ARGS)]
             status, _, _ = run_cli_case(case.data, list(args), hang_s=options["hang"])
             result = (f"{result[0]}; cli exit {status}", result[1])
+        if options.get("commands_every") and index % options["commands_every"] == 0:
+            command = command_case(RandomPicker(random.Random(_case_seed(seed, index) ^ 0x5A5A)), case.data)
+            try:
+                status, _, _ = run_command_case(command, hang_s=options["hang"])
+            except FuzzCrash as crash:  # the saved reproducer is the board: say which command line failed on it
+                crash.detail = f"command line: clockplan {' '.join(command.args)}\n{crash.detail}"
+                raise
+            result = (f"{result[0]}; {command.command} exit {status}", result[1])
         return index, case.mutation, result, time.monotonic() - started, None
     except FuzzCrash as crash:
         return index, case.mutation, None, time.monotonic() - started, crash_signature(crash) + "\n" + crash.detail
@@ -115,16 +129,20 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--time-limit", type=float, default=0.3, help="the planner's time limit per case (s)")
     parser.add_argument("--hang", type=float, default=60.0, help="a case running longer than this is a hang (s)")
     parser.add_argument("--cli-every", type=int, default=10, help="also run every N-th case through the CLI (0: never)")
+    parser.add_argument("--commands-every", type=int, default=1,
+                        help="also run one drawn command line (tests/fuzz_commands.py) every N-th case (0: never)")
     parser.add_argument("--html-every", type=int, default=10, help="draw the HTML report's plots every N-th case")
     parser.add_argument("--memory-gb", type=float, default=3.0, help="address-space limit per worker")
     parser.add_argument("--no-reduce", action="store_true", help="save crashes as found, without cutting them down")
     args = parser.parse_args(argv)
     sys.stdout.reconfigure(line_buffering=True)
-    options = {"time_limit": args.time_limit, "hang": args.hang, "cli_every": args.cli_every, "html_every": args.html_every}
+    options = {"time_limit": args.time_limit, "hang": args.hang, "cli_every": args.cli_every, "html_every": args.html_every,
+               "commands_every": args.commands_every}
 
     started = time.monotonic()
     outcomes: collections.Counter[tuple[str, str]] = collections.Counter()
     mutations: collections.Counter[str] = collections.Counter()
+    commands: collections.Counter[str] = collections.Counter()
     crashes: dict[str, list[int]] = {}
     details: dict[str, str] = {}
     slowest: list[tuple[float, int]] = []
@@ -141,6 +159,8 @@ def main(argv: list[str] | None = None) -> int:
             if crash is None:
                 label, stage = outcome
                 outcomes[(label.split(";")[0], stage)] += 1
+                for run in label.split(";")[1:]:  # "cli exit 2", "synthesize exit 3": the command lines run
+                    commands[run.strip()] += 1
             else:
                 signature, _, detail = crash.partition("\n")
                 if signature not in crashes:
@@ -166,6 +186,9 @@ def main(argv: list[str] | None = None) -> int:
     print("outcomes (result or error class, stage that ended the case):")
     for (label, stage), count in sorted(outcomes.items(), key=lambda kv: -kv[1]):
         print(f"  {count:7}  {label:18} {stage}")
+    print("command lines run (command, exit status), crashes aside:")
+    for name, count in sorted(commands.items()):
+        print(f"  {count:7}  {name}")
     print("slowest cases: " + ", ".join(f"#{index} {seconds:.1f} s" for seconds, index in reversed(slowest)))
     print(f"distinct crashes: {len(crashes)}")
     if crashes:

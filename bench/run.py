@@ -44,6 +44,7 @@ BENCHMARKS: dict[str, tuple[str, str, str]] = {
     "planner": ("bench.bench_planner", "planner_rows", "the planner against exhaustive search on one loop"),
     "boards": ("bench.bench_planner", "board_rows", "plan and audit of synthetic boards, 10 to 5,000 consumers"),
     "synthesis": ("bench.bench_synthesis", "rows", "tree synthesis by size; branch and bound against exhaustive"),
+    "time-limits": ("bench.bench_time_limits", "rows", "pathological runs with --time-limit 1 and 2, against limit + 1 s"),
 }
 
 

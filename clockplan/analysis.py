@@ -9,6 +9,7 @@ Last, :func:`clockplan.verdicts.judge` marks the budgets no stage could check.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from fractions import Fraction
@@ -167,4 +168,48 @@ def analyze(board: Board, settings: Settings | None = None, options: AnalysisOpt
     )
     for stage in STAGES:
         analysis = stage(analysis, options)
-    return judge(analysis)
+    return judge(_non_finite_findings(analysis))
+
+
+def _non_finite(value: Any, path: str) -> list[str]:
+    """The paths inside ``value`` (a JSON-like result) whose float is NaN or infinite."""
+    found: list[str] = []
+    stack = [(value, path)]
+    while stack:
+        item, where = stack.pop()
+        if isinstance(item, float) and not math.isfinite(item):
+            found.append(f"{where} = {item}")
+        elif isinstance(item, dict):
+            stack += [(v, f"{where}.{k}") for k, v in item.items()]
+        elif isinstance(item, (list, tuple)):
+            stack += [(v, f"{where}[{i}]") for i, v in enumerate(item)]
+    return sorted(found)
+
+
+def _non_finite_findings(analysis: Analysis) -> Analysis:
+    """An error finding for every budget figure that came out NaN or infinite (never a silent NaN).
+
+    The load-time ranges (:mod:`clockplan.limits`) keep inputs physical, so this
+    should not fire; if a model still overflows, the consumer's verdict fails
+    with the figure named instead of printing ``nan`` as a pass.
+    """
+    findings = []
+    for result in analysis.consumers:
+        for name in ("accuracy", "jitter"):
+            part = getattr(result, name, None)
+            if part is None or not hasattr(part, "json_fields"):
+                continue
+            for where in _non_finite(part.json_fields(), name):
+                findings.append(Finding(
+                    Severity.ERROR, "non-finite", result.id,
+                    f"{result.id}: the {name} budget computed {where}: a value outside what the model can "
+                    "handle; the budget is not judged. Check the part figures on its chain",
+                ))
+    for key, extra in analysis.extras.items():
+        if hasattr(extra, "json_fields"):
+            for where in _non_finite(extra.json_fields(), key):
+                findings.append(Finding(
+                    Severity.ERROR, "non-finite", key,
+                    f"{key}: computed {where}: a value outside what the model can handle; check the board's figures",
+                ))
+    return analysis.with_findings(findings) if findings else analysis

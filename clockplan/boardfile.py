@@ -340,7 +340,9 @@ def read_consumer(reader: TableReader) -> Consumer:
         max_synthesis_error=reader.get("max_synthesis_error", _symmetric_error, Fraction(0)),
         standard=reader.get("standard", nonempty_text, None),
     )
-    reader.raw("description")
+    description = reader.raw("description")
+    if isinstance(description, str) and description.strip():
+        consumer = dataclasses.replace(consumer, description=description.strip())
     for name in BUDGET_FIELDS:
         reader.raw(name)
     budget = located(reader, lambda: resolve_budget(consumer.standard, reader.table, reader.key))

@@ -61,10 +61,14 @@ def _add_display_options(parser: argparse.ArgumentParser) -> None:
 def _add_output_options(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="write the JSON document (docs/json-output.md) to stdout")
     _add_display_options(parser)
+    parser.add_argument("--wide", action="store_true",
+                        help="every column of the consumer table (the default below 160 columns: one line per consumer)")
     _add_report_options(parser)
 
 
 def _count(text: str) -> int:
+    if not text.isascii():  # int() would read full-width or Arabic-Indic digits
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number written with the digits 0-9")
     try:
         value = int(text)
     except ValueError:
@@ -99,16 +103,28 @@ def _add_loop_bandwidth_option(parser: argparse.ArgumentParser) -> None:
 def _loop_bandwidth(args: argparse.Namespace):
     from clockplan.units import parse_frequency
 
+    from clockplan.errors import ClockplanError
+
     text = getattr(args, "loop_bandwidth", None)
-    return parse_frequency(text) if text is not None else None
+    try:
+        return parse_frequency(text) if text is not None else None
+    except ClockplanError as err:
+        raise err.located(key="--loop-bandwidth") from None
 
 
 def _analysis_options(args: argparse.Namespace, progress=None):
     from clockplan.analysis import AnalysisOptions
 
-    deadline = args.started + args.time_limit if getattr(args, "time_limit", None) else None
+    deadline = _run_deadline(args).at if getattr(args, "time_limit", None) else None
     return AnalysisOptions(samples=args.samples, seed=args.seed, progress=progress, deadline=deadline,
                            loop_bandwidth_hz=_loop_bandwidth(args))
+
+
+def _run_deadline(args: argparse.Namespace):
+    """The run's one :class:`~clockplan.deadline.Deadline`, from --time-limit counted from the start."""
+    from clockplan.deadline import Deadline
+
+    return Deadline(args.started, args.started + args.time_limit)
 
 
 def _build_parser() -> argparse.ArgumentParser:
@@ -188,7 +204,17 @@ def _bounded(parse, lo: float, hi: float, what: str, lo_open: bool = False):
 
 
 _alternatives = _bounded(int, 0, 100, "a whole number")
-_seconds = _bounded(float, 0, 3600, "a number of seconds", lo_open=True)
+
+
+def _seconds(text: str) -> float:
+    """An argparse type for --time-limit: finite seconds above 0 and at most an hour (never nan or inf)."""
+    from clockplan.deadline import check_time_limit
+
+    try:
+        return check_time_limit(float(text))
+    except ValueError:
+        raise argparse.ArgumentTypeError(
+            f"expected a number of seconds above 0 and at most 3600, got {text!r}") from None
 
 
 def _console(args: argparse.Namespace):
@@ -204,7 +230,11 @@ def _emit(args: argparse.Namespace, analysis, command: str) -> int:
     elif fmt == "table" and not args.output:
         from clockplan.report.terminal import render_analysis
 
-        render_analysis(analysis, _console(args), title=command)
+        render_analysis(analysis, _console(args), title=command, wide=True if args.wide else None)
+    elif fmt == "table":
+        from clockplan.report.terminal import render_text
+
+        _deliver(args, render_text(analysis, command, args.width or 100, wide=True if args.wide else None))
     else:
         from clockplan.report.formats import render_report
 
@@ -349,6 +379,9 @@ def _add_report_commands(commands) -> None:
     plots.add_argument("board", help="board file (TOML)")
     plots.add_argument("--output-dir", "-d", metavar="FOLDER", default=".",
                        help="folder for the PNG files (default: .; created if missing)")
+    plots.add_argument("--every-consumer", action="store_true",
+                       help="a ppm and Monte Carlo panel for every consumer (default: those that fail, warn, are "
+                       "unchecked or have a thin margin; an overview shows every consumer's margin)")
     _add_budget_options(plots)
     plots.set_defaults(run=_run_plots)
 
@@ -422,7 +455,9 @@ def _run_plots(args: argparse.Namespace) -> int:
     for finding in analysis.findings:  # the images cannot say it: a Monte Carlo cut short by --time-limit
         if finding.code == "monte-carlo-time-limit":
             sys.stderr.write(f"clockplan: warning: {finding.message}\n")
-    data = collect_plot_data(analysis)
+    data = collect_plot_data(analysis, every=args.every_consumer)
+    for note in data.left_out:
+        sys.stdout.write(f"clockplan: {note}\n")
     if data.empty:
         sys.stdout.write("clockplan: nothing to plot: the board gives no phase-noise or oscillator accuracy data "
                          "(see docs/jitter.md and docs/frequency-accuracy.md)\n")
@@ -459,6 +494,8 @@ def _run_new(args: argparse.Namespace) -> int:
 
 
 def _run_plan(args: argparse.Namespace) -> int:
+    from dataclasses import replace
+
     from clockplan.analysis import analyze
     from clockplan.boardfile import load_board
     from clockplan.plan.board_planner import PlanOptions, plan_board
@@ -467,9 +504,12 @@ def _run_plan(args: argparse.Namespace) -> int:
     if args.write and args.in_place:
         raise ClockplanError("give either --write OUT or --in-place, not both", hint="--in-place writes back into the input file")
     board = load_board(args.board)
-    options = PlanOptions(alternatives=args.alternatives, time_limit_s=args.time_limit)
+    deadline = _run_deadline(args)
+    # One deadline for the run: the search stops at 70 % of it, leaving the rest to the
+    # explanation of an infeasible board and the budget stages, which stop at the deadline itself.
+    options = PlanOptions(alternatives=args.alternatives, time_limit_s=args.time_limit, deadline=deadline.share(0.7))
     if args.loop_bandwidth is not None:
-        options = PlanOptions(args.alternatives, args.time_limit, _loop_bandwidth(args))
+        options = replace(options, loop_bandwidth_hz=_loop_bandwidth(args))
     plan = plan_board(board, options)
     analysis = analyze(board, plan.settings, _analysis_options(args))
     analysis = analysis.with_findings(plan_findings(plan, analysis))
@@ -477,7 +517,7 @@ def _run_plan(args: argparse.Namespace) -> int:
     if not plan.feasible:
         from clockplan.plan.explain import explain_infeasible
 
-        explanation = explain_infeasible(plan, args.time_limit)
+        explanation = explain_infeasible(plan, args.time_limit, deadline=deadline.at)
     _emit_plan(args, analysis, plan, explanation)
     if explanation is not None:
         raise InfeasibleError(
@@ -507,9 +547,10 @@ def _emit_plan(args: argparse.Namespace, analysis, plan, explanation) -> None:
 
         _deliver(args, dumps(plan_document(analysis, plan, explanation)))
     elif fmt == "table" and not args.output:
-        render_plan(analysis, plan, _console(args), explanation)
+        render_plan(analysis, plan, _console(args), explanation, wide=True if args.wide else None)
     elif fmt == "table":
-        _deliver_drawn(args, lambda console: render_plan(analysis, plan, console, explanation))
+        _deliver_drawn(args, lambda console: render_plan(analysis, plan, console, explanation,
+                                                         wide=True if args.wide else None))
     else:
         from clockplan.report.formats import render_report
 
@@ -538,6 +579,7 @@ def _add_loop_command(commands) -> None:
     loop.add_argument("board", help="board file (TOML)")
     loop.add_argument("pll", help="the PLL's id")
     loop.add_argument("--json", action="store_true", help="write the filter as a JSON document to stdout")
+    loop.add_argument("--fail-on", choices=("warning", "unchecked", "error"), default="error", help=_FAIL_ON_HELP)
     _add_display_options(loop)
     loop.set_defaults(run=_run_loop)
 
@@ -559,7 +601,8 @@ def _run_loop(args: argparse.Namespace) -> int:
 
         console.print(f"[bold]clockplan loop[/]: {escape(args.pll)} on {escape(analysis.board.name)} ({escape(args.board)})")
         console.print(loop_view(analysis, args.pll, result))
-    return EXIT_OK
+    # The exit rules of audit: a consumer over its jitter budget (in the table above) is an error finding.
+    return _exit_status(analysis, args.fail_on)
 
 
 # --------------------------------------------------------------------------- synthesis
@@ -602,6 +645,7 @@ def _run_synthesize(args: argparse.Namespace) -> int:
     options = SynthesisOptions(
         alternatives=2 if alternatives is None else alternatives,
         time_limit_s=30.0 if time_limit is None else time_limit,
+        deadline=args.started + (30.0 if time_limit is None else time_limit),
     )
     result = synthesize(spec, library, options)
     if args.json:

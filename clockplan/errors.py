@@ -17,7 +17,30 @@ __all__ = [
     "UnitError",
     "InfeasibleError",
     "did_you_mean",
+    "printable",
 ]
+
+
+def printable(text: str, keep_newlines: bool = False) -> str:
+    """``text`` with control characters written as escapes (``\\n``, ``\\x1b``), safe to print.
+
+    Board text reaches terminals and Markdown: an escape sequence in a name could
+    recolour or rewrite the screen, a newline could fake a line of the report.
+
+    Examples
+    --------
+    >>> printable("red\\x1b[31m\\nname")
+    'red\\\\x1b[31m\\\\nname'
+    """
+    if text.isprintable() or all(c.isprintable() or (keep_newlines and c == "\n") for c in text):
+        return text
+    out = []
+    for char in text:
+        if char.isprintable() or char == " " or (keep_newlines and char == "\n"):
+            out.append(char)
+        else:
+            out.append(repr(char)[1:-1] if char not in "'\"" else char)
+    return "".join(out)
 
 
 class ClockplanError(ValueError):
@@ -69,14 +92,15 @@ class ClockplanError(ValueError):
         """Format the error as ``file:line: key: message (hint)``."""
         where = []
         if self.file:
-            where.append(self.file + (f":{self.line}" if self.line else ""))
+            where.append(printable(self.file) + (f":{self.line}" if self.line else ""))
         elif self.line:
             where.append(f"line {self.line}")
         if self.key:
-            where.append(self.key)
-        text = ": ".join(where + [self.message]) if where else self.message
+            where.append(printable(self.key))
+        message = printable(self.message, keep_newlines=True)
+        text = ": ".join(where + [message]) if where else message
         if self.hint:
-            text += f"\n  hint: {self.hint}"
+            text += f"\n  hint: {printable(self.hint, keep_newlines=True)}"
         return text
 
 

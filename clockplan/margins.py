@@ -28,6 +28,7 @@ __all__ = [
     "format_margin_warning",
     "is_thin",
     "synthesis_headroom",
+    "budget_headroom",
 ]
 
 #: The headroom below which a passing budget warns (20 %, common practice for a design margin).
@@ -115,3 +116,26 @@ def synthesis_headroom(error: Fraction, allowed: Fraction) -> Fraction | None:
     if allowed == 0:
         return None
     return 1 - abs(error) / allowed
+
+
+def budget_headroom(margin: Fraction, half_width: Fraction) -> Fraction:
+    """The share of a budget left, ``margin / half_width``; a budget of width zero has none.
+
+    A ±0 budget (``"0 ppm"``) has no room to share out: its headroom is 0 when
+    the result sits exactly on it and -1 (over) otherwise, never a division by zero.
+
+    Examples
+    --------
+    >>> budget_headroom(Fraction(40), Fraction(100))
+    Fraction(2, 5)
+    >>> budget_headroom(Fraction(0), Fraction(0)), budget_headroom(Fraction(-1, 10**6), Fraction(0))
+    (Fraction(0, 1), Fraction(-1, 1))
+    >>> budget_headroom(-1e-6, Fraction(1, 10**400))
+    Fraction(-1000000000, 1)
+    """
+    if half_width == 0:
+        return Fraction(0) if margin >= 0 else Fraction(-1)
+    # Exact, whatever mix of float and Fraction: a float margin over a Fraction width smaller than
+    # the smallest float would otherwise divide by 0.0. Held within ±1e9 so that it converts to a float.
+    headroom = Fraction(margin) / Fraction(half_width)
+    return min(max(headroom, Fraction(-(10**9))), Fraction(10**9))

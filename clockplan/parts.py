@@ -247,6 +247,8 @@ class Consumer:
     ``max_synthesis_error`` is how far (as a fraction, symmetric) the planner
     may leave the synthesized frequency from ``frequency``; 0 means exact.
     ``budget`` is the resolved ppm/jitter budget (from a standard or inline).
+    ``description`` is the board file's free text about the consumer, shown
+    by the Markdown and HTML reports and ``explain``.
     """
 
     id: str
@@ -255,6 +257,7 @@ class Consumer:
     max_synthesis_error: Fraction = Fraction(0)
     standard: str | None = None
     budget: Any = None
+    description: str | None = None
 
 
 @dataclass(frozen=True)

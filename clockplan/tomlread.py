@@ -9,6 +9,7 @@ refuses unknown keys with a suggestion, and the small value parsers
 
 from __future__ import annotations
 
+import datetime
 import os
 import re
 import stat
@@ -18,8 +19,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, TypeVar
 
-from clockplan.errors import BoardError, ClockplanError, did_you_mean
+from clockplan.errors import BoardError, ClockplanError, did_you_mean, printable
 from clockplan.fileio import check_path
+from clockplan.limits import check_limits
 from clockplan.parts import FrequencyRange, IntChoices
 from clockplan.units import parse_frequency, parse_ratio
 
@@ -189,9 +191,13 @@ def type_name(value: Any) -> str:
 
 
 def nonempty_text(value: Any) -> str:
-    if not isinstance(value, str) or not value.strip():
-        raise BoardError(f"expected a non-empty string, got {type_name(value)}")
-    return value.strip()
+    if isinstance(value, str) and not value.strip():
+        raise BoardError("expected text, got an empty string", hint='write it in quotes, e.g. "ref"')
+    if not isinstance(value, str):
+        raise BoardError(f"expected text, got {type_name(value)}", hint='write it in quotes, e.g. "ref"')
+    # Control characters (an escape sequence, a newline in a name) are kept as visible escapes:
+    # the text reaches terminals and Markdown as it is.
+    return printable(value.strip())
 
 
 def part_id(value: Any) -> str:
@@ -358,6 +364,7 @@ def read_document(
         raise BoardError(f"not valid TOML: {err}", file=file, hint="write numbers of a sensible size") from None
     ctx = Locator(file, LineIndex(text))
     _check_nesting(doc, ctx)
+    check_limits(doc, ctx.error)
     for section in doc:
         if section not in sections:
             hint = hint_for(section) or did_you_mean(section, sections) or "sections: " + ", ".join(sections)
@@ -366,10 +373,17 @@ def read_document(
 
 
 def _check_nesting(doc: dict[str, Any], ctx: Locator) -> None:
-    """Refuse values nested deeper than :data:`MAX_NESTING` (checked without recursion)."""
+    """Refuse values nested deeper than :data:`MAX_NESTING`, and TOML dates and times (checked without recursion)."""
     stack: list[tuple[Any, str, int]] = [(value, name, 1) for name, value in doc.items()]
     while stack:
         value, key, depth = stack.pop()
+        if isinstance(value, (datetime.date, datetime.time)):
+            # TOML reads 1979-05-27 or 07:32:00 unquoted as a date or time: no clockplan key takes one.
+            raise ctx.error(
+                key if len(key) <= 120 else key[:117] + "...",
+                f"the value {value.isoformat()} is a TOML date or time, which no key of clockplan takes",
+                "quote it if it is text; write quantities with their unit, e.g. '5 min' or '25 MHz'",
+            )
         if depth > MAX_NESTING:
             raise ctx.error(
                 key if len(key) <= 120 else key[:117] + "...",

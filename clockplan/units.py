@@ -26,6 +26,7 @@ __all__ = [
     "MAX_FREQUENCY",
     "MAX_FREQUENCY_ERROR",
     "MAX_NUMBER_TEXT",
+    "MAX_EXPRESSION_DEPTH",
     "parse_number",
     "parse_ratio",
     "parse_frequency",
@@ -90,8 +91,12 @@ _DURATION_UNITS: dict[str, Fraction] = {
     "month": Fraction(36525 * _SECONDS_PER_DAY, 1200),
 }
 
-_NUMBER_RE = re.compile(r"\d+(?:\.\d*)?(?:[eE][+-]?\d+)?|\.\d+(?:[eE][+-]?\d+)?")
-_TOKEN_RE = re.compile(r"\s*(?:(?P<num>\d+(?:\.\d*)?(?:[eE][+-]?\d+)?|\.\d+(?:[eE][+-]?\d+)?)|(?P<op>\*\*|[-+*/^()]))")
+# ASCII digits only: Python's \d also matches full-width and Arabic-Indic digits, which a
+# board file must not read as numbers in silence (they are refused with a located error).
+_NUMBER_RE = re.compile(r"[0-9]+(?:\.[0-9]*)?(?:[eE][+-]?[0-9]+)?|\.[0-9]+(?:[eE][+-]?[0-9]+)?")
+_TOKEN_RE = re.compile(r"\s*(?:(?P<num>[0-9]+(?:\.[0-9]*)?(?:[eE][+-]?[0-9]+)?|\.[0-9]+(?:[eE][+-]?[0-9]+)?)|(?P<op>\*\*|[-+*/^()]))")
+#: How deeply parentheses, signs and powers may nest in one value; real values need two or three.
+MAX_EXPRESSION_DEPTH = 32
 _UNIT_TAIL_RE = re.compile(r"^(?P<value>.*?)\s*(?P<unit>[A-Za-zµμ°%Ω][A-Za-zµμ°%Ω/^0-9²]*)?\s*$")
 
 
@@ -112,6 +117,7 @@ class _ExpressionParser:
         self.text = text
         self.tokens = self._tokenize(text)
         self.pos = 0
+        self.depth = 0
 
     def _tokenize(self, text: str) -> list[str]:
         tokens: list[str] = []
@@ -120,6 +126,12 @@ class _ExpressionParser:
         while pos < len(stripped):
             match = _TOKEN_RE.match(stripped, pos)
             if not match or match.end() == pos:
+                digit = next((c for c in stripped[pos:] if c.isdigit() and not c.isascii()), None)
+                if digit is not None:
+                    raise UnitError(
+                        f"{_shorten(text)} has a digit that is not an ASCII digit ({_codepoint(digit)})",
+                        hint="write numbers with the digits 0-9 (full-width or other scripts' digits are not read)",
+                    )
                 raise UnitError(
                     f"cannot read {text!r} as a number (unexpected {stripped[pos:].strip()[:10]!r})",
                     hint="write a decimal number or a ratio such as '100.5', '201/2' or '2^24'",
@@ -171,11 +183,22 @@ class _ExpressionParser:
         return value
 
     def _unary(self) -> Fraction:
-        if self._peek() in ("+", "-"):
-            sign = self._take()
-            value = self._unary()
-            return -value if sign == "-" else value
-        return self._power()
+        # Every recursion passes here (signs, exponents, parentheses): bound it so a value of
+        # 200 nested parentheses or 1000 signs is a located error, not a stack overflow.
+        self.depth += 1
+        if self.depth > MAX_EXPRESSION_DEPTH:
+            raise UnitError(
+                f"{_shorten(self.text)} nests parentheses, signs or powers more than {MAX_EXPRESSION_DEPTH} deep",
+                hint="write the value as a plain number or a short ratio such as '148.5/1.001'",
+            )
+        try:
+            if self._peek() in ("+", "-"):
+                sign = self._take()
+                value = self._unary()
+                return -value if sign == "-" else value
+            return self._power()
+        finally:
+            self.depth -= 1
 
     def _power(self) -> Fraction:
         base = self._atom()
@@ -219,6 +242,11 @@ class _ExpressionParser:
             f"cannot read {self.text!r} as a number (unexpected {token!r})",
             hint="write a decimal number or a ratio such as '100.5', '201/2' or '2^24'",
         )
+
+
+def _codepoint(char: str) -> str:
+    """``U+FF11 '１'``: a character named by its code point, for messages."""
+    return f"U+{ord(char):04X} {char!r}"
 
 
 def _shorten(text: str, limit: int = 40) -> str:

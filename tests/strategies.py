@@ -10,6 +10,10 @@ consumers, every source defined before it is used), writes it as TOML with
 the wrong type, an absurd value (0 Hz, negative, 1e30 Hz, NaN, 10**400, a very
 long string), deep nesting, unicode or duplicate ids, a loop, a dangling
 source; or mangle the text itself (empty, truncated, binary junk, a BOM).
+Four mutations (issue 15) start from a board with a value for most numeric keys
+(``tests.boards.RANGES_BOARD``) and change one numeric leaf: an extreme or tiny
+magnitude with its unit kept, a deeply nested expression, non-ASCII digits;
+or put control characters in the board's name.
 
 Every board is invented test data.
 """
@@ -17,6 +21,7 @@ Every board is invented test data.
 from __future__ import annotations
 
 import random
+import re
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Any, Protocol, TypeVar
@@ -37,6 +42,8 @@ __all__ = [
     "board_cases",
     "valid_boards",
     "MUTATIONS",
+    "EXTREME_NUMBERS",
+    "numeric_leaves",
 ]
 
 T = TypeVar("T")
@@ -420,7 +427,8 @@ def _unknown_key(pick: Picker, doc: dict[str, Any]) -> None:
 
 def _many_parts(pick: Picker, doc: dict[str, Any]) -> None:
     consumers = doc.setdefault("consumer", [])
-    source = doc["reference"][0]["id"] if doc.get("reference") else "ref0"
+    references = doc.get("reference")
+    source = references[0].get("id", "ref0") if isinstance(references, list) and references and isinstance(references[0], dict) else "ref0"
     for k in range(pick.choice([50, 300])):
         consumers.append({"id": f"bulk{k}", "source": source, "frequency": f"{k + 1} MHz"})
 
@@ -437,7 +445,104 @@ def _huge_ranges(pick: Picker, doc: dict[str, Any]) -> None:
             part["n"] = [1, pick.choice([10**6, 10**12, "2^48"])]
 
 
+# --- values that parse but are no physical quantity (issue 15): planted in a board that has a
+# value for most numeric keys of the format (tests.boards.RANGES_BOARD), one leaf at a time.
+
+#: Extreme and tiny magnitudes, written in place of a leaf's number (its unit kept).
+EXTREME_NUMBERS = ("1e400", "1e308", "1e300", "1e200", "9223372036854775808", "2^1000", "-1e300", "5e-324",
+                   "1e-300", "1e-400", "0", "-0.0", "1e30", "1e-30", "-1")
+#: Non-ASCII decimal digits (full-width, Arabic-Indic, Extended Arabic-Indic, Devanagari).
+_DIGIT_SETS = ("０１２３４５６７８９", "٠١٢٣٤٥٦٧٨٩", "۰۱۲۳۴۵۶۷۸۹", "०१२३४५६७८९")
+_LEADING_NUMBER = re.compile(r"^\s*(?:±|\+/-|\+-)?\s*[-+]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][-+]?[0-9]+)?")
+
+
+def _ranges_doc() -> dict[str, Any]:
+    import tomllib
+
+    from tests.boards import RANGES_BOARD
+
+    return tomllib.loads(RANGES_BOARD)
+
+
+def numeric_leaves(doc: Any) -> list[tuple[list[Any], Any]]:
+    """``(container path, key)`` of every leaf that holds a number or text starting with one."""
+    found: list[tuple[list[Any], Any]] = []
+    stack: list[tuple[Any, list[Any]]] = [(doc, [])]
+    while stack:
+        item, path = stack.pop()
+        entries = item.items() if isinstance(item, dict) else enumerate(item) if isinstance(item, list) else ()
+        for key, value in entries:
+            if isinstance(value, (dict, list)):
+                stack.append((value, path + [key]))
+            elif isinstance(value, (int, float)) and not isinstance(value, bool) or (
+                isinstance(value, str) and _LEADING_NUMBER.match(value)
+            ):
+                found.append((path, key))
+    return sorted(found, key=repr)
+
+
+def _container(doc: Any, path: list[Any]) -> Any:
+    for key in path:
+        doc = doc[key]
+    return doc
+
+
+def _replace_number(value: Any, number: str) -> Any:
+    """``value`` with its leading number replaced by ``number`` (text, unit kept), or ``number`` itself."""
+    if isinstance(value, str):
+        match = _LEADING_NUMBER.match(value)
+        if match:
+            return number + value[match.end():]
+    return number
+
+
+def _plant(pick: Picker, doc: dict[str, Any], make: Callable[[Any], Any]) -> None:
+    doc.clear()
+    doc.update(_ranges_doc())
+    path, key = pick.choice(numeric_leaves(doc))
+    table = _container(doc, path)
+    table[key] = make(table[key])
+
+
+def _extreme_magnitude(pick: Picker, doc: dict[str, Any]) -> None:
+    number = pick.choice(EXTREME_NUMBERS)
+    _plant(pick, doc, lambda value: _replace_number(value, number))
+
+
+def _deep_expression(pick: Picker, doc: dict[str, Any]) -> None:
+    depth = pick.choice([30, 31, 32, 33, 200, 990])
+    style = pick.choice(["parens", "signs", "powers"])
+
+    def nest(value: Any) -> str:
+        text = value if isinstance(value, str) else str(value)
+        match = _LEADING_NUMBER.match(text)
+        number, unit = (match.group(0).strip(), text[match.end():]) if match else ("1", "")
+        number = number.lstrip("±+/-") or "1"
+        if style == "parens":
+            return "(" * depth + number + ")" * depth + unit
+        if style == "signs":
+            return "-" * (depth - depth % 2) + number + unit
+        return "1^" * depth + number + unit
+
+    _plant(pick, doc, nest)
+
+
+def _non_ascii_digits(pick: Picker, doc: dict[str, Any]) -> None:
+    digits = pick.choice(_DIGIT_SETS)
+    _plant(pick, doc, lambda value: (value if isinstance(value, str) else str(value)).translate(
+        str.maketrans("0123456789", digits)))
+
+
+def _control_text(pick: Picker, doc: dict[str, Any]) -> None:
+    board = doc.setdefault("board", {})
+    board["name"] = pick.choice(["red\x1b[31m", "two\nlines", "bell\x07", "nul\x00", "\x9b2J", "tab\tname|pipe"])
+
+
 _DOC_MUTATIONS: dict[str, Callable[[Picker, dict[str, Any]], None]] = {
+    "extreme-magnitude": _extreme_magnitude,
+    "deep-expression": _deep_expression,
+    "non-ascii-digits": _non_ascii_digits,
+    "control-text": _control_text,
     "drop-key": _drop_key,
     "absurd-value": _absurd_value,
     "wrong-type": _wrong_type,

@@ -55,3 +55,35 @@ def test_deep_nesting_through_the_plan_command(case):
 def test_binary_junk_is_refused_or_read(case):
     outcome = run_case(case.data, time_limit_s=0.2, hang_s=120, full_html=False)
     assert outcome.label in ("ok", "BoardError", "UnitError", "InfeasibleError")
+
+
+@settings(max_examples=5, **_SETTINGS)
+@given(board_cases(mutation="extreme-magnitude"))
+def test_extreme_magnitudes_in_any_numeric_key_end_in_results_or_a_located_error(case):
+    # Issue 15: 1e400, 5e-324, 2^63 ... planted in one numeric leaf of a board that has most keys.
+    outcome = run_case(case.data, time_limit_s=0.2, hang_s=120, full_html=False)
+    assert outcome.label == "ok" or outcome.label.endswith("Error")
+
+
+@settings(max_examples=4, **_SETTINGS)
+@given(board_cases(mutation="deep-expression"))
+def test_deep_expressions_end_in_results_or_a_located_error(case):
+    outcome = run_case(case.data, time_limit_s=0.2, hang_s=120, full_html=False)
+    assert outcome.label in ("ok", "BoardError", "UnitError", "InfeasibleError")
+
+
+@settings(max_examples=4, **_SETTINGS)
+@given(board_cases(mutation="non-ascii-digits"))
+def test_non_ascii_digits_are_never_read_as_numbers(case):
+    status, _, stderr = run_cli_case(case.data, ["audit", "--json"], hang_s=120)
+    text = case.data.decode("utf-8", errors="replace")
+    if any(char.isdigit() and not char.isascii() for char in text):  # a second mutation may drop the key
+        assert status == 2 and stderr.startswith("clockplan: error: "), stderr
+
+
+@settings(max_examples=3, **_SETTINGS)
+@given(board_cases(mutation="control-text"))
+def test_control_characters_in_board_text_never_reach_the_terminal(case):
+    status, stdout, stderr = run_cli_case(case.data, ["audit"], hang_s=120)
+    assert status in (0, 1, 2, 3)
+    assert "\x1b" not in stdout + stderr and "\x07" not in stdout + stderr

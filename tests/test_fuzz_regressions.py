@@ -107,7 +107,7 @@ def test_file_larger_than_the_cap_is_refused_without_reading_it_all(tmp_path):
 
 def test_denominator_above_two_to_the_sixty_fourth_is_refused():
     text = MINIMAL.replace('denominator = "2^24"', 'denominator = "2^400"')
-    with pytest.raises(BoardError, match="above 2\\^64") as info:
+    with pytest.raises(BoardError, match="above (its range 1 \\.\\. )?2\\^64") as info:
         parse_board(text, "b.toml")
     assert info.value.key == "pll[0].denominator"
 
@@ -334,7 +334,7 @@ def test_rich_markup_in_a_board_name_prints_as_text_in_the_loop_command(tmp_path
     path.write_text(text.replace('name = "Sampling receiver"', 'name = "[/] [bold]receiver[/bold]"', 1), encoding="utf-8")
     status = main(["loop", str(path), "conv_synth", "--no-color", "--width", "140"])
     out = capsys.readouterr().out
-    assert status == 0
+    assert status == 1  # the demo fails on purpose; loop exits by audit's rules (issue 15)
     assert "[/] [bold]receiver[/bold]" in out
 
 

@@ -29,7 +29,8 @@ def _run(capsys, *argv: str) -> tuple[int, str, str]:
 
 def test_loop_prints_the_filter_margins_response_and_jitter(capsys):
     status, out, _ = _run(capsys, "loop", RECEIVER, "conv_synth", "--no-color", "--width", "140")
-    assert status == 0
+    # The demo fails on purpose (adc_clk over its jitter budget): loop exits as audit does (issue 15).
+    assert status == 1
     for text in ("Loop filter parts (order 3)", "phase margin", "Closed-loop response", "adc_clk", "N = 18432/625"):
         assert text in out
     assert "planning estimate" in out.lower()
@@ -38,7 +39,7 @@ def test_loop_prints_the_filter_margins_response_and_jitter(capsys):
 def test_loop_json_is_the_filter_at_the_plan_operating_point(capsys):
     signal = pytest.importorskip("scipy.signal")
     status, out, _ = _run(capsys, "loop", RECEIVER, "conv_synth", "--json")
-    assert status == 0
+    assert status == 1  # adc_clk over its jitter budget, as audit says
     document = json.loads(out)
     assert document["pll"] == "conv_synth"
     # The board's settings: 100 MHz in, R = 1, N = 29.4912 exactly.
@@ -87,7 +88,21 @@ def test_loop_analyses_an_existing_filter(capsys, tmp_path):
     parts = 'r1 = "100 ohm"\nc1 = "100 nF"\nc2 = "5.6 nF"\nr3 = "750 ohm"\nc3 = "680 pF"\n'
     board = _variant(tmp_path, 'bandwidth = "50 kHz"\nphase_margin = 55\n', parts)
     status, out, _ = _run(capsys, "loop", board, "conv_synth", "--no-color", "--width", "140")
-    assert status == 0 and "given parts" in out
+    assert status in (0, 1) and "given parts" in out
+    audit_status, _, _ = _run(capsys, "audit", board)
+    assert status == audit_status  # the exit rules of audit
+
+
+def test_loop_exits_as_audit_does_when_its_table_shows_a_consumer_over_budget(capsys):
+    # Issue 15: loop printed adc_clk at 331 fs against a 280 fs budget and exited 0.
+    status, out, _ = _run(capsys, "loop", RECEIVER, "conv_synth", "--no-color", "--width", "140")
+    document = json.loads(_run(capsys, "loop", RECEIVER, "conv_synth", "--json")[1])
+    adc = {c["id"]: c for c in document["consumers"]}["adc_clk"]
+    assert adc["jitter_rms_s"] > adc["jitter_budget_s"]
+    audit_status, _, _ = _run(capsys, "audit", RECEIVER)
+    assert status == audit_status == 1
+    # --fail-on is the audit's option, with its meaning.
+    assert _run(capsys, "loop", RECEIVER, "conv_synth", "--fail-on", "warning")[0] == 1
 
 
 def test_loop_refuses_loop_and_filter_together(capsys, tmp_path):

@@ -104,7 +104,8 @@ def test_the_readme_demo_is_a_showcase(capsys):
 def test_the_demo_summary_shows_every_kind_of_margin(capsys):
     assert main(["plan", "boards/edge-router.toml", "--no-color", "--width", "160"]) == 0
     out = capsys.readouterr().out
-    lines = out[out.index("worst margins:"):out.index("verdict:")].splitlines()[1:]
+    after = out[out.index("worst margins:"):].splitlines()[1:]
+    lines = after[:next(i for i, line in enumerate(after) if not line.startswith("  "))]
     assert [line.split(":")[0].strip() for line in lines] == ["synthesis", "ppm", "jitter"]
     # The tightest ppm budget is ±50 ppm (the PTP clock and the audio clocks): (50 - 7.2) / 50 = 85.6 % left.
     assert "85.6 % left (+7.2 ppm of ±50 ppm)" in lines[1]

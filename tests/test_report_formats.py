@@ -197,9 +197,10 @@ def test_html_is_self_contained_and_balanced(analysis):
     collector.close()
     assert page.startswith("<!DOCTYPE html>")
     assert collector.stack == [], "every opened element is closed"
-    # consumers, settings, findings, and one per board-wide section that offers report_table()
+    # consumers, budgets and their sources, settings, findings, and one per board-wide section that
+    # offers report_table()
     tabled = sum(callable(getattr(extra, "report_table", None)) for extra in analysis.extras.values())
-    assert collector.tables == 2 + (1 if analysis.findings else 0) + tabled
+    assert collector.tables == 3 + (1 if analysis.findings else 0) + tabled
     # Nothing to fetch: every reference is inline data (no http, no file path).
     assert all(ref.startswith("data:image/png;base64,") for ref in collector.references)
     text = " ".join(collector.text)

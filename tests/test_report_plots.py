@@ -146,14 +146,14 @@ def _with_budgets():
 
 
 def test_hooks_feed_the_plots(tmp_path):
-    data = collect_plot_data(_with_budgets())
+    data = collect_plot_data(_with_budgets(), every=True)
     assert [t.consumer for t in data.phase_noise] == ["phy0"]
     assert data.phase_noise[0].note == "PASS: jitter 0.3 ps, no budget"
     # phy0 carries the stand-in hooks; the accuracy stage's own curves follow for the other consumers.
     assert data.temperature[0].consumer == "phy0" and list(data.temperature[0].errors) == PARABOLA
     assert [t.consumer for t in data.distributions] == ["phy0"]  # no --samples: only the stand-in has samples
     written = write_plots(data, tmp_path)
-    assert [p.name for p in written] == ["phase-noise.png", "ppm-temperature.png", "monte-carlo.png"]
+    assert [p.name for p in written] == ["margins.png", "phase-noise.png", "ppm-temperature.png", "monte-carlo.png"]
     for path in written:
         assert png_facts(path.read_bytes())[2] > 16
     assert sorted(p.name for p in tmp_path.iterdir()) == sorted(p.name for p in written)  # no temporaries
@@ -172,16 +172,17 @@ def test_a_board_without_data_has_nothing_to_plot(tmp_path, capsys, monkeypatch)
 
 def test_plots_command_writes_images(tmp_path, capsys, monkeypatch):
     monkeypatch.setattr("clockplan.cli._analyze_with_progress", lambda *a, **k: _with_budgets())
-    assert main(["plots", "boards/industrial-gateway.toml", "--output-dir", str(tmp_path)]) == 0
-    assert sorted(p.name for p in tmp_path.iterdir()) == ["monte-carlo.png", "phase-noise.png", "ppm-temperature.png"]
+    assert main(["plots", "boards/industrial-gateway.toml", "--output-dir", str(tmp_path), "--every-consumer"]) == 0
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["margins.png", "monte-carlo.png", "phase-noise.png",
+                                                         "ppm-temperature.png"]
 
 
 def test_html_embeds_the_plots():
     from clockplan.report.html import render_html
 
-    images = plot_images(collect_plot_data(_with_budgets()))
+    images = plot_images(collect_plot_data(_with_budgets(), every=True))
     page = render_html(_with_budgets(), images=images)
-    assert page.count("data:image/png;base64,") == 3
+    assert page.count("data:image/png;base64,") == 4  # the margins overview and the three curves
 
 
 def test_missing_matplotlib_says_how_to_install(monkeypatch, tmp_path, capsys):
@@ -196,14 +197,17 @@ def test_the_jitter_stage_feeds_the_phase_noise_plot(tmp_path):
     analysis = analyze(load_board("boards/sampling-receiver.toml"))
     with_noise = [c for c in analysis.consumers if c.jitter is not None]
     assert with_noise, "the receiver demo board gives phase noise"
-    data = collect_plot_data(analysis)
+    # By default the ppm curves of consumers that pass with room are left out, and said so.
+    default = collect_plot_data(analysis)
+    assert default.temperature == () and default.left_out[0].startswith("ppm-temperature.png left out: its")
+    data = collect_plot_data(analysis, every=True)
     assert [t.consumer for t in data.phase_noise] == [c.id for c in with_noise]
     for trace, consumer in zip(data.phase_noise, with_noise):
         assert list(trace.band_hz) == consumer.jitter.json_fields()["jitter_band_hz"]
         assert trace.note.split(":")[0] in ("PASS", "warn", "FAIL")
     written = {p.name: p for p in write_plots(data, tmp_path)}
     # The oven's figures give the ppm curve too; without --samples there is no Monte Carlo plot.
-    assert sorted(written) == ["phase-noise.png", "ppm-temperature.png"]
+    assert sorted(written) == ["margins.png", "phase-noise.png", "ppm-temperature.png"]
     assert png_facts(written["phase-noise.png"].read_bytes())[2] > 16
 
 

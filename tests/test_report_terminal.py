@@ -43,16 +43,21 @@ def gateway():
 
 def test_summary_lines_at_fixed_width(capsys, exact_only):
     assert main(["audit", "boards/industrial-gateway.toml", "--no-color", "--width", "100"]) == 0
-    head = capsys.readouterr().out.splitlines()[:7]
+    head = capsys.readouterr().out.splitlines()[:10]
+    # The summary leads with the verdict, then what failed or went unchecked, then the worst margins;
+    # the policy, references and conditions follow (issue 17: a reviewer reads the head first).
     assert head == [
         "clockplan audit: Industrial gateway (boards/industrial-gateway.toml)",
-        "references: ref_main 25 MHz (crystal); mcu_rc 16 MHz (rc)",
-        "conditions: -40 °C to 85 °C, 10 year(s) of aging",
+        "verdict: UNCHECKED - 0 error(s), 8 warning(s), 8 consumer(s), 8 unchecked",
         # The exact audit alone computes no ppm or jitter budget: every consumer with one is unchecked, not PASS.
         "unchecked: phy0 (ppm); pcie_slot (ppm, jitter); pcie_switch (ppm, jitter); usb_phy (ppm); ddr_ref ",
         "(ppm); mcu (ppm); uart_clk (ppm); codec_mclk (ppm)",
         "worst margins:",
         "  synthesis: uart_clk 32.1 % left (-1.357 % of ±2 %)",
+        "margin warning: 20 % (a passing budget with less left is thin)",
+        "references: ref_main 25 MHz (crystal); mcu_rc 16 MHz (rc)",
+        "conditions: -40 °C to 85 °C, 10 year(s) of aging",
+        "Industrial gateway",
     ]
     assert capsys.readouterr().out == ""
     assert main(["audit", "boards/industrial-gateway.toml", "--no-color", "--width", "100"]) == 0
@@ -67,7 +72,7 @@ def test_synthesis_margin_is_exact(gateway):
 
 
 def test_failing_board_prints_the_failure_in_words(capsys, exact_only):
-    assert main(["audit", "boards/video-converter.toml", "--no-color", "--width", "100"]) == 1
+    assert main(["audit", "boards/video-converter.toml", "--no-color", "--width", "100", "--wide"]) == 1
     lines = capsys.readouterr().out.splitlines()
     assert "  synthesis: audio_codec exact target missed (-244.1 ppm off an exact target)" in lines
     assert "    │       └── audio_codec (consumer) 12.285 MHz (target 12.288 MHz) FAIL" in lines

@@ -42,7 +42,7 @@ def _kelvin(temperature_c: float) -> float:
     kelvin = float(temperature_c) + _ZERO_CELSIUS
     if not (math.isfinite(kelvin) and kelvin > 0):
         raise ClockplanError(
-            f"temperature {temperature_c!r} °C is below absolute zero",
+            f"temperature {temperature_c} °C is below absolute zero",
             key="temperature",
             hint="give the filter temperature in °C, e.g. 25",
         )

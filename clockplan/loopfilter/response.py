@@ -269,7 +269,7 @@ def lock_time(design: FilterDesign, spec: LoopSpec, *, frequency_step_hz: float,
     tolerance = float(tolerance_hz)
     if not (math.isfinite(step) and math.isfinite(tolerance) and tolerance > 0):
         raise ClockplanError(
-            f"cannot estimate lock time for a step of {frequency_step_hz!r} Hz within {tolerance_hz!r} Hz",
+            f"cannot estimate lock time for a step of {frequency_step_hz} Hz within {tolerance_hz} Hz",
             hint="give a finite frequency step and a tolerance above 0 Hz",
         )
     if step <= tolerance:

@@ -68,6 +68,11 @@ class PlanOptions:
     cascade_patience
         Stop trying output dividers for a cascade after this many in a row
         brought no better downstream plan.
+    deadline
+        A ``time.monotonic()`` instant the search stops at, whichever of it and
+        ``time_limit_s`` comes first: the command's one run deadline
+        (:class:`clockplan.deadline.Deadline`), so that planning, explaining and
+        the budget stages share one limit.
     """
 
     alternatives: int = 0
@@ -76,6 +81,7 @@ class PlanOptions:
     max_cascade_inputs: int = 256
     max_cascade_solves: int = 12
     cascade_patience: int = 3
+    deadline: float | None = None
 
 
 @dataclass(frozen=True)
@@ -202,6 +208,8 @@ class _Planner:
         self.options = options
         self.keep = max(1, options.alternatives + 1)
         self.deadline = time.monotonic() + options.time_limit_s
+        if options.deadline is not None:
+            self.deadline = min(self.deadline, options.deadline)
         self.notes: list[str] = []
         self.proven_notes: list[str] = []
         self.proven_levels: list[int] = []  # per proven note: how many leading criteria it proves (3 or 5)

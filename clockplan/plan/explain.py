@@ -21,6 +21,7 @@ from dataclasses import dataclass, field, replace
 from fractions import Fraction
 from typing import TYPE_CHECKING, Any
 
+from clockplan.deadline import CUT_RUN_NOTE
 from clockplan.parts import Denominator, FrequencyRange, IntChoices, Pll
 from clockplan.plan.pll_solver import OutputSpec, PllProblem, SearchLimits, solve_pll
 from clockplan.plan.rational import lcm_fractions
@@ -113,6 +114,10 @@ def _unpinned(pll: Pll, problem: PllProblem) -> PllProblem | None:
     return replace(problem, r_pin=None, n_pin=None, outputs=outputs)
 
 
+class _OutOfTime(Exception):
+    """The explanation's deadline passed: it stops where it is and says so."""
+
+
 @dataclass
 class _Budget:
     """The explanation's time budget: every relaxed search shares one deadline."""
@@ -121,6 +126,9 @@ class _Budget:
     ran_out: bool = False
 
     def search(self, problem: PllProblem):
+        if time.monotonic() > self.deadline:  # no search starts past the deadline (each costs time even cut)
+            self.ran_out = True
+            raise _OutOfTime
         result = solve_pll(problem, SearchLimits(keep=1, deadline=self.deadline))
         if time.monotonic() > self.deadline:
             self.ran_out = True
@@ -222,11 +230,14 @@ def _pll_problems(plan: "BoardPlan") -> dict[str, PllProblem]:
     return problems
 
 
-def explain_infeasible(plan: "BoardPlan", time_limit_s: float = 10.0) -> Explanation:
+def explain_infeasible(plan: "BoardPlan", time_limit_s: float = 10.0, *, deadline: float | None = None) -> Explanation:
     """Explain why ``plan`` (the nearest plan of an infeasible board) misses.
 
-    The relaxed searches share ``time_limit_s`` (the ``plan`` command passes its
-    ``--time-limit``); when it runs out, the explanation says so.
+    The relaxed searches share ``time_limit_s`` from now, or stop at
+    ``deadline`` (a ``time.monotonic()`` instant) if that comes first: the
+    ``plan`` command passes its run's one deadline, so the explanation gets
+    what the search left, never a fresh budget. When it runs out, the
+    explanation says so.
 
     Examples
     --------
@@ -238,21 +249,30 @@ def explain_infeasible(plan: "BoardPlan", time_limit_s: float = 10.0) -> Explana
     explanation = Explanation(nearest_errors=dict(plan.best.errors), tolerances=tolerances)
     if any("time limit" in note for note in plan.notes):
         explanation.conflicts.append(
-            Conflict((), "time-limit", "the search stopped at its time limit, so a feasible plan may exist; raise --time-limit")
+            Conflict((), "time-limit", "the search stopped at its time limit, so a feasible plan may exist; raise --time-limit "
+                     f"({CUT_RUN_NOTE})")
         )
     for reason in plan.best.blocked:
         explanation.conflicts.append(Conflict((), "part-cannot-run", reason))
-    _explain_margin(plan, explanation, time_limit_s)
+    end = time.monotonic() + time_limit_s
+    end = end if deadline is None else min(end, deadline)
+    if not _explain_margin(plan, explanation, end):
+        explanation.conflicts.append(Conflict(
+            (), "time-limit", "the time limit passed before the check of the ranges' margin for the reference's "
+            f"error band: a board blocked by that margin is not named so; raise --time-limit ({CUT_RUN_NOTE})"))
     missing = {cid for cid, err in plan.best.errors.items() if abs(err) > tolerances.get(cid, Fraction(0))}
     if not missing:
         return explanation
     explained: set[str] = set()
-    budget = _Budget(time.monotonic() + time_limit_s)
-    _explain_plls(plan, explanation, missing, explained, budget)
+    budget = _Budget(end)
+    try:
+        _explain_plls(plan, explanation, missing, explained, budget)
+    except _OutOfTime:
+        pass  # budget.ran_out is set: said below
     if budget.ran_out:
         explanation.conflicts.append(Conflict(
             (), "time-limit", "the explanation stopped at its time limit: the blocking constraints named may be "
-            "incomplete; raise --time-limit"))
+            f"incomplete; raise --time-limit ({CUT_RUN_NOTE})"))
         return explanation  # a consumer left unexamined is not shown unreachable
     bounded = bool(plan.notes)
     for cid in sorted(missing - explained):
@@ -268,23 +288,28 @@ def explain_infeasible(plan: "BoardPlan", time_limit_s: float = 10.0) -> Explana
     return explanation
 
 
-def _explain_margin(plan: "BoardPlan", explanation: Explanation, time_limit_s: float) -> None:
+def _explain_margin(plan: "BoardPlan", explanation: Explanation, end: float) -> bool:
     """Say so when the ranges' margin for the reference's error band and spread is what blocks the board.
 
     The planner keeps every input, PFD and VCO range clear of its edges by
     that band (docs/planning.md, Ranges at the extremes). When the board plans
     feasibly without the margin, the plan it would give sits on an edge that
     the reference's drift (or a spread sweep) crosses: a real failure, named.
+    False if the deadline ``end`` passed before the check could run.
     """
     from clockplan.plan.board_planner import PlanOptions, margined_board, plan_board
 
     board = plan.board
     narrowed = margined_board(board)
     if narrowed is board:
-        return
-    at_nominal = plan_board(board, PlanOptions(time_limit_s=max(0.1, time_limit_s / 4)), margin=False)
-    if not at_nominal.feasible:
-        return
+        return True
+    if time.monotonic() > end:
+        return False
+    # A quarter of what is left, inside the run's deadline (never a fresh budget of its own).
+    left = max(0.0, end - time.monotonic())
+    at_nominal = plan_board(board, PlanOptions(time_limit_s=left / 4, deadline=end), margin=False)
+    if not at_nominal.feasible:  # proven only when the search at nominal was not cut by the deadline
+        return not any("time limit" in note for note in at_nominal.notes)
     from clockplan.audit import check_range_extremes
     from clockplan.extremes import pll_bands
     from clockplan.frequency import propagate
@@ -297,6 +322,7 @@ def _explain_margin(plan: "BoardPlan", explanation: Explanation, time_limit_s: f
         "a plan exists at nominal frequencies only, on a range edge the reference's worst-case error (or a spread "
         f"sweep) crosses: {detail}. Widen the part's range, use a more accurate reference, or choose parts whose "
         "ranges do not end at the frequencies needed")))
+    return True
 
 
 def _explain_plls(plan: "BoardPlan", explanation: Explanation, missing: set[str], explained: set[str], budget: _Budget) -> None:

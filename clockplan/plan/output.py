@@ -87,6 +87,10 @@ def search_finding(plan: "BoardPlan", analysis: "Analysis") -> Finding | None:
     needed = verdict_criteria(analysis)
     listed = "; ".join(bounds)
     what = f"the search hit {len(bounds)} bound{'s' if len(bounds) > 1 else ''} ({listed})"
+    if any("time limit" in bound for bound in bounds):
+        from clockplan.deadline import CUT_RUN_NOTE
+
+        what += f" ({CUT_RUN_NOTE})"
     if proven >= needed:
         later = _LATER.get(proven, "the later criteria")
         return Finding(
@@ -147,14 +151,15 @@ def plan_document(analysis: "Analysis", plan: "BoardPlan", explanation: "Explana
     return doc
 
 
-def render_plan(analysis: "Analysis", plan: "BoardPlan", console: "Console", explanation: "Explanation | None" = None) -> None:
+def render_plan(analysis: "Analysis", plan: "BoardPlan", console: "Console", explanation: "Explanation | None" = None,
+                wide: bool | None = None) -> None:
     """Print the audit-style report of the plan, then the plan's own tables."""
     from rich.table import Table
 
     from clockplan.report.terminal import render_analysis
 
     title = "plan (nearest plan: NO FEASIBLE PLAN)" if explanation is not None else "plan"
-    render_analysis(analysis, console, title=title)
+    render_analysis(analysis, console, title=title, wide=wide)
     score = plan.best.score
     console.print(
         f"objective: worst synthesis error {format_ppm(score.worst_error).lstrip('+')}, "

@@ -84,6 +84,10 @@ class PllProblem:
     loop_bandwidth: Fraction | float | None = None
 
 
+#: R values a search past its deadline still tries, to give a nearest setting (see ``_fallback``).
+_LATE_GRIDS = 16
+
+
 @dataclass(frozen=True)
 class SearchLimits:
     """Bounds that keep a search finite: ranked results kept, a deadline, candidate caps."""
@@ -405,7 +409,17 @@ class _Solver:
             grid = self.grids[0]
             self._consider(grid, Fraction(ceil_fraction(grid.n_lo)))
             return
-        points = sorted(self._critical_points(), key=lambda item: item[0])[:8]
+        if self.limits.deadline is not None and time.monotonic() > self.limits.deadline:
+            # Past the deadline: a bounded look (the first R values, the two best points), so that
+            # the run still ends near its limit however many R values the part allows.
+            if len(self.grids) > _LATE_GRIDS:
+                self.notes.append(f"{self.pll.id}: past the time limit only the {_LATE_GRIDS} smallest R values "
+                                  "were tried for a nearest setting")
+                self.grids = self.grids[:_LATE_GRIDS]
+            count = 2
+        else:
+            count = 8
+        points = sorted(self._critical_points(), key=lambda item: item[0])[:count]
         for _, point in points:
             self._visit_point(point.point if isinstance(point, _Crossing) else point)
 
@@ -543,7 +557,7 @@ class _Solver:
         points |= {g.vco_lo for g in self.grids} | {g.vco_hi for g in self.grids}
         for out in self.outputs:
             for index, d in enumerate(out.sweep.values):
-                if index % 1024 == 1023 and self._out_of_time():
+                if index % 64 == 63 and self._out_of_time():
                     break
                 for edge in (d * out.center, d * out.window_lo, d * out.window_hi):
                     if self.vlo <= edge <= self.vhi:
@@ -551,7 +565,9 @@ class _Solver:
         # Floats order the points; exact comparison only breaks float ties.
         boundaries = sorted(points, key=lambda p: (float(p), p))
         result = []
-        for p in boundaries:
+        for index, p in enumerate(boundaries):
+            if index % 256 == 255 and self._out_of_time():
+                break
             e = self._pure_error_float(float(p))
             if e is not None:
                 result.append((e, p))
@@ -571,7 +587,8 @@ class _Solver:
         # Per output: how many bottoms lie at or below p (advanced as p moves right).
         below = [bisect.bisect_right(out.bottoms, boundaries[0]) for out in self.outputs] if boundaries else []
         for index, (p, q) in enumerate(zip(boundaries, boundaries[1:])):
-            if index % 1024 == 1023 and self._out_of_time():
+            # Each interval costs a pass over every pair of outputs: check the clock often.
+            if index % 64 == 63 and self._out_of_time():
                 break
             lines = []  # per output: (B or None, A or None), exact
             for k, out in enumerate(self.outputs):

@@ -25,7 +25,7 @@ _Range = tuple[Fraction, Fraction]
 
 def _check_elapsed(seconds: float) -> None:
     if not math.isfinite(seconds) or seconds < 0:
-        raise BoardError(f"lifetime {seconds!r} s is not a duration", hint="give the lifetime as e.g. '10 years'")
+        raise BoardError(f"lifetime {seconds} s is not a duration", hint="give the lifetime as e.g. '10 years'")
 
 
 @dataclass(frozen=True)
@@ -81,7 +81,7 @@ class AgingLog:
     def __post_init__(self) -> None:
         if not (self.time_constant_s > 0 and math.isfinite(self.time_constant_s)):
             raise BoardError(
-                f"aging time constant {self.time_constant_s!r} s is not positive",
+                f"aging time constant {self.time_constant_s} s is not positive",
                 hint="give a positive time constant, e.g. '1 day'",
             )
 

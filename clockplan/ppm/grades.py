@@ -19,7 +19,7 @@ from fractions import Fraction
 from importlib import resources
 
 from clockplan.errors import ClockplanError
-from clockplan.margins import DEFAULT_MARGIN_WARNING, is_thin
+from clockplan.margins import DEFAULT_MARGIN_WARNING, budget_headroom, is_thin
 from clockplan.ppm.accuracy import OVEN_NOTE, PLANNING_NOTE, AccuracyResult, consumer_accuracy
 from clockplan.ppm.display import format_limits
 from clockplan.ppm.montecarlo import ConsumerChain
@@ -200,7 +200,7 @@ def _rated_over(spec: OscillatorSpec, temperature_range: tuple[float, float]) ->
 
 
 def _fits(results: Sequence[AccuracyResult], margin: Fraction) -> bool:
-    return all(r.passes and not is_thin(r.margin / r.budget.half_width, margin) for r in results)
+    return all(r.passes and not is_thin(budget_headroom(r.margin, r.budget.half_width), margin) for r in results)
 
 
 def advise_grade(

@@ -17,7 +17,7 @@ from dataclasses import dataclass, field
 from fractions import Fraction
 from typing import TYPE_CHECKING, Any, NamedTuple
 
-from clockplan.margins import is_thin
+from clockplan.margins import budget_headroom, is_thin
 from clockplan.parts import WORST_CASE
 from clockplan.ppm.accuracy import AccuracyResult, ConsumerBudget, Contribution, compose
 from clockplan.ppm.aging import SECONDS_PER_YEAR
@@ -246,7 +246,7 @@ class ConsumerAccuracy:
         r = self.result
         prefix = "typ. " if self.basis == BASIS_TYPICAL else ""
         text = f"{prefix}{format_error(r.worst_case)} of {format_limits(self.budget.tolerance)}"
-        return float(r.margin / self.budget.half_width), text
+        return float(budget_headroom(r.margin, self.budget.half_width)), text
 
     def _checked_sweep(self) -> tuple[Fraction, Fraction, Fraction]:
         """The sweep held against the budget ``(low, high, mean)``: zero unless the spread counts as error."""

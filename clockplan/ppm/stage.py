@@ -21,6 +21,7 @@ from collections.abc import Sequence
 from fractions import Fraction
 from typing import TYPE_CHECKING
 
+from clockplan.deadline import CUT_RUN_NOTE
 from clockplan.errors import BoardError
 from clockplan.findings import Finding, Severity
 from clockplan.parts import WORST_CASE, Consumer
@@ -35,7 +36,7 @@ from clockplan.ppm.board import (
 )
 from clockplan.ppm.conditions import condition_findings, require_conditions
 from clockplan.ppm.display import format_error, format_limits
-from clockplan.margins import format_margin_warning, is_thin
+from clockplan.margins import budget_headroom, format_margin_warning, is_thin
 from clockplan.ppm.grades import (
     ALWAYS_ON_BELOW_HZ,
     Grade,
@@ -143,12 +144,13 @@ def _stopped_early(summary: MonteCarloSummary, board_name: str) -> Finding:
     return Finding(
         Severity.WARNING, "monte-carlo-time-limit", board_name,
         f"the Monte Carlo stopped at its time limit after {summary.samples:,} of {summary.requested:,} boards; "
-        f"the yields are from the {summary.samples:,} boards simulated (raise --time-limit, or ask fewer --samples)",
+        f"the yields are from the {summary.samples:,} boards simulated (raise --time-limit, or ask fewer --samples; "
+        f"{CUT_RUN_NOTE})",
     )
 
 
 def _fits(result: AccuracyResult, margin: Fraction) -> bool:
-    return result.passes and not is_thin(result.margin / result.budget.half_width, margin)
+    return result.passes and not is_thin(budget_headroom(result.margin, result.budget.half_width), margin)
 
 
 #: The note a budget derived from a timekeeping target carries (``rtc = { drift, per }``, clockplan.standards).

@@ -59,7 +59,17 @@ __all__ = [
     "summarize",
     "ExtraSection",
     "extra_sections",
+    "WIDE_COLUMNS",
+    "compact_consumers_table",
+    "format_share",
+    "unused_outputs",
+    "thin_consumers",
+    "budget_origin",
+    "budgets_table",
 ]
+
+#: From this many columns the terminal shows the full consumer table; below it, one line per consumer.
+WIDE_COLUMNS = 160
 
 #: The words a status can be; reports may colour them but never replace them.
 STATUS_WORDS = ("PASS", "warn", "unchecked", "FAIL")
@@ -125,12 +135,8 @@ class Margin:
 
     @property
     def describe(self) -> str:
-        """``'38 % left'``, ``'over by 12 %'`` or ``'exact target missed'``."""
-        if math.isinf(self.headroom):
-            return "exact target missed"
-        if self.headroom < 0:
-            return f"over by {-self.headroom * 100:.3g} %"
-        return f"{self.headroom * 100:.3g} % left"
+        """``'38 % left'``, ``'over by 12 %'``, ``'41x the budget'`` or ``'exact target missed'``."""
+        return format_share(self.headroom)
 
 
 @dataclass(frozen=True)
@@ -160,6 +166,10 @@ class Summary:
     consumers: int
     unchecked: tuple[str, ...] = ()
     accuracy_policy: str | None = None
+    monte_carlo: str | None = None
+    thin: tuple[str, ...] = ()
+    margin_warning: str | None = None
+    unused: tuple[str, ...] = ()
 
     @property
     def counts(self) -> str:
@@ -168,16 +178,40 @@ class Summary:
         return text + (f", {len(self.unchecked)} unchecked" if self.unchecked else "")
 
     @property
-    def facts(self) -> tuple[tuple[str, str], ...]:
-        """The summary's ``(label, text)`` lines after the title (which names the board and its file)."""
-        facts = [("references", "; ".join(self.references)), ("conditions", self.conditions)]
-        if self.accuracy_policy is not None:
-            facts.append(("ppm policy", POLICY_TEXT.get(self.accuracy_policy, self.accuracy_policy)))
+    def lead_facts(self) -> tuple[tuple[str, str], ...]:
+        """What a reviewer reads first: the yield, the failing, unchecked and thin consumers."""
+        facts = []
+        if self.monte_carlo is not None:
+            facts.append(("Monte Carlo", self.monte_carlo))
         if self.failing:
             facts.append(("failing", "; ".join(self.failing)))
         if self.unchecked:
             facts.append(("unchecked", "; ".join(self.unchecked)))
+        if self.thin:
+            facts.append(("thin margin", "; ".join(self.thin)))
         return tuple(facts)
+
+    @property
+    def context_facts(self) -> tuple[tuple[str, str], ...]:
+        """What the verdict was judged under: the policy applied, then the references, conditions, unused outputs."""
+        facts = []
+        if self.accuracy_policy is not None:
+            facts.append(("ppm policy", POLICY_TEXT.get(self.accuracy_policy, self.accuracy_policy)))
+        if self.margin_warning is not None:
+            facts.append(("margin warning", self.margin_warning))
+        facts += [("references", "; ".join(self.references)), ("conditions", self.conditions)]
+        if self.unused:
+            facts.append(("unused outputs", "; ".join(self.unused)))
+        return tuple(facts)
+
+    @property
+    def facts(self) -> tuple[tuple[str, str], ...]:
+        """Every ``(label, text)`` line after the title and verdict: the lead facts, then the context.
+
+        Reports print the worst margins between the two (:attr:`lead_facts`,
+        :attr:`margin_lines`, :attr:`context_facts`).
+        """
+        return self.lead_facts + self.context_facts
 
     @property
     def margin_lines(self) -> tuple[str, ...]:
@@ -185,6 +219,42 @@ class Summary:
         if not self.margins:
             return (NO_MARGINS_UNCHECKED if self.unchecked else NO_MARGINS,)
         return tuple(f"{m.kind}: {m.consumer} {m.describe} ({m.text})" for m in self.margins)
+
+
+def _three_digits(value: float) -> str:
+    """``value`` to three significant digits, no exponent, no trailing zeros (``0.0123``, ``12.3``, ``4,100``)."""
+    if value == 0:
+        return "0"
+    digits = max(0, 2 - math.floor(math.log10(abs(value))))
+    rounded = round(value, digits)
+    if rounded != 0 and math.floor(math.log10(abs(rounded))) > math.floor(math.log10(abs(value))):
+        digits = max(0, digits - 1)  # 99.96 rounds up to 100.0: keep three digits, not four
+        rounded = round(value, digits)
+    text = f"{rounded:,.{digits}f}"
+    return text.rstrip("0").rstrip(".") if "." in text else text
+
+
+def format_share(headroom: float) -> str:
+    """The share of a budget left, for people: three significant digits, never an exponent.
+
+    ``headroom`` is ``1 - used / budget``. Up to twice the budget the overrun
+    reads as a percentage; beyond it as a multiple of the budget, which a
+    reviewer takes in at once (``41x the budget`` rather than ``over by 4e+03 %``).
+
+    Examples
+    --------
+    >>> format_share(0.3214), format_share(0.0), format_share(-0.12)
+    ('32.1 % left', '0 % left', 'over by 12 %')
+    >>> format_share(-40.0), format_share(-1.0), format_share(float("-inf"))
+    ('41x the budget', 'over by 100 %', 'exact target missed')
+    """
+    if math.isinf(headroom) or math.isnan(headroom):
+        return "exact target missed" if headroom < 0 else "no budget to measure"
+    if headroom < -1:
+        return f"{_three_digits(1 - headroom)}x the budget"
+    if headroom < 0:
+        return f"over by {_three_digits(-headroom * 100)} %"
+    return f"{_three_digits(headroom * 100)} % left"
 
 
 def status_of(analysis: Analysis, node: str) -> str:
@@ -346,6 +416,89 @@ def consumers_table(analysis: Analysis) -> TextTable:
     return TextTable("Consumers", tuple(columns), tuple(rows), status_column=len(columns) - 1)
 
 
+def _compact_frequency(result: ConsumerResult) -> str:
+    """The achieved frequency (``≈`` when inexact; the tree and the wide table give the target beside it)."""
+    return format_frequency(result.actual_hz) if result.actual_hz is not None else "unset"
+
+
+def _compact_margin(analysis: Analysis, result: ConsumerResult) -> str:
+    """The worst margin; for a consumer with a budget not checked, that budget (its margin is unknown,
+    so a margin that passes is never shown as its worst), unless a known margin already fails."""
+    margins = consumer_margins(analysis, result)
+    least = min(margins, key=lambda m: m.headroom) if margins else None
+    if result.unchecked and (least is None or least.headroom >= 0):
+        return ", ".join(result.unchecked) + ": unchecked"
+    if least is not None and math.isinf(least.headroom):
+        return least.describe  # only a synthesis margin is infinite: "exact target missed"
+    return f"{least.kind}: {least.describe}" if least is not None else "-"
+
+
+def compact_consumers_table(analysis: Analysis) -> TextTable:
+    """One short line per consumer: id, frequency, status, and its worst margin with the budget's kind.
+
+    The terminal's default below :data:`WIDE_COLUMNS` columns; every column is
+    in :func:`consumers_table` (``--wide``, Markdown, HTML, CSV, JSON).
+    """
+    columns = (Column("consumer"), Column("frequency", "right"), Column("status"), Column("worst margin"))
+    rows = tuple(
+        (result.id, _compact_frequency(result), consumer_status(analysis, result.id),
+         _compact_margin(analysis, result))
+        for result in analysis.consumers
+    )
+    return TextTable("Consumers", columns, rows, status_column=2)
+
+
+#: How the notes of a budget derived from the board's figures begin (clockplan.standards.resolve).
+_DERIVATIONS = ("Converter SNR", "UART", "CAN", "RTC")
+
+
+def _derivations(notes: str) -> list[str]:
+    """The sentences of a budget's notes that derive a figure from the board's own (SNR, baud, drift)."""
+    import re
+
+    sentences = re.split(r"(?<=\.)\s+(?=[A-Z])", notes.strip()) if notes else []
+    return [s for s in sentences if s.startswith(_DERIVATIONS)]
+
+
+def budget_origin(consumer: Any) -> str:
+    """Where a consumer's ppm and jitter budget comes from, in one line.
+
+    A standard's budget names its key, confidence and source (and the fields
+    the board replaced); a budget the board derives from a converter's SNR,
+    a baud rate or a drift shows that derivation (the figures and the result).
+
+    Examples
+    --------
+    >>> budget_origin(board.part("adc_clk"))  # doctest: +SKIP
+    'the board: Converter SNR 70 dB at 180 MHz input: jitter at most 280 fs RMS (...)'
+    """
+    budget = getattr(consumer, "budget", None)
+    if budget is None:
+        return "no ppm or jitter budget"
+    derived = _derivations(getattr(budget, "notes", ""))
+    if budget.key == "inline":
+        return "the board's own figures" + (": " + " ".join(derived) if derived else "")
+    text = f"standard {budget.key} (confidence: {budget.confidence})"
+    if budget.source:
+        text += f"; source: {budget.source}"
+    if budget.overridden:
+        text += f"; the board sets its own {', '.join(budget.overridden)}"
+    if derived:
+        text += ": " + " ".join(derived)
+    return text
+
+
+def budgets_table(analysis: Analysis) -> TextTable:
+    """Each consumer's description (from the board file) and where its budget comes from."""
+    columns = (Column("consumer"), Column("description"), Column("budget from"))
+    rows = tuple(
+        (result.id, getattr(analysis.board.part(result.id), "description", None) or "-",
+         budget_origin(analysis.board.part(result.id)))
+        for result in analysis.consumers
+    )
+    return TextTable("Budgets and where they come from", columns, rows)
+
+
 def settings_table(analysis: Analysis) -> TextTable | None:
     """The settings of every PLL and plain divider, or None if the board has neither."""
     board = analysis.board
@@ -490,7 +643,70 @@ def summarize(analysis: Analysis) -> Summary:
         consumers=len(analysis.consumers),
         unchecked=tuple(f"{r.id} ({', '.join(r.unchecked)})" for r in analysis.consumers if r.unchecked),
         accuracy_policy=_applied_policy(analysis),
+        monte_carlo=_monte_carlo_text(analysis),
+        thin=tuple(thin_consumers(analysis)),
+        margin_warning=_margin_warning_text(analysis),
+        unused=tuple(unused_outputs(analysis)),
     )
+
+
+def _monte_carlo_text(analysis: Analysis) -> str | None:
+    """The whole-board yield of the Monte Carlo run, or None when none ran."""
+    run = analysis.extras.get("monte_carlo")
+    board_yield = getattr(run, "board_yield", None)
+    if run is None or board_yield is None:
+        return None
+    if not math.isfinite(board_yield):
+        return "no yield (the run gave no finite figure)"
+    samples = getattr(run, "samples", 0)
+    requested = getattr(run, "requested", 0) or samples
+    boards = f"{samples:,} boards" if samples >= requested else f"{samples:,} of {requested:,} boards (time limit)"
+    return f"{board_yield * 100:.2f} % of {boards} keep every ppm budget (frequency error only)"
+
+
+def _margin_warning_text(analysis: Analysis) -> str:
+    from clockplan.margins import format_margin_warning
+
+    threshold = analysis.board.margin_warning
+    if threshold == 0:
+        return "off (margin_warning = \"0 %\")"
+    return f"{format_margin_warning(threshold)} (a passing budget with less left is thin)"
+
+
+def thin_consumers(analysis: Analysis) -> list[str]:
+    """Consumers that pass a budget with less room than the board's ``margin_warning``, e.g. ``'sfp_a (jitter 9.5 % left)'``."""
+    from clockplan.margins import is_thin
+
+    threshold = analysis.board.margin_warning
+    found = []
+    for result in analysis.consumers:
+        thin = [m for m in consumer_margins(analysis, result)
+                if math.isfinite(m.headroom) and is_thin(m.headroom, threshold)]
+        if thin:
+            found.append(f"{result.id} ({', '.join(f'{m.kind} {m.describe}' for m in thin)})")
+    return found
+
+
+def unused_outputs(analysis: Analysis) -> list[str]:
+    """PLL outputs given a divider (so running) that feed nothing, with the frequency they run at.
+
+    A running output nobody uses still draws power and its edges can couple
+    into the outputs that matter (spurs): worth turning off where the part allows.
+    """
+    graph = analysis.graph
+    found = []
+    for pll in analysis.board.plls:
+        setting = analysis.settings.plls.get(pll.id)
+        if setting is None:
+            continue
+        for name in setting.dividers:
+            node = f"{pll.id}.{name}"
+            if node in graph and not any(True for _ in graph.successors(node)):
+                hz = analysis.frequencies.nodes.get(node)
+                at = f" at {format_frequency(hz)}" if hz is not None else ""
+                found.append(f"{node}{at} feeds nothing (it still draws power and can add spurs: "
+                             "turn it off if the part allows)")
+    return found
 
 
 def _applied_policy(analysis: Analysis) -> str | None:

@@ -48,6 +48,7 @@ __all__ = [
     "accuracy_table",
     "jitter_table",
     "explanation_findings_table",
+    "explanation_facts",
     "render_explanation",
     "explanation_markdown",
     "explanation_document",
@@ -354,6 +355,18 @@ def _tables(explanation: Explanation) -> list[TextTable]:
 # --------------------------------------------------------------------------- renderers
 
 
+def explanation_facts(explanation: Explanation) -> list[tuple[str, str]]:
+    """The consumer's description from the board file (if any) and where its budget comes from."""
+    from clockplan.report.content import budget_origin
+
+    part = explanation.analysis.board.part(explanation.consumer.id)
+    facts = []
+    if getattr(part, "description", None):
+        facts.append(("description", part.description))
+    facts.append(("budget from", budget_origin(part)))
+    return facts
+
+
 def render_explanation(explanation: Explanation, console: "Console") -> None:
     """Print the explanation to a terminal (plain words; colour only on status words)."""
     from rich.markup import escape
@@ -364,6 +377,8 @@ def render_explanation(explanation: Explanation, console: "Console") -> None:
     source = f" ({analysis.board.source_file})" if analysis.board.source_file else ""
     console.print(f"[bold]clockplan explain[/]: {escape(explanation.consumer.id)} on {escape(analysis.board.name)}{source}")
     console.print(escape(_headline(explanation)))
+    for label, text in explanation_facts(explanation):
+        console.print(f"{label}: {escape(text)}")
     for table in _tables(explanation):
         console.print(rich_table(table))
     for note in explanation.notes:
@@ -378,6 +393,9 @@ def explanation_markdown(explanation: Explanation) -> str:
     analysis = explanation.analysis
     parts = [f"# clockplan explain: `{explanation.consumer.id}` on {escape_cell(analysis.board.name)}\n",
              f"**{escape_cell(_headline(explanation))}**\n"]
+    facts = explanation_facts(explanation)
+    if facts:
+        parts.append("".join(f"- **{label[0].upper() + label[1:]}:** {escape_cell(text)}\n" for label, text in facts))
     parts += [markdown_table(t) for t in _tables(explanation)]
     parts += [f"> note: {escape_cell(n)}\n" for n in explanation.notes]
     parts.append(f"> {CAVEAT}\n")

@@ -20,6 +20,7 @@ from clockplan.report.content import (
     Summary,
     TextTable,
     TreeNode,
+    budgets_table,
     clock_tree,
     consumers_table,
     extra_sections,
@@ -81,6 +82,7 @@ footer { margin-top: 2.5rem; color: var(--muted); font-size: .88rem; border-top:
 """
 
 _PLOT_CAPTIONS = {
+    "margins.png": "The worst margin of every consumer: the share of its budget left (clipped at -100 %).",
     "phase-noise.png": "Phase noise at each consumer; the shaded span is the integration band of its jitter budget.",
     "ppm-temperature.png": "Frequency error over the operating temperature range; dashed lines are the budget.",
     "monte-carlo.png": "Monte Carlo frequency error against the budget (dashed lines).",
@@ -130,13 +132,14 @@ def clean_svg(svg: str) -> str:
 
 
 def _summary(summary: Summary, title: str) -> str:
-    facts = f"<dt>board file</dt><dd><code>{escape(summary.file)}</code></dd>" if summary.file else ""
-    facts += "".join(f"<dt>{escape(label)}</dt><dd>{escape(text)}</dd>" for label, text in summary.facts)
+    lead = "".join(f"<dt>{escape(label)}</dt><dd>{escape(text)}</dd>" for label, text in summary.lead_facts)
+    context = "".join(f"<dt>{escape(label)}</dt><dd>{escape(text)}</dd>" for label, text in summary.context_facts)
+    context += f"<dt>board file</dt><dd><code>{escape(summary.file)}</code></dd>" if summary.file else ""
     margins = "".join(f"<li>{escape(line)}</li>" for line in summary.margin_lines)
     return (
         f"<h1>clockplan {escape(title)}: {escape(summary.board)}</h1>"
         f'<p><span class="verdict {summary.verdict}">{summary.verdict}</span>{escape(summary.counts)}</p>'
-        f'<dl class="summary">{facts}<dt>worst margins</dt><dd><ul>{margins}</ul></dd></dl>'
+        f'<dl class="summary">{lead}<dt>worst margins</dt><dd><ul>{margins}</ul></dd>{context}</dl>'
     )
 
 
@@ -174,7 +177,9 @@ def render_html(analysis: Analysis, title: str = "audit", svg: str | None = None
     else:
         tree = (html_tree(clock_tree(analysis)) + '<p class="note">Install Graphviz (the <code>dot</code> program) '
                 "to draw this tree as a diagram.</p>")
-    sections = f"<h2>Consumers</h2>{html_table(consumers_table(analysis))}"
+    budgets = budgets_table(analysis)
+    sections = (f"<h2>Consumers</h2>{html_table(consumers_table(analysis))}"
+                f"<h2>{escape(budgets.title)}</h2>{html_table(budgets)}")
     for extra in extra_sections(analysis):
         sections += (f"<h2>{escape(extra.table.title)}</h2>{html_table(extra.table)}" if extra.table
                      else f'<pre class="extra">{escape(extra.text or "")}</pre>')

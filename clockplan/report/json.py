@@ -8,6 +8,7 @@ numbers as JSON numbers; an exact zero error is the integer ``0``.
 from __future__ import annotations
 
 import json as _json
+import math
 from fractions import Fraction
 from typing import Any
 
@@ -157,5 +158,24 @@ def analysis_document(analysis: Analysis, command: str = "audit") -> dict[str, A
 
 
 def dumps(document: dict[str, Any]) -> str:
-    """Serialise deterministically (same input, byte-identical output)."""
-    return _json.dumps(document, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    """Serialise deterministically (same input, byte-identical output).
+
+    A float that is NaN or infinite (JSON has no such number) is written as
+    ``null``: the analysis has already raised a ``non-finite`` error finding for
+    any budget figure that came out so, and the writer never refuses a document.
+    """
+    try:
+        return _json.dumps(document, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    except ValueError:
+        return _json.dumps(_finite(document), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+
+
+def _finite(value: Any) -> Any:
+    """``value`` with every non-finite float replaced by None (recursively)."""
+    if isinstance(value, float):
+        return value if math.isfinite(value) else None
+    if isinstance(value, dict):
+        return {key: _finite(item) for key, item in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_finite(item) for item in value]
+    return value

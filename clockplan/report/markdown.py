@@ -14,6 +14,7 @@ from clockplan.analysis import CAVEAT, Analysis
 from clockplan.report.content import (
     Summary,
     TextTable,
+    budgets_table,
     consumers_table,
     extra_sections,
     findings_table,
@@ -65,10 +66,11 @@ def markdown_summary(summary: Summary, title: str = "audit") -> str:
     """The head of the report: title, verdict line, then the facts as a list."""
     verdict = _MARK[summary.verdict]
     lines = [f"# clockplan {title}: {escape_cell(summary.board)}", "", f"**Verdict:** {verdict} — {summary.counts}", ""]
-    lines += [f"- **Board file:** `{summary.file}`"] if summary.file else []
-    lines += [f"- **{label.capitalize()}:** {escape_cell(text)}" for label, text in summary.facts]
+    lines += [f"- **{label[0].upper() + label[1:]}:** {escape_cell(text)}" for label, text in summary.lead_facts]
     lines.append("- **Worst margins:**")
     lines += [f"  - {escape_cell(line)}" for line in summary.margin_lines]
+    lines += [f"- **{label[0].upper() + label[1:]}:** {escape_cell(text)}" for label, text in summary.context_facts]
+    lines += [f"- **Board file:** `{summary.file}`"] if summary.file else []
     return "\n".join(lines) + "\n"
 
 
@@ -81,7 +83,8 @@ def render_markdown(analysis: Analysis, title: str = "audit") -> str:
     >>> text.splitlines()[0]  # doctest: +SKIP
     '# clockplan audit: Industrial gateway'
     """
-    parts = [markdown_summary(summarize(analysis), title), markdown_table(consumers_table(analysis))]
+    parts = [markdown_summary(summarize(analysis), title), markdown_table(consumers_table(analysis)),
+             markdown_table(budgets_table(analysis))]
     for section in extra_sections(analysis):
         parts.append(markdown_table(section.table) if section.table else f"```text\n{section.text}\n```\n")
     for table in (settings_table(analysis), findings_table(analysis)):

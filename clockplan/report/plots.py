@@ -42,6 +42,7 @@ __all__ = [
     "PhaseNoiseTrace",
     "TemperatureTrace",
     "ErrorDistribution",
+    "MarginBar",
     "PlotData",
     "INSTALL_HINT",
     "MAX_PANELS",
@@ -50,6 +51,7 @@ __all__ = [
     "phase_noise_figure",
     "temperature_figure",
     "distribution_figure",
+    "margins_figure",
     "histogram_edges",
     "figure_png",
     "plot_images",
@@ -109,17 +111,36 @@ class ErrorDistribution:
 
 
 @dataclass(frozen=True)
+class MarginBar:
+    """One consumer's worst margin for the overview: its kind, the share of the budget left, its status."""
+
+    consumer: str
+    kind: str
+    headroom: float
+    status: str
+    text: str = ""
+
+
+@dataclass(frozen=True)
 class PlotData:
-    """Everything there is to plot for one analysis."""
+    """Everything there is to plot for one analysis.
+
+    ``margins`` feeds the overview (every consumer's worst margin);
+    ``left_out`` says which plots or panels were left out and why, for the
+    command to print (a plot with nothing to show is not drawn).
+    """
 
     phase_noise: tuple[PhaseNoiseTrace, ...] = ()
     temperature: tuple[TemperatureTrace, ...] = ()
     distributions: tuple[ErrorDistribution, ...] = ()
+    margins: tuple[MarginBar, ...] = ()
+    margin_warning: float = 0.2
+    left_out: tuple[str, ...] = ()
 
     @property
     def empty(self) -> bool:
         """True if there is nothing to draw."""
-        return not (self.phase_noise or self.temperature or self.distributions)
+        return not (self.phase_noise or self.temperature or self.distributions or self.margins)
 
 
 def matplotlib_available() -> bool:
@@ -147,8 +168,39 @@ def _jitter_note(analysis: Analysis, result: Any) -> str:
     return f"{status}: {first[0]} {first[1]}, no budget" if first else status
 
 
-def collect_plot_data(analysis: Analysis) -> PlotData:
+def _worth_a_panel(analysis: Analysis, result: Any) -> bool:
+    """A consumer that fails, warns, is unchecked or passes with a thin margin: what a reviewer must look at."""
+    from clockplan.margins import is_thin
+    from clockplan.report.content import consumer_margins, consumer_status
+
+    if consumer_status(analysis, result.id) != "PASS":
+        return True
+    threshold = analysis.board.margin_warning
+    return any(math.isfinite(m.headroom) and is_thin(m.headroom, threshold)
+               for m in consumer_margins(analysis, result))
+
+
+def _margin_bars(analysis: Analysis) -> list[MarginBar]:
+    from clockplan.report.content import consumer_margins, consumer_status
+
+    bars = []
+    for result in analysis.consumers:
+        margins = consumer_margins(analysis, result)
+        if margins:
+            worst = min(margins, key=lambda m: m.headroom)
+            bars.append(MarginBar(result.id, worst.kind, worst.headroom, consumer_status(analysis, result.id),
+                                  worst.describe))
+    return bars
+
+
+def collect_plot_data(analysis: Analysis, every: bool = False) -> PlotData:
     """Gather the plot data the budget results offer through their hooks.
+
+    Phase-noise curves are drawn for every consumer that carries one. The
+    ppm-over-temperature and Monte Carlo panels go to the consumers a reviewer
+    must look at (failing, warning, unchecked, or a thin margin), unless
+    ``every``; the overview of every consumer's worst margin is always there.
+    What is left out is said in ``left_out``.
 
     Examples
     --------
@@ -156,22 +208,42 @@ def collect_plot_data(analysis: Analysis) -> PlotData:
     True
     """
     noise, temperature, distributions = [], [], []
+    skipped = {"ppm-temperature.png": [], "monte-carlo.png": []}
     for result in analysis.consumers:
         curve = _hook(result.jitter, "phase_noise_curve")
         if curve is not None:
             offsets, levels, band = curve
             noise.append(PhaseNoiseTrace(result.id, offsets, levels, tuple(band), _jitter_note(analysis, result)))
+        worth = every or _worth_a_panel(analysis, result)
         drift = _hook(result.accuracy, "temperature_curve")
-        if drift is not None:
+        if drift is not None and not worth:
+            skipped["ppm-temperature.png"].append(result.id)
+        elif drift is not None:
             envelope = getattr(drift, "envelope", None)
             temperature.append(TemperatureTrace(result.id, drift[0], drift[1], tuple(drift[2]),
                                                 tuple(envelope) if envelope is not None else None,
                                                 str(getattr(drift, "note", ""))))
         samples = _hook(result.accuracy, "monte_carlo_errors")
-        if samples is not None:
+        if samples is not None and not worth:
+            skipped["monte-carlo.png"].append(result.id)
+        elif samples is not None:
             distributions.append(ErrorDistribution(result.id, samples[0], tuple(samples[1]),
                                                    str(getattr(samples, "note", ""))))
-    return PlotData(tuple(noise), tuple(temperature), tuple(distributions))
+    left_out = []
+    for name, ids in skipped.items():
+        if ids:
+            drawn = temperature if name == "ppm-temperature.png" else distributions
+            what = f"{name} left out: its" if not drawn else f"{name}: no panel for the"
+            left_out.append(f"{what} {len(ids)} consumer(s) that pass with room ({', '.join(ids)}); "
+                            "--every-consumer draws them")
+    bars = _margin_bars(analysis)
+    if not any(bar.kind in ("ppm", "jitter") for bar in bars):
+        if bars:
+            left_out.append("margins.png left out: no ppm or jitter margin was computed (the summary gives "
+                            "the synthesis margins)")
+        bars = []
+    return PlotData(tuple(noise), tuple(temperature), tuple(distributions), tuple(bars),
+                    float(analysis.board.margin_warning), tuple(left_out))
 
 
 def _require_matplotlib() -> None:
@@ -292,6 +364,51 @@ def distribution_figure(traces: Sequence[ErrorDistribution]) -> "Figure":
     return figure
 
 
+_BAR_COLOUR = {"PASS": "#2e7d32", "warn": "#ef6c00", "unchecked": "#6a1b9a", "FAIL": "#c62828"}
+#: The overview clips the bars here (share of the budget left, in %): a 40x overrun would flatten the rest.
+_BAR_CLIP = (-100.0, 100.0)
+
+
+def margins_figure(bars: Sequence[MarginBar], margin_warning: float = 0.2) -> "Figure":
+    """One overview panel: every consumer's worst margin (share of its budget left), status in words.
+
+    Bars beyond ``-100 %`` are clipped and labelled with their true value;
+    the dashed line is the board's ``margin_warning``.
+
+    Examples
+    --------
+    >>> fig = margins_figure([MarginBar("phy0", "ppm", 0.64, "PASS")])  # doctest: +SKIP
+    """
+    _require_matplotlib()
+    from matplotlib.figure import Figure
+
+    count = min(len(bars), MAX_PANELS * 4)
+    shown = list(bars)[:count]
+    figure = Figure(figsize=(8.0, 1.2 + 0.32 * count), layout="constrained")
+    title = "Worst margin of every consumer (share of its budget left)"
+    if count < len(bars):
+        title += f" (the first {count} of {len(bars)})"
+    figure.suptitle(title, fontsize=12)
+    ax = figure.subplots()
+    values = [max(_BAR_CLIP[0], min(_BAR_CLIP[1], b.headroom * 100)) if math.isfinite(b.headroom) else _BAR_CLIP[0]
+              for b in shown]
+    labels = [f"{b.consumer} ({b.kind})" for b in shown]
+    positions = list(range(count))[::-1]
+    ax.barh(positions, values, color=[_BAR_COLOUR.get(b.status, "#546e7a") for b in shown])
+    for y, value, bar in zip(positions, values, shown):
+        # Right of the bar, or right of zero for an overrun (left of it are the consumer names).
+        ax.text(max(value, 0) + 2, y, f"{bar.status}: {bar.text}", va="center", ha="left", fontsize=8)
+    ax.set_yticks(positions, labels, fontsize=8)
+    ax.axvline(0, color="black", linewidth=0.8)
+    ax.axvline(margin_warning * 100, color="#ef6c00", linestyle="--", linewidth=1.0,
+               label=f"margin_warning {margin_warning * 100:g} %")
+    ax.set_xlim(_BAR_CLIP[0] * 1.6, _BAR_CLIP[1] * 1.6)
+    ax.set_xlabel("budget left (%); below 0: over the budget")
+    ax.grid(True, axis="x", alpha=0.3)
+    ax.legend(fontsize=8, loc="lower right")
+    return figure
+
+
 def histogram_edges(values: Sequence[float], wanted: int = 60) -> list[float]:
     """``wanted`` + 1 bin edges spanning ``values``, never narrower than float resolution allows.
 
@@ -332,6 +449,7 @@ def figure_png(figure: "Figure", dpi: int = 110) -> bytes:
 def plot_images(data: PlotData) -> dict[str, bytes]:
     """PNG bytes for each kind of plot that has data, keyed by file name."""
     makers = (
+        ("margins.png", data.margins, lambda bars: margins_figure(bars, data.margin_warning)),
         ("phase-noise.png", data.phase_noise, phase_noise_figure),
         ("ppm-temperature.png", data.temperature, temperature_figure),
         ("monte-carlo.png", data.distributions, distribution_figure),

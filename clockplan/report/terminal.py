@@ -12,7 +12,17 @@ from typing import TYPE_CHECKING
 
 from clockplan.analysis import CAVEAT, Analysis
 from clockplan.report import content
-from clockplan.report.content import Column, Summary, TextTable, clock_tree, consumers_table, settings_table, summarize
+from clockplan.report.content import (
+    WIDE_COLUMNS,
+    Column,
+    Summary,
+    TextTable,
+    clock_tree,
+    compact_consumers_table,
+    consumers_table,
+    settings_table,
+    summarize,
+)
 
 if TYPE_CHECKING:
     from rich.console import Console, RenderableType
@@ -146,9 +156,9 @@ def rich_table(table: TextTable) -> "RenderableType":
     return _FittedTable(table)
 
 
-def consumer_table(analysis: Analysis) -> "RenderableType":
-    """One row per consumer: target, achieved, synthesis error, budget cells, margin, status."""
-    return rich_table(consumers_table(analysis))
+def consumer_table(analysis: Analysis, wide: bool = True) -> "RenderableType":
+    """One row per consumer: every column (``wide``), or id, frequency, status and worst margin."""
+    return rich_table(consumers_table(analysis) if wide else compact_consumers_table(analysis))
 
 
 def pll_table(analysis: Analysis) -> "RenderableType | None":
@@ -187,7 +197,8 @@ def print_summary(summary: Summary, console: "Console", title: str = "audit") ->
 
     source = f" ({escape(summary.file)})" if summary.file else ""
     console.print(f"[bold]clockplan {escape(title)}[/]: {escape(summary.board)}{source}")
-    for label, text in summary.facts:
+    console.print(f"verdict: {_styled(summary.verdict)} - {summary.counts}")
+    for label, text in summary.lead_facts:
         console.print(f"{label}: {escape(text)}")
     if summary.margins:
         console.print("worst margins:")
@@ -195,14 +206,24 @@ def print_summary(summary: Summary, console: "Console", title: str = "audit") ->
             console.print(f"  {escape(line)}")
     else:
         console.print(f"worst margins: {escape(summary.margin_lines[0])}")
-    console.print(f"verdict: {_styled(summary.verdict)} - {summary.counts}")
+    for label, text in summary.context_facts:
+        console.print(f"{label}: {escape(text)}")
 
 
-def render_analysis(analysis: Analysis, console: "Console", title: str = "audit") -> None:
-    """Print the full terminal report: summary, tree, consumers, settings, findings."""
+def render_analysis(analysis: Analysis, console: "Console", title: str = "audit", wide: bool | None = None) -> None:
+    """Print the full terminal report: summary, tree, consumers, settings, findings.
+
+    The consumer table has every column when ``wide`` is true, or (``None``)
+    when the console is at least :data:`~clockplan.report.content.WIDE_COLUMNS`
+    wide; otherwise one line per consumer (id, frequency, status, worst margin).
+    """
+    if wide is None:
+        wide = console.width >= WIDE_COLUMNS
     print_summary(summarize(analysis), console, title)
     console.print(tree_view(analysis))
-    console.print(consumer_table(analysis))
+    console.print(consumer_table(analysis, wide))
+    if not wide:
+        console.print(f"[dim](--wide, {WIDE_COLUMNS}+ columns, Markdown and HTML show every column)[/]")
     for extra in analysis.extras.values():
         if hasattr(extra, "rich_renderable"):
             console.print(extra.rich_renderable())
@@ -216,7 +237,7 @@ def render_analysis(analysis: Analysis, console: "Console", title: str = "audit"
     console.print(f"[dim]{CAVEAT}[/]")
 
 
-def render_text(analysis: Analysis, title: str = "audit", width: int = 100) -> str:
+def render_text(analysis: Analysis, title: str = "audit", width: int = 100, wide: bool | None = None) -> str:
     """The terminal report as plain text (no colour), e.g. for ``--output report.txt``.
 
     Examples
@@ -226,5 +247,5 @@ def render_text(analysis: Analysis, title: str = "audit", width: int = 100) -> s
     import io
 
     buffer = io.StringIO()
-    render_analysis(analysis, make_console(width=width, color=False, file=buffer), title)
+    render_analysis(analysis, make_console(width=width, color=False, file=buffer), title, wide)
     return buffer.getvalue()

@@ -94,7 +94,7 @@ def _sample_window(oversampling: int, sample_ticks: tuple[int, int] | None) -> t
     early, late = sample_ticks
     if not 0 < early <= late < oversampling:
         raise ClockplanError(
-            f"sample_ticks {sample_ticks!r} must satisfy 0 < early <= late < oversampling ({oversampling})",
+            f"sample_ticks [{early}, {late}] must satisfy 0 < early <= late < oversampling ({oversampling})",
             key="sample_ticks",
         )
     return Fraction(early, oversampling), Fraction(late, oversampling)
@@ -210,7 +210,7 @@ def uart_best_divider(clock_hz: Fraction, oversampling: int, baud: Fraction, fra
     ticks = _positive_int("oversampling", oversampling)
     rate = _positive_fraction("baud", baud)
     if isinstance(fraction_bits, bool) or not isinstance(fraction_bits, int) or fraction_bits < 0:
-        raise ClockplanError(f"fraction_bits must be a whole number >= 0, not {fraction_bits!r}", key="fraction_bits")
+        raise ClockplanError(f"fraction_bits must be a whole number >= 0, not {fraction_bits}", key="fraction_bits")
     steps = 2**fraction_bits
     ideal = clock / (ticks * rate) * steps
     nearest = math.floor(ideal + Fraction(1, 2))
@@ -286,7 +286,7 @@ def rtc_ppm_for_drift(drift_s: Fraction, per_s: Fraction) -> Fraction:
     """
     drift = Fraction(drift_s)
     if drift < 0:
-        raise ClockplanError(f"drift {drift_s!r} must not be negative", key="drift")
+        raise ClockplanError(f"drift {drift_s} s must not be negative", key="drift")
     return drift / _positive_fraction("per", per_s)
 
 

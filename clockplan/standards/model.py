@@ -54,7 +54,7 @@ def gaussian_pp_per_rms(ber: float = _DEFAULT_BER) -> float:
     14.07
     """
     if not 0.0 < ber < 0.5:
-        raise ValueError(f"bit error ratio {ber!r} must be between 0 and 0.5")
+        raise ValueError(f"bit error ratio {ber} must be between 0 and 0.5")
     # Bisection on the normal upper tail 0.5*erfc(q/sqrt 2), which falls monotonically.
     low, high = 0.0, 40.0
     for _ in range(200):

@@ -200,7 +200,8 @@ def _converter(table: Mapping[str, Any], path: str, consumer: Mapping[str, Any])
     snr = _call(f"{path}.snr", _decibels, _require(table, "snr", path))
     f_in = _call(f"{path}.f_in", parse_frequency, _require(table, "f_in", path))
     jitter = derived.converter_jitter_for_snr(snr, float(f_in))
-    note = f"Converter SNR {snr:g} dB at {float(f_in):g} Hz input: jitter at most {jitter * 1e15:.4g} fs RMS (jitter alone)."
+    note = (f"Converter SNR {snr:g} dB at {format_frequency(f_in)} input: jitter at most {format_time(jitter)} RMS "
+            "(10^(-SNR/20) / (2 pi f_in), the SNR jitter alone would allow).")
     return jitter, note
 
 

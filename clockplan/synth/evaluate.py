@@ -21,6 +21,7 @@ from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
 from clockplan.findings import Severity
+from clockplan.margins import budget_headroom
 from clockplan.units import format_ppm
 from clockplan.synth.build import parts_board, parts_text, tree_parts
 from clockplan.synth.tree import Block, DirectClass, MainReference, Problem, Tree
@@ -67,7 +68,7 @@ def _consumer_margins(analysis: "Analysis") -> dict[str, tuple[str, float]]:
         rows: list[tuple[str, float]] = []
         accuracy = result.accuracy
         if accuracy is not None and getattr(accuracy, "judged", False):
-            rows.append(("ppm", float(accuracy.result.margin / accuracy.budget.half_width)))
+            rows.append(("ppm", float(budget_headroom(accuracy.result.margin, accuracy.budget.half_width))))
         jitter = result.jitter
         if jitter is not None and jitter.budget_margin() is not None:
             rows.append(("jitter", float(jitter.budget_margin()[0])))
@@ -120,6 +121,8 @@ class Evaluator:
         self._cache: dict[tuple, Check] = {}
         self._plans: dict[tuple, Any] = {}
         self.checked = 0
+        #: The run's deadline (a ``time.monotonic()`` instant) the block plans stop at too, or None.
+        self.deadline: float | None = None
 
     def _run(self, key: tuple, tree: Tree, plan_key: tuple) -> Check:
         from clockplan.analysis import analyze
@@ -132,7 +135,7 @@ class Evaluator:
             # The settings depend on the reference's frequency, not on its grade: plan once per frequency.
             plan = self._plans.get(plan_key)
             if plan is None:
-                plan = plan_board(board, PlanOptions(time_limit_s=BLOCK_PLAN_SECONDS))
+                plan = plan_board(board, PlanOptions(time_limit_s=BLOCK_PLAN_SECONDS, deadline=self.deadline))
                 self._plans[plan_key] = plan
             found = check_analysis(analyze(board, plan.settings), plan)
             self._cache[key] = found
@@ -187,8 +190,12 @@ class Verified:
     check: Check
 
 
-def verify_tree(problem: Problem, tree: Tree, header: Sequence[str] = (), seconds: float = 10.0) -> Verified:
+def verify_tree(problem: Problem, tree: Tree, header: Sequence[str] = (), seconds: float = 10.0,
+                deadline: float | None = None) -> Verified:
     """Write the tree's board file, plan it, write the settings in, read it back and analyse it.
+
+    The plan gets ``seconds``, or stops at ``deadline`` (the run's, a
+    ``time.monotonic()`` instant) if that comes first.
 
     Raises
     ------
@@ -203,7 +210,7 @@ def verify_tree(problem: Problem, tree: Tree, header: Sequence[str] = (), second
     name = problem.spec.source_file or "synthesized board"
     text = parts_text(problem, tree_parts(problem, tree), header)
     board = parse_board(text, name)
-    plan = plan_board(board, PlanOptions(time_limit_s=seconds))
+    plan = plan_board(board, PlanOptions(time_limit_s=seconds, deadline=deadline))
     if plan.feasible:
         text = write_settings(text, board, plan.settings)
         board = parse_board(text, name)

@@ -253,7 +253,10 @@ def _blocking(judge: LeafJudge, stopped: bool, seconds: float = EXPLAIN_SECONDS)
         if time.monotonic() > deadline:
             reasons.append(Reason("time-limit", (), f"the explanation tried the clocks alone for {seconds:g} s and stopped; not every clock was examined"))
             return reasons[:MAX_REASONS]
-        found, why = _serve_alone(judge, klass.index)
+        found, why = _serve_alone(judge, klass.index, deadline)
+        if time.monotonic() > deadline:  # cut inside: what it found so far proves nothing either way
+            reasons.append(Reason("time-limit", (), f"the explanation tried the clocks alone for {seconds:g} s and stopped; not every clock was examined"))
+            return reasons[:MAX_REASONS]
         served_by[klass.index] = found
         if not found:
             reasons.append(Reason("unserved", klass.consumers, f"{klass.label()} cannot be served by any allowed part, even alone: {why}"))
@@ -269,12 +272,22 @@ def _blocking(judge: LeafJudge, stopped: bool, seconds: float = EXPLAIN_SECONDS)
     return reasons[:MAX_REASONS]
 
 
-def _serve_alone(judge: LeafJudge, cls: int) -> tuple[set[Fraction | None], str]:
-    """The main-reference frequencies (None: a dedicated oscillator) on which the class alone passes, and why not."""
+def _serve_alone(judge: LeafJudge, cls: int, deadline: float | None = None) -> tuple[set[Fraction | None], str]:
+    """The main-reference frequencies (None: a dedicated oscillator) on which the class alone passes, and why not.
+
+    Stops before the next block once ``deadline`` (a ``time.monotonic()`` instant) has passed; the
+    caller tells a cut answer by the clock.
+    """
     problem = judge.problem
     found: set[Fraction | None] = set()
     why = "no part template offers its frequency or reaches it"
+
+    def late() -> bool:
+        return deadline is not None and time.monotonic() > deadline
+
     for kind in judge.kinds(None, (cls,), ()):
+        if late():
+            return found, why
         check = judge.evaluator.block(None, Block(kind, (cls,)))
         if check.ok:
             found.add(None)
@@ -290,6 +303,8 @@ def _serve_alone(judge: LeafJudge, cls: int) -> tuple[set[Fraction | None], str]
             for kind in judge.kinds(hz, (cls,), ()):
                 if not isinstance(kind, PllTemplate):
                     continue
+                if late():
+                    return found, why
                 check = judge.evaluator.block(reference, Block(kind, (cls,)))
                 if check.ok:
                     found.add(hz)

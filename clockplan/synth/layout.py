@@ -111,6 +111,10 @@ class Layout:
 
 def _spare_allocation(loads: list[int], eligible: list[bool], spare: int, buffers: Sequence[BufferTemplate]) -> list[int] | None:
     """Extra outputs per class minimizing the buffers' cost (dynamic program over the spare outputs)."""
+    # A class takes at most load - 1 extra outputs (one load per output), so spare outputs past that
+    # sum serve nobody: best[s] is "at most s", and capping s there changes no answer. Without the
+    # cap a part of a million outputs made this table a million entries per class.
+    spare = max(0, min(spare, sum(load - 1 for load, ok in zip(loads, eligible) if ok)))
     # best[s] = (cost key, allocation) using at most s spare outputs over the classes seen so far
     best: dict[int, tuple[tuple, list[int]]] = {s: ((0, Fraction(0), Fraction(0)), []) for s in range(spare + 1)}
     for load, ok in zip(loads, eligible):

@@ -24,6 +24,7 @@ from dataclasses import dataclass, field
 from fractions import Fraction
 from pathlib import Path
 
+from clockplan.deadline import CUT_RUN_NOTE
 from clockplan.errors import BoardError
 from clockplan.synth.evaluate import Evaluator, Verified, verify_tree
 from clockplan.synth.explain import EXPLAIN_SECONDS, Explanation, explain
@@ -52,11 +53,18 @@ class SynthesisOptions:
         Search budget; the best trees found are returned when it runs out.
     exhaustive
         Judge every grouping with no pruning (exact but slow: for small cases and tests).
+    deadline
+        The run's one deadline (a ``time.monotonic()`` instant, see
+        :class:`clockplan.deadline.Deadline`), or None for ``time_limit_s``
+        from the start of the synthesis. With it, the search stops at 70 % of
+        the time to it and verification and explanation stop at it: nothing
+        gets a fresh budget of its own.
     """
 
     alternatives: int = 2
     time_limit_s: float = 30.0
     exhaustive: bool = False
+    deadline: float | None = None
 
 
 @dataclass
@@ -187,6 +195,8 @@ def synthesize(spec: ConsumerList, library: PartsLibrary | None = None, options:
     for reference in problem.reference_candidates():
         references.setdefault(reference.hz, []).append(reference)
     evaluator = Evaluator(problem)
+    run_end = options.deadline  # None: the search alone is bounded, by time_limit_s (the library's default)
+    evaluator.deadline = run_end
     judge = LeafJudge(problem, evaluator, references)
     keep = options.alternatives + 1 + _SPARE_TREES
     stats = SearchStats()
@@ -196,6 +206,8 @@ def synthesize(spec: ConsumerList, library: PartsLibrary | None = None, options:
     else:
         top = TopTrees(keep)
         deadline = started + options.time_limit_s
+        if run_end is not None:
+            deadline = min(deadline, started + 0.7 * max(0.0, run_end - started))
         search = BranchAndBound(judge, top, deadline, stats)
         # Probe every frequency first (its first few groupings) so that a good bound prunes the full runs;
         # then search each fully, the frequencies whose probe found the cheapest trees first.
@@ -221,7 +233,7 @@ def synthesize(spec: ConsumerList, library: PartsLibrary | None = None, options:
     if stats.stopped:
         notes.append(
             f"the search stopped at its time limit ({options.time_limit_s:g} s): these are the best trees found, "
-            "not proven the best; raise --time-limit to search further"
+            f"not proven the best; raise --time-limit to search further ({CUT_RUN_NOTE})"
         )
     passing: list[ProposedTree] = []
     failing: list[ProposedTree] = []
@@ -229,7 +241,7 @@ def synthesize(spec: ConsumerList, library: PartsLibrary | None = None, options:
     for candidate in top.items:
         if len(passing) > options.alternatives:
             break
-        verified = verify_tree(problem, candidate.tree, header)
+        verified = verify_tree(problem, candidate.tree, header, deadline=run_end)
         proposed = ProposedTree(len(passing) + 1, candidate, verified)
         (passing if verified.check.ok else failing).append(proposed)
     explanation = explain(judge, [p.candidate for p in passing], stats.stopped, _explain_seconds(options, started))
@@ -242,6 +254,8 @@ def _explain_seconds(options: SynthesisOptions, started: float) -> float:
     if options.exhaustive:
         return EXPLAIN_SECONDS
     left = started + options.time_limit_s - time.monotonic()
+    if options.deadline is not None:  # the run's deadline: what it leaves, never a second of its own
+        return max(0.0, min(EXPLAIN_SECONDS, left, options.deadline - time.monotonic()))
     return max(1.0, min(EXPLAIN_SECONDS, left))
 
 
