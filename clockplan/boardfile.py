@@ -41,7 +41,8 @@ from clockplan.tomlread import (
     nonempty_text,
     part_id,
     read_document,
-    read_text_file,
+    decode_text,
+    read_file_bytes,
     type_name,
     whole_number,
 )
@@ -526,8 +527,9 @@ def load_board(path: str | Path) -> Board:
     >>> board.name  # doctest: +SKIP
     'Industrial gateway'
     """
-    text = read_text_file(path, "board file", missing_hint="check the path; 'clockplan new FILE' writes a starter board")
-    return parse_board(text, str(path))
+    data = read_file_bytes(path, "board file", missing_hint="check the path; 'clockplan new FILE' writes a starter board")
+    board = parse_board(decode_text(data, path, "board file"), str(path))
+    return dataclasses.replace(board, source_bytes=data)
 
 
 def _section_hint(section: str) -> str | None:

@@ -18,21 +18,25 @@ from collections.abc import Callable, Sequence
 from clockplan import __version__
 from clockplan.errors import ClockplanError, InfeasibleError
 
-__all__ = ["main", "EXIT_OK", "EXIT_FINDINGS", "EXIT_INPUT", "EXIT_INFEASIBLE", "EXIT_BUG", "DEBUG_ENV"]
+__all__ = ["main", "EXIT_OK", "EXIT_FINDINGS", "EXIT_INPUT", "EXIT_INFEASIBLE", "EXIT_BUG", "EXIT_INTERRUPTED", "EXIT_TERMINATED", "DEBUG_ENV"]
 
 EXIT_OK = 0
 EXIT_FINDINGS = 1
 EXIT_INPUT = 2
 EXIT_INFEASIBLE = 3
 EXIT_BUG = 4
+#: 128 + the signal's number, the shell's convention: Ctrl-C (SIGINT, 2) and SIGTERM (15).
+EXIT_INTERRUPTED = 130
+EXIT_TERMINATED = 143
 #: Set to 1 to let an internal error raise with its traceback (for developers).
 DEBUG_ENV = "CLOCKPLAN_DEBUG"
 
 _EPILOG = """exit status: 0 no error finding, 1 error findings (budget broken or constraint
 violated; with --fail-on unchecked also a budget not computed, with --fail-on warning
 also any warning), 2 bad input or usage, 3 no feasible plan, 4 internal error (a bug;
-CLOCKPLAN_DEBUG=1 shows its traceback), 130 interrupted (a file being written
-keeps its old content).
+CLOCKPLAN_DEBUG=1 shows its traceback), 130 interrupted by Ctrl-C (SIGINT), 143
+stopped by SIGTERM (every file written is whole, old or new; no temporary file
+is left).
 Budgets are planning estimates: the part datasheets and the governing standard decide."""
 
 
@@ -292,12 +296,13 @@ def _deliver(args: argparse.Namespace, text: str) -> None:
     if not args.output:
         sys.stdout.write(text)
         return
-    from clockplan.fileio import atomic_write_text, refuse_overwrite
+    from clockplan.fileio import atomic_write_text, is_special_target, refuse_overwrite
 
-    try:
-        refuse_overwrite(args.output, protected=[p for p in (getattr(args, "board", None),) if p])
-    except ClockplanError as err:
-        raise ClockplanError(err.message, hint="write the report to another file") from None
+    if not is_special_target(args.output):
+        try:
+            refuse_overwrite(args.output, protected=[p for p in (getattr(args, "board", None),) if p])
+        except ClockplanError as err:
+            raise ClockplanError(err.message, hint="write the report to another file") from None
     atomic_write_text(args.output, text)
     sys.stderr.write(f"clockplan: wrote {args.output}\n")
 
@@ -463,7 +468,7 @@ def _run_plots(args: argparse.Namespace) -> int:
         return EXIT_OK
     if _make_folder(args.output_dir):
         sys.stdout.write(f"clockplan: created the folder {args.output_dir}\n")
-    for path in write_plots(data, args.output_dir):
+    for path in write_plots(data, args.output_dir, protected=[args.board]):
         sys.stdout.write(f"clockplan: wrote {path}\n")
     return EXIT_OK
 
@@ -668,26 +673,81 @@ def _run_synthesize(args: argparse.Namespace) -> int:
     return EXIT_FINDINGS if result.best.verified.analysis.has_errors else EXIT_OK
 
 
-def _refuse_clobbering(args: argparse.Namespace) -> None:
-    """Refuse, before any work, an output that is an input file or another output, in any spelling.
-
-    ``--write``/``--output`` never name the board or a ``--library`` file
-    (``plan --in-place`` is the one way to write the board), and two outputs
-    of one run never name the same file.
-    """
-    from clockplan.fileio import refuse_overwrite, same_file
-
-    inputs = [p for p in (getattr(args, "board", None), getattr(args, "library", None)) if p]
+def _outputs(args: argparse.Namespace) -> list[tuple[str, str]]:
+    """Every file the command may write, as (flag, path); ``plots`` names its images in the folder."""
     outputs = [(f"--{name}", getattr(args, name, None)) for name in ("write", "output")]
     outputs = [(flag, path) for flag, path in outputs if path]
-    for flag, path in outputs:
+    if args.command == "new":
+        outputs.append(("FILE", args.file))
+    if args.command == "plots":
+        import os
+
+        from clockplan.fileio import check_path
+        from clockplan.report.plots import PLOT_FILES
+
+        check_path(args.output_dir, "--output-dir path")
+        if os.path.isdir(args.output_dir):  # a folder still to be created holds no input
+            outputs += [("--output-dir", os.path.join(args.output_dir, name)) for name in PLOT_FILES]
+    return outputs
+
+
+def _refuse_clobbering(args: argparse.Namespace) -> None:
+    """Refuse, before any work, an output that cannot be written, is an input file or another output.
+
+    Every writing command passes here (:func:`clockplan.fileio.guard_outputs`):
+    ``--write``/``--output``, the ``plots`` images and the file ``new`` creates
+    never name the board or a ``--library`` file in any spelling (``plan
+    --in-place`` is the one way to write the board); two outputs of one run
+    never name the same file; an output's folder must exist and its name fit
+    the file system.
+    """
+    from clockplan.fileio import check_path, guard_outputs
+
+    inputs = [p for p in (getattr(args, "board", None), getattr(args, "library", None)) if p]
+    for flag, path in (("board", getattr(args, "board", None)), ("--library", getattr(args, "library", None))):
+        if path:
+            check_path(path, f"{flag} path")
+    outputs = _outputs(args)
+    try:
+        guard_outputs(outputs, inputs)
+    except ClockplanError as err:
+        hint = err.hint
+        if "refusing" in err.message and not (args.command == "plan" and err.message.startswith("--write")):
+            hint = "write it to another file"
+        raise ClockplanError(err.message, hint=hint) from None
+
+
+class _Terminated(KeyboardInterrupt):
+    """SIGTERM, raised like Ctrl-C so that every clean-up path that handles one handles both."""
+
+
+def _on_sigterm(signum, frame) -> None:  # noqa: ARG001 - the signal module's signature
+    raise _Terminated
+
+
+def _install_signal_handlers() -> dict:
+    """Ctrl-C raises KeyboardInterrupt, SIGTERM :class:`_Terminated`; return the handlers to restore.
+
+    A signal the caller set to be ignored stays ignored.
+    """
+    import signal
+
+    old = {}
+    for signum, handler in ((signal.SIGTERM, _on_sigterm), (signal.SIGINT, signal.default_int_handler)):
         try:
-            refuse_overwrite(path, protected=inputs)
-        except ClockplanError as err:
-            hint = err.hint if (args.command, flag) == ("plan", "--write") else "write it to another file"
-            raise ClockplanError(f"{flag}: {err.message}", hint=hint) from None
-    if len(outputs) == 2 and same_file(outputs[0][1], outputs[1][1]):
-        raise ClockplanError(f"--write and --output name the same file {outputs[1][1]}", hint="give them different files")
+            if signal.getsignal(signum) is signal.SIG_IGN:  # ignored by the caller (nohup, a background job): keep it so
+                continue
+            old[signum] = signal.signal(signum, handler)
+        except ValueError:  # not the main thread: signals go elsewhere
+            break
+    return old
+
+
+def _restore_signal_handlers(old: dict) -> None:
+    import signal
+
+    for signum, handler in old.items():
+        signal.signal(signum, handler)
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -698,16 +758,26 @@ def main(argv: Sequence[str] | None = None) -> int:
     >>> main(["audit", "boards/industrial-gateway.toml", "--json"])  # doctest: +SKIP
     0
     """
-    parser = _build_parser()
+    old_handlers = _install_signal_handlers()
     try:
-        args = parser.parse_args(argv)
-    except SystemExit as stop:
-        return int(stop.code or 0)
-    run: Callable[[argparse.Namespace], int] | None = getattr(args, "run", None)
-    if run is None:
-        parser.print_help()
-        return EXIT_INPUT
+        return _main(argv)
+    except KeyboardInterrupt as stop:  # a signal after the inner handlers: while printing a message
+        return EXIT_TERMINATED if isinstance(stop, _Terminated) else EXIT_INTERRUPTED
+    finally:
+        _restore_signal_handlers(old_handlers)
+
+
+def _main(argv: Sequence[str] | None) -> int:
     try:
+        parser = _build_parser()
+        try:
+            args = parser.parse_args(argv)
+        except SystemExit as stop:
+            return int(stop.code or 0)
+        run: Callable[[argparse.Namespace], int] | None = getattr(args, "run", None)
+        if run is None:
+            parser.print_help()
+            return EXIT_INPUT
         _refuse_clobbering(args)
         args.started = time.monotonic()  # --time-limit counts from here
         return run(args)
@@ -717,9 +787,13 @@ def main(argv: Sequence[str] | None = None) -> int:
     except ClockplanError as err:
         sys.stderr.write(f"clockplan: error: {err.describe()}\n")
         return EXIT_INPUT
+    except _Terminated:
+        sys.stderr.write("clockplan: terminated (SIGTERM); every file written is whole, old or new\n")
+        return EXIT_TERMINATED
     except KeyboardInterrupt:
-        sys.stderr.write("clockplan: interrupted; a file being written keeps its old content\n")
-        return 130  # 128 + SIGINT, the shell's convention for Ctrl-C
+        sys.stderr.write("clockplan: interrupted; every file written is whole, old or new, and no temporary "
+                         "file is left\n")
+        return EXIT_INTERRUPTED
     except Exception as err:  # anything else is a bug: one line, never a traceback
         return _report_bug(err)
 

@@ -291,6 +291,8 @@ class Board:
     warns (:mod:`clockplan.margins`).
     ``accuracy_policy`` says how frequency-error budgets are judged:
     :data:`WORST_CASE` (the default) or :data:`STATISTICAL`.
+    ``source_bytes`` are the bytes the board was parsed from (``None`` for a
+    board built in code): ``plan --write`` edits these, never a second read.
     """
 
     name: str
@@ -307,6 +309,8 @@ class Board:
     unstated: tuple[str, ...] = ()
     margin_warning: Fraction = DEFAULT_MARGIN_WARNING
     accuracy_policy: str = WORST_CASE
+    #: The file's bytes as read (BOM and line endings included), for writing settings back into them.
+    source_bytes: bytes | None = field(default=None, repr=False, compare=False)
 
     def part(self, part_id: str) -> Any:
         """Return the part (reference, PLL, divider, buffer or consumer) with this id."""

@@ -10,7 +10,9 @@ refuses unknown keys with a suggestion, and the small value parsers
 from __future__ import annotations
 
 import datetime
+import os
 import re
+import stat
 import tomllib
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
@@ -18,6 +20,7 @@ from pathlib import Path
 from typing import Any, TypeVar
 
 from clockplan.errors import BoardError, ClockplanError, did_you_mean, printable
+from clockplan.fileio import check_path
 from clockplan.limits import check_limits
 from clockplan.parts import FrequencyRange, IntChoices
 from clockplan.units import parse_frequency, parse_ratio
@@ -30,6 +33,8 @@ __all__ = [
     "Locator",
     "TableReader",
     "read_text_file",
+    "read_file_bytes",
+    "decode_text",
     "read_document",
     "located",
     "type_name",
@@ -264,18 +269,34 @@ def located(reader: TableReader, parse: Callable[[], T]) -> T:
 # --------------------------------------------------------------------------- files and documents
 
 
-def read_text_file(path: str | Path, what: str, missing_hint: str = "check the path") -> str:
-    """The UTF-8 text of ``path``; ``what`` names the file in messages (``"board file"``, ``"library file"``).
+def read_file_bytes(path: str | Path, what: str, missing_hint: str = "check the path") -> bytes:
+    """The bytes of the regular file ``path``; ``what`` names the file in messages.
+
+    A FIFO, a device or a socket is refused rather than read (a FIFO with no
+    writer would block forever); so is a path no file system accepts (a NUL
+    byte, over the length limits).
 
     Raises
     ------
     BoardError
-        The file is missing, a folder, unreadable, larger than :data:`MAX_FILE_BYTES`
-        or not UTF-8. A UTF-8 byte-order mark (some editors write one) is skipped.
+        The file is missing, a folder, not a regular file, unreadable or
+        larger than :data:`MAX_FILE_BYTES`.
     """
+    try:
+        check_path(path, f"{what} path")
+    except ClockplanError as err:
+        raise BoardError(err.message, hint=err.hint) from None
     path = Path(path)
     try:
-        with path.open("rb") as stream:
+        # O_NONBLOCK: opening a FIFO with no writer returns at once (then refused) instead of blocking.
+        handle = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0))
+        with os.fdopen(handle, "rb") as stream:
+            mode = os.fstat(stream.fileno()).st_mode
+            if stat.S_ISDIR(mode):
+                raise IsADirectoryError
+            if not stat.S_ISREG(mode):
+                raise BoardError(f"is not a regular file (a FIFO, device or socket); a {what} must be one",
+                                 file=str(path), hint="save the board to a file and name that file")
             data = stream.read(MAX_FILE_BYTES + 1)
         if len(data) > MAX_FILE_BYTES:
             raise BoardError(
@@ -283,15 +304,35 @@ def read_text_file(path: str | Path, what: str, missing_hint: str = "check the p
                 file=str(path),
                 hint=f"a {what} is a few kB of TOML; check that this is the right file",
             )
-        return data.decode("utf-8-sig")
+        return data
     except FileNotFoundError:
         raise BoardError("file not found", file=str(path), hint=missing_hint) from None
     except IsADirectoryError:
         raise BoardError(f"is a folder, not a {what}", file=str(path), hint="name a .toml file") from None
-    except UnicodeDecodeError as err:
-        raise BoardError(f"not UTF-8 text (byte {err.start})", file=str(path), hint=f"save the {what} as UTF-8 TOML") from None
     except OSError as err:
         raise BoardError(f"cannot read the {what}: {err.strerror}", file=str(path)) from None
+
+
+def decode_text(data: bytes, path: str | Path, what: str) -> str:
+    """UTF-8 text of a file's bytes; a UTF-8 byte-order mark (some editors write one) is skipped."""
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError as err:
+        raise BoardError(f"not UTF-8 text (byte {err.start})", file=str(path), hint=f"save the {what} as UTF-8 TOML") from None
+
+
+def read_text_file(path: str | Path, what: str, missing_hint: str = "check the path") -> str:
+    """The UTF-8 text of ``path``; ``what`` names the file in messages (``"board file"``, ``"library file"``).
+
+    Line endings are kept as in the file (``\\r\\n`` stays).
+
+    Raises
+    ------
+    BoardError
+        See :func:`read_file_bytes`; also a file that is not UTF-8. A UTF-8
+        byte-order mark is skipped.
+    """
+    return decode_text(read_file_bytes(path, what, missing_hint), path, what)
 
 
 def read_document(

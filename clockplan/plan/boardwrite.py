@@ -6,7 +6,9 @@ and ``[pll.settings]`` sub-tables are replaced by one line, and a table
 without settings gets one after its last key. Every other line, comment and
 blank line stays as it was. The result is read back and checked before
 anything is written, and the file is replaced atomically
-(:func:`clockplan.fileio.atomic_write_text`).
+(:func:`clockplan.fileio.atomic_write_bytes`). The edit works on the bytes the
+board was loaded from (byte-order mark and line endings kept), and nothing is
+written if the file changed on disk since then.
 """
 
 from __future__ import annotations
@@ -17,10 +19,10 @@ from fractions import Fraction
 from pathlib import Path
 
 from clockplan.errors import BoardError, ClockplanError
-from clockplan.fileio import atomic_write_text, refuse_overwrite
+from clockplan.fileio import refuse_overwrite
 from clockplan.parts import Board, PllSetting, Settings
 
-__all__ = ["settings_line", "write_settings", "write_board_file"]
+__all__ = ["settings_line", "write_settings", "settings_bytes", "write_board_file"]
 
 _HEADER = re.compile(r"^\s*\[(\[)?\s*([A-Za-z0-9_.\-\"' ]+?)\s*\]\]?\s*(#.*)?$")
 _KEY = re.compile(r"^\s*[A-Za-z0-9_\-\"']+(\s*\.\s*[A-Za-z0-9_\-\"']+)*\s*=")
@@ -172,22 +174,66 @@ def _check_round_trip(text: str, board: Board, settings: Settings) -> None:
             raise ClockplanError(f"the ratio of {divider_id} could not be written back faithfully", file=board.source_file)
 
 
-def write_board_file(source: str | Path, target: str | Path, board: Board, settings: Settings, in_place: bool = False) -> Path:
-    """Write ``source`` with ``settings`` filled in to ``target``, atomically.
+_BOM = b"\xef\xbb\xbf"
 
-    Refuses to write over ``source`` unless ``in_place`` is true.
+
+def settings_bytes(data: bytes, board: Board, settings: Settings) -> bytes:
+    """The board file's bytes ``data`` with the settings filled in; BOM and line endings kept.
+
+    Examples
+    --------
+    >>> settings_bytes(b"\\xef\\xbb\\xbf[board]\\r\\n...", board, plan.settings)[:3]  # doctest: +SKIP
+    b'\\xef\\xbb\\xbf'
+    """
+    bom = _BOM if data.startswith(_BOM) else b""
+    text = data[len(bom):].decode("utf-8")
+    return bom + write_settings(text, board, settings).encode("utf-8")
+
+
+def _unchanged_on_disk(source: str | Path, loaded: bytes) -> None:
+    """Refuse when the board file on disk is no longer the one that was read and planned."""
+    from clockplan.tomlread import read_file_bytes
+
+    try:
+        now = read_file_bytes(source, "board file")
+    except BoardError as err:
+        raise ClockplanError(f"the board file changed during the run ({err.message}); nothing was written",
+                             file=str(source), hint="run the plan again on the file as it is now") from None
+    if now != loaded:
+        raise ClockplanError("the board file changed on disk since it was read; nothing was written "
+                             "(the plan is for the file as it was)",
+                             file=str(source), hint="run the plan again on the file as it is now")
+
+
+def write_board_file(source: str | Path, target: str | Path, board: Board, settings: Settings, in_place: bool = False) -> Path:
+    """Write the board file with ``settings`` filled in to ``target``, atomically.
+
+    The settings go into the bytes the board was parsed from
+    (``board.source_bytes``), never a second read of ``source``: its byte-order
+    mark and line endings are kept, and if ``source`` changed on disk since it
+    was read (edited, replaced, deleted) nothing is written. Refuses to write
+    over ``source`` unless ``in_place`` is true.
 
     Raises
     ------
     ClockplanError
-        Writing over the input without ``in_place``, or a file that cannot be written.
+        Writing over the input without ``in_place``, the board file changed
+        since it was read, or a file that cannot be written.
 
     Examples
     --------
     >>> write_board_file("boards/edge-router.toml", "planned.toml", board, plan.settings)  # doctest: +SKIP
     PosixPath('planned.toml')
     """
+    from clockplan.fileio import atomic_write_bytes
+
     refuse_overwrite(target, protected=[source], allow=in_place)
-    text = Path(source).read_text(encoding="utf-8")
-    atomic_write_text(target, write_settings(text, board, settings))
+    loaded = board.source_bytes
+    if loaded is None:  # a board built in code: the file is all there is
+        from clockplan.tomlread import read_file_bytes
+
+        loaded = read_file_bytes(source, "board file")
+    data = settings_bytes(loaded, board, settings)
+    _unchanged_on_disk(source, loaded)
+    atomic_write_bytes(target, data)
     return Path(target)

@@ -32,12 +32,13 @@ from typing import TYPE_CHECKING, Any
 
 from clockplan.analysis import Analysis
 from clockplan.errors import ClockplanError
-from clockplan.fileio import atomic_write_bytes
+from clockplan.fileio import atomic_write_bytes, refuse_overwrite
 
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
 
 __all__ = [
+    "PLOT_FILES",
     "PhaseNoiseTrace",
     "TemperatureTrace",
     "ErrorDistribution",
@@ -456,7 +457,11 @@ def plot_images(data: PlotData) -> dict[str, bytes]:
     return {name: figure_png(make(traces)) for name, traces, make in makers if traces}
 
 
-def write_plots(data: PlotData, folder: str | Path) -> list[Path]:
+#: The files ``plots`` may write into its folder, whatever the data.
+PLOT_FILES = ("phase-noise.png", "ppm-temperature.png", "monte-carlo.png")
+
+
+def write_plots(data: PlotData, folder: str | Path, protected: Sequence[str | Path] = ()) -> list[Path]:
     """Write one PNG per kind of plot that has data; return the paths written.
 
     Raises
@@ -475,6 +480,7 @@ def write_plots(data: PlotData, folder: str | Path) -> list[Path]:
     written = []
     for name, png in plot_images(data).items():
         path = folder / name
+        refuse_overwrite(path, protected=protected)
         try:
             atomic_write_bytes(path, png)
         except OSError as err:
