@@ -276,11 +276,21 @@ def _report_format(args: argparse.Namespace) -> str:
         if chosen not in (None, "json"):
             raise ClockplanError(f"--json and --format {chosen} disagree", hint="give one of them")
         return "json"
-    if chosen is None and args.output:
+    if chosen is None and args.output and not _special_output(args.output):
         from clockplan.report.formats import output_format
 
         chosen = output_format(args.output)
     return chosen or "table"
+
+
+def _special_output(path: str) -> bool:
+    """True for an existing output that is not a regular file (``/dev/null``, ``/dev/stdout``, a FIFO).
+
+    Such a name says nothing about a format: the default one is written (table, or DOT for ``diagram``).
+    """
+    import os
+
+    return os.path.exists(path) and not os.path.isfile(path)
 
 
 def _deliver_diagram(args: argparse.Namespace, analysis, fmt: str) -> None:
@@ -429,7 +439,7 @@ def _explain_format(args: argparse.Namespace) -> str:
 
 def _diagram_format(output: str | None) -> str:
     """dot or svg from an --output suffix; stdout is DOT; another suffix is an error."""
-    if not output:
+    if not output or _special_output(output):
         return "dot"
     from clockplan.report.formats import format_for_path
 
