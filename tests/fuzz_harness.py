@@ -219,33 +219,50 @@ def run_cli_case(data: bytes, args: list[str], *, hang_s: float = 60.0) -> tuple
     Returns ``(status, stdout, stderr)``; raises :class:`FuzzCrash` on a traceback,
     an exception escaping ``main``, a status other than 0-3, or a malformed error.
     """
-    from clockplan.cli import main
-
     with tempfile.TemporaryDirectory() as tmp:
         path = str(Path(tmp) / "board.toml")
         Path(path).write_bytes(data)
         argv = [args[0], path, *args[1:]]
-        out, err = io.StringIO(), io.StringIO()
         stage = "cli-" + args[0]
-        try:
-            with alarm(hang_s), contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
-                status = main(argv)
-        except _Timeout:
-            raise FuzzCrash("hang", f"clockplan {' '.join(argv)} still running after {hang_s} s", stage) from None
-        except SystemExit as stop:
-            raise FuzzCrash("SystemExit", f"main raised SystemExit({stop.code})", stage) from None
-        except Exception as exc:
-            raise FuzzCrash(type(exc).__name__, "".join(traceback.format_exception(exc, limit=-4)), stage) from None
-        stdout, stderr = out.getvalue(), err.getvalue()
-        if "Traceback" in stderr or "Traceback" in stdout:
-            raise FuzzCrash("traceback", stderr[-2000:], stage)
-        if status not in (0, 1, 2, 3):
-            raise FuzzCrash(f"exit-{status}", stderr[-2000:], stage)
-        if status in (2, 3) and not stderr.startswith("clockplan: "):
-            raise FuzzCrash("malformed-error", stderr[:500], stage)
+        status, stdout, stderr = _call_main(argv, stage, hang_s)
+        _check_exit(status, stdout, stderr, stage)
         if status == 2 and stderr.count("clockplan: error:") != 1:
             raise FuzzCrash("malformed-error", stderr[:500], stage)
         return status, stdout, stderr
+
+
+def _call_main(argv: list[str], stage: str, hang_s: float, tmp: str | None = None) -> tuple[int, str, str]:
+    """``main(argv)`` with its output captured under a hang alarm; an escape from it is a :class:`FuzzCrash`.
+
+    ``tmp`` (a temporary folder's name) is replaced by ``<tmp>`` in the output, so that one crash keeps
+    one signature across runs.
+    """
+    from clockplan.cli import main
+
+    out, err = io.StringIO(), io.StringIO()
+    try:
+        with alarm(hang_s), contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
+            status = main(argv)
+    except _Timeout:
+        raise FuzzCrash("hang", f"clockplan {' '.join(argv)} still running after {hang_s} s", stage) from None
+    except SystemExit as stop:
+        raise FuzzCrash("SystemExit", f"main raised SystemExit({stop.code})", stage) from None
+    except Exception as exc:
+        raise FuzzCrash(type(exc).__name__, "".join(traceback.format_exception(exc, limit=-4)), stage) from None
+    stdout, stderr = out.getvalue(), err.getvalue()
+    if tmp is not None:
+        stdout, stderr = stdout.replace(tmp, "<tmp>"), stderr.replace(tmp, "<tmp>")
+    return status, stdout, stderr
+
+
+def _check_exit(status: int, stdout: str, stderr: str, stage: str) -> None:
+    """A traceback, a status other than 0-3, or an error without its ``clockplan: `` prefix is a crash."""
+    if "Traceback" in stderr or "Traceback" in stdout:
+        raise FuzzCrash("traceback", stderr[-2000:], stage)
+    if status not in (0, 1, 2, 3):
+        raise FuzzCrash(f"exit-{status}", stderr[-2000:], stage)
+    if status in (2, 3) and not stderr.startswith("clockplan: "):
+        raise FuzzCrash("malformed-error", stderr[:500], stage)
 
 
 #: Seconds a run may take past its --time-limit before the campaign calls it an overrun (the goal is
@@ -265,8 +282,6 @@ def run_command_case(case, *, hang_s: float = 60.0, slack_s: float = OVERRUN_SLA
     """
     import time
 
-    from clockplan.cli import main
-
     with tempfile.TemporaryDirectory() as tmp:
         paths = {"out": str(Path(tmp) / "out")}
         Path(paths["out"]).mkdir()
@@ -274,27 +289,11 @@ def run_command_case(case, *, hang_s: float = 60.0, slack_s: float = OVERRUN_SLA
             paths[name] = str(Path(tmp) / f"{name}.toml")
             Path(paths[name]).write_bytes(data)
         argv = [_fill(arg, paths) for arg in case.args]
-        out, err = io.StringIO(), io.StringIO()
         stage = "cli-" + case.command
         started = time.monotonic()
-        try:
-            with alarm(hang_s), contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
-                status = main(argv)
-        except _Timeout:
-            raise FuzzCrash("hang", f"clockplan {' '.join(argv)} still running after {hang_s} s", stage) from None
-        except SystemExit as stop:
-            raise FuzzCrash("SystemExit", f"main raised SystemExit({stop.code})", stage) from None
-        except Exception as exc:
-            raise FuzzCrash(type(exc).__name__, "".join(traceback.format_exception(exc, limit=-4)), stage) from None
+        status, stdout, stderr = _call_main(argv, stage, hang_s, tmp)
         seconds = time.monotonic() - started
-        # The case's temporary folder is a new name each run: taken out, one crash keeps one signature.
-        stdout, stderr = out.getvalue().replace(tmp, "<tmp>"), err.getvalue().replace(tmp, "<tmp>")
-        if "Traceback" in stderr or "Traceback" in stdout:
-            raise FuzzCrash("traceback", stderr[-2000:], stage)
-        if status not in (0, 1, 2, 3):
-            raise FuzzCrash(f"exit-{status}", stderr[-2000:], stage)
-        if status in (2, 3) and not stderr.startswith("clockplan: "):
-            raise FuzzCrash("malformed-error", stderr[:500], stage)
+        _check_exit(status, stdout, stderr, stage)
         if case.time_limit is not None and seconds > case.time_limit + slack_s and case.command not in OVERRUN_EXEMPT:
             raise FuzzCrash("overrun", f"clockplan {' '.join(case.args)}: {seconds:.2f} s with --time-limit "
                             f"{case.time_limit:g}", stage)
